@@ -1,0 +1,47 @@
+"""Settings are data: one table feeds the app defaults, the CLI help and the docs."""
+
+from __future__ import annotations
+
+import os
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import platformdirs
+
+
+@dataclass(frozen=True)
+class Setting:
+    name: str
+    default: Any
+    help: str
+
+
+def default_database_url() -> str:
+    """The SQLite file in the user's data directory (created on first use)."""
+    data_dir = Path(platformdirs.user_data_dir("whyfired", appauthor=False))
+    data_dir.mkdir(parents=True, exist_ok=True)
+    return f"sqlite:///{data_dir / 'whyfired.sqlite'}"
+
+
+SETTINGS: tuple[Setting, ...] = (
+    Setting(
+        "DATABASE_URL",
+        None,
+        "SQLAlchemy URL of the store; from --db, else WHYFIRED_DATABASE_URL, "
+        "else a SQLite file in the user's data directory.",
+    ),
+    Setting("MAX_IMPORT_MB", 200, "Largest metric file accepted, in megabytes."),
+    Setting("DEFAULT_TOLERANCE", 3.0, "Band half-width in robust standard deviations."),
+    Setting("DEFAULT_HISTORY_WEEKS", 6, "Weeks of history the expected band is rebuilt from."),
+    Setting("DISPLAY_POINTS", 2000, "Most points per trace sent to the browser."),
+)
+
+
+def database_url(cli_value: str | None = None) -> str:
+    """Resolve the database URL: --db, then WHYFIRED_DATABASE_URL, then the default file."""
+    return cli_value or os.environ.get("WHYFIRED_DATABASE_URL") or default_database_url()
+
+
+def defaults() -> dict[str, Any]:
+    return {s.name: s.default for s in SETTINGS}

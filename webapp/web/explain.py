@@ -1,0 +1,3 @@
+from flask import Blueprint
+
+bp = Blueprint("explain", __name__)
