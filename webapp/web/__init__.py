@@ -6,7 +6,23 @@ from flask import Flask
 
 
 def register_web(app: Flask) -> None:
-    from webapp.web import explain, home, imports, pages, reviews, rules, series
+    from webapp.web import (
+        assets,
+        csrf,
+        errors,
+        explain,
+        filters,
+        home,
+        imports,
+        pages,
+        reviews,
+        rules,
+        series,
+    )
 
-    for module in (home, imports, series, explain, pages, rules, reviews):
+    csrf.init_app(app)
+    errors.init_app(app)
+    filters.init_app(app)
+    app.add_template_global(assets.plotly_version, "plotly_version")
+    for module in (assets, home, imports, series, explain, pages, rules, reviews):
         app.register_blueprint(module.bp)

@@ -1,0 +1,108 @@
+"""Template filters: times in the reader's time zone, numbers and durations for people."""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from typing import Any
+from zoneinfo import ZoneInfo
+
+import pandas as pd
+from flask import Flask, url_for
+from werkzeug.routing import BuildError
+
+
+def to_timestamp(value: Any) -> pd.Timestamp | None:
+    """A UTC Timestamp from a Timestamp, datetime, ISO string or epoch milliseconds."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return None
+    if isinstance(value, int | float) and not isinstance(value, bool):
+        return pd.Timestamp(int(value), unit="ms", tz="UTC")
+    ts = pd.Timestamp(value)
+    if ts is pd.NaT:
+        return None
+    return ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
+
+
+def local_time(value: Any, tz: str = "UTC", with_zone: bool = False) -> str:
+    ts = to_timestamp(value)
+    if ts is None:
+        return "—"
+    local = ts.tz_convert(ZoneInfo(tz))
+    text = local.strftime("%Y-%m-%d %H:%M")
+    if local.second:
+        text += local.strftime(":%S")
+    return f"{text} {local.strftime('%Z')}" if with_zone else text
+
+
+def input_time(value: Any, tz: str = "UTC") -> str:
+    """The value for an ``<input type="datetime-local">`` in ``tz``."""
+    ts = to_timestamp(value)
+    if ts is None:
+        return ""
+    return ts.tz_convert(ZoneInfo(tz)).strftime("%Y-%m-%dT%H:%M")
+
+
+def number(value: Any, digits: int = 4) -> str:
+    if value is None:
+        return "—"
+    if isinstance(value, bool) or not isinstance(value, int | float):
+        return str(value)
+    if isinstance(value, float) and not math.isfinite(value):
+        return "—"
+    if isinstance(value, int) or float(value).is_integer() and abs(value) < 1e15:
+        return f"{int(value):,}"
+    return f"{value:,.{digits}g}" if abs(value) >= 1 else f"{value:.{digits}g}"
+
+
+def duration(value: Any) -> str:
+    if value is None:
+        return "—"
+    td = pd.Timedelta(value) if not isinstance(value, int | float) else pd.Timedelta(seconds=value)
+    if td is pd.NaT:
+        return "—"
+    seconds = int(td.total_seconds())
+    parts = []
+    for unit, size in (("d", 86400), ("h", 3600), ("min", 60), ("s", 1)):
+        if seconds >= size:
+            parts.append(f"{seconds // size} {unit}")
+            seconds %= size
+    return " ".join(parts[:2]) if parts else "0 s"
+
+
+def percent(value: Any) -> str:
+    if value is None:
+        return "—"
+    return f"{100 * float(value):.0f}%"
+
+
+def fact_value(value: Any) -> str:
+    """A fact from ``exp.facts`` (numbers, times, lists) as one short string."""
+    if isinstance(value, list | tuple):
+        return ", ".join(fact_value(v) for v in value) or "—"
+    if isinstance(value, dict):
+        return "; ".join(f"{k}: {fact_value(v)}" for k, v in value.items()) or "—"
+    if isinstance(value, dt.datetime | pd.Timestamp):
+        return local_time(value, with_zone=True)
+    return number(value)
+
+
+def endpoint_url(endpoint: str, fallback: str) -> str:
+    """``url_for(endpoint)``, or ``fallback`` while that screen has no index route yet."""
+    try:
+        return url_for(endpoint)
+    except BuildError:
+        return fallback
+
+
+def init_app(app: Flask) -> None:
+    app.add_template_global(endpoint_url, "endpoint_url")
+    for name, fn in {
+        "local_time": local_time,
+        "input_time": input_time,
+        "number": number,
+        "duration": duration,
+        "percent": percent,
+        "fact_value": fact_value,
+    }.items():
+        app.add_template_filter(fn, name)
