@@ -1,0 +1,1 @@
+"""The store: SQLAlchemy models and the functions that read and write them."""

@@ -99,22 +99,31 @@ class Series(Base):
     metric: Mapped[str] = mapped_column(String(500), index=True)
     labels: Mapped[dict[str, str]] = mapped_column(JSON, default=dict)
     unit: Mapped[str | None] = mapped_column(String(40))
+    # Kept current by the store on every import and delete, so listing series is cheap.
+    point_count: Mapped[int] = mapped_column(BigInteger, default=0)
+    first_ts: Mapped[int | None] = mapped_column(BigInteger)  # UTC epoch milliseconds
+    last_ts: Mapped[int | None] = mapped_column(BigInteger)
+    step_ms: Mapped[int | None] = mapped_column(BigInteger)  # median spacing of recent points
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
 
 
 class Point(Base):
-    """One sample. ``import_id`` is the import that last wrote the value."""
+    """One sample. ``import_id`` is the import that last wrote the value.
+
+    On SQLite the table is clustered on its key (``WITHOUT ROWID``): one B-tree, appended
+    in (series, ts) order by bulk imports. An import's points always lie inside its own
+    series and time range, so deleting an import needs no index on ``import_id``.
+    """
 
     __tablename__ = "points"
+    __table_args__ = {"sqlite_with_rowid": False}
 
     series_id: Mapped[int] = mapped_column(
         ForeignKey("series.id", ondelete="CASCADE"), primary_key=True
     )
     ts: Mapped[int] = mapped_column(BigInteger, primary_key=True)
     value: Mapped[float] = mapped_column(Float)
-    import_id: Mapped[int | None] = mapped_column(
-        ForeignKey("imports.id", ondelete="SET NULL"), index=True
-    )
+    import_id: Mapped[int | None] = mapped_column(ForeignKey("imports.id", ondelete="SET NULL"))
 
 
 class AlertRule(Base):
@@ -268,4 +277,3 @@ class ActionItem(Base):
     position: Mapped[int] = mapped_column(Integer, default=0)
 
     review: Mapped[Review] = relationship(back_populates="action_items")
-

@@ -1,0 +1,132 @@
+"""Engine, migrations and sessions: the one place that opens the database.
+
+SQLite (the default) gets WAL journaling, foreign keys and a busy timeout on every
+connection, and explicit ``BEGIN``s so that transactions and savepoints behave as
+SQLAlchemy documents them. Any other SQLAlchemy URL is used as given.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Any
+
+from alembic import command
+from alembic.config import Config
+from flask import Flask, current_app, g
+from sqlalchemy import Engine, create_engine, event
+from sqlalchemy.engine import make_url
+from sqlalchemy.orm import Session
+
+BUSY_TIMEOUT_MS = 10_000
+ENGINE_KEY = "whyfired_engine"
+
+
+def make_engine(url: str, **kwargs: Any) -> Engine:
+    """An engine for ``url``; for a SQLite file, its folder is created if missing."""
+    parsed = make_url(url)
+    is_sqlite = parsed.get_backend_name() == "sqlite"
+    if is_sqlite and parsed.database and parsed.database != ":memory:":
+        Path(parsed.database).expanduser().parent.mkdir(parents=True, exist_ok=True)
+    engine = create_engine(url, **kwargs)
+    if is_sqlite:
+        _configure_sqlite(engine, in_memory=parsed.database in (None, "", ":memory:"))
+    return engine
+
+
+def _configure_sqlite(engine: Engine, *, in_memory: bool) -> None:
+    @event.listens_for(engine, "connect")
+    def _on_connect(dbapi_connection: Any, _record: Any) -> None:
+        # Let SQLAlchemy, not the driver, decide where transactions begin.
+        dbapi_connection.isolation_level = None
+        cursor = dbapi_connection.cursor()
+        try:
+            cursor.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+            cursor.execute("PRAGMA foreign_keys = ON")
+            if not in_memory:
+                cursor.execute("PRAGMA journal_mode = WAL")
+                # Durable at every checkpoint; the usual pairing with WAL (common practice).
+                cursor.execute("PRAGMA synchronous = NORMAL")
+        finally:
+            cursor.close()
+
+    @event.listens_for(engine, "begin")
+    def _on_begin(conn: Any) -> None:
+        conn.exec_driver_sql("BEGIN")
+
+
+def alembic_config(connection: Any = None) -> Config:
+    """An Alembic config pointing at the shipped ``migrations/`` folder."""
+    from webapp import resource_dir
+
+    config = Config()
+    config.set_main_option("script_location", str(resource_dir("migrations")))
+    if connection is not None:
+        config.attributes["connection"] = connection
+        config.set_main_option("sqlalchemy.url", connection.engine.url.render_as_string(False))
+    return config
+
+
+def upgrade(engine: Engine, revision: str = "head") -> None:
+    """Bring the schema to ``revision`` (the latest by default)."""
+    with engine.begin() as connection:
+        command.upgrade(alembic_config(connection), revision)
+
+
+def downgrade(engine: Engine, revision: str) -> None:
+    with engine.begin() as connection:
+        command.downgrade(alembic_config(connection), revision)
+
+
+def current_revision(engine: Engine) -> str | None:
+    from alembic.runtime.migration import MigrationContext
+
+    with engine.connect() as connection:
+        return MigrationContext.configure(connection).get_current_revision()
+
+
+def new_session(engine: Engine) -> Session:
+    return Session(engine, expire_on_commit=False)
+
+
+@contextmanager
+def session_scope(engine: Engine) -> Iterator[Session]:
+    """A session that commits when the block ends normally and rolls back on any error."""
+    session = new_session(engine)
+    try:
+        yield session
+        session.commit()
+    except BaseException:
+        session.rollback()
+        raise
+    finally:
+        session.close()
+
+
+def init_app(app: Flask) -> None:
+    """Build the app's engine once, migrate it to head, and close request sessions."""
+    engine = make_engine(app.config["DATABASE_URL"])
+    upgrade(engine)
+    app.extensions[ENGINE_KEY] = engine
+    app.teardown_appcontext(_close_session)
+
+
+def get_engine(app: Flask | None = None) -> Engine:
+    return (app or current_app).extensions[ENGINE_KEY]
+
+
+def get_session() -> Session:
+    """The current request's session, opened on first use and closed on teardown.
+
+    Views commit explicitly; whatever is left uncommitted is rolled back at teardown.
+    """
+    if "db_session" not in g:
+        g.db_session = new_session(get_engine())
+    return g.db_session
+
+
+def _close_session(_exc: BaseException | None = None) -> None:
+    session = g.pop("db_session", None)
+    if session is not None:
+        session.close()
