@@ -1,0 +1,356 @@
+"""Replay: re-run an alert rule over stored history and list when it would have fired.
+
+Semantics (DESIGN.md). The condition is evaluated at every sample of an *evaluation grid*;
+a firing starts at the first sample at which the condition has held continuously for the
+pending period, and ends at the first later sample where it is false. ``end`` is NaT for a
+firing still going at the end of the data.
+
+The evaluation grid. Stored series are not always regular, so the rule is evaluated on a
+regular grid of the rule's ``step`` (when it has none, the series' own step, the median
+spacing of its timestamps). The evaluation at grid time ``t`` sees the last sample in the
+step that ends at ``t``, i.e. in ``(t - step, t]``: nothing from the future, and a series
+already on that grid is evaluated sample by sample, unchanged. Grid times are multiples of
+the step counted from the Unix epoch, so two series with the same step share one grid.
+
+Gaps. A grid step with no sample evaluates to "no data", and no data counts as false (as
+NaN does): a collector outage ends a firing, and when data returns the pending period
+starts again. With a grid step ``s`` and a pending period ``p`` a run of true evaluations
+starting at ``t0`` fires at ``t0 + ceil(p / s) * s``, if the run lasts that long.
+
+Everything is vectorised: the condition is one boolean array, its runs come from one
+``diff``, and every pending period is a cut on the run lengths (the what-if sweep relies on
+that).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Literal
+
+import numpy as np
+import pandas as pd
+
+__all__ = ["ThresholdRule", "BandRule", "replay", "evaluation_grid", "rule_from_fields"]
+
+_MAX_GRID = 50_000_000
+
+
+def _as_timedelta(value: object, name: str) -> pd.Timedelta:
+    try:
+        delta = pd.Timedelta(value)
+    except (TypeError, ValueError) as err:
+        raise ValueError(f"{name} must be a duration such as '10min', got {value!r}") from err
+    if pd.isna(delta):
+        raise ValueError(f"{name} must be a duration, got NaT")
+    return delta
+
+
+def _format_duration(delta: pd.Timedelta) -> str:
+    seconds = int(delta.total_seconds())
+    if seconds == 0:
+        return "0s"
+    for unit, size in (("d", 86400), ("h", 3600), ("min", 60)):
+        if seconds % size == 0:
+            return f"{seconds // size}{unit}"
+    return f"{seconds}s"
+
+
+@dataclass(frozen=True)
+class ThresholdRule:
+    """Fire when the value is above (or below) a threshold for the pending period ``for_``.
+
+    Exactly one of ``above`` and ``below`` is given. ``step`` is the evaluation step (None:
+    the series' own step). The comparison is strict: a value equal to the threshold is not
+    above it.
+    """
+
+    above: float | None = None
+    below: float | None = None
+    for_: pd.Timedelta = pd.Timedelta(0)
+    step: pd.Timedelta | None = None
+
+    def __post_init__(self) -> None:
+        if (self.above is None) == (self.below is None):
+            raise ValueError("a threshold rule needs exactly one of 'above' and 'below'")
+        limit = self.above if self.above is not None else self.below
+        if not isinstance(limit, int | float) or not math.isfinite(limit):
+            raise ValueError(f"the threshold must be a finite number, got {limit!r}")
+        _check_timing(self, self.for_, self.step)
+
+    @property
+    def direction(self) -> Literal["above", "below"]:
+        return "above" if self.above is not None else "below"
+
+    @property
+    def threshold(self) -> float:
+        return float(self.above if self.above is not None else self.below)  # type: ignore[arg-type]
+
+    @property
+    def text(self) -> str:
+        """The rule in words, e.g. ``above 800 for 10min``."""
+        out = f"{self.direction} {self.threshold:g} for {_format_duration(self.for_)}"
+        if self.step is not None:
+            out += f", evaluated every {_format_duration(self.step)}"
+        return out
+
+    def condition(self, values: np.ndarray) -> np.ndarray:
+        """The condition per evaluation; NaN (no data) is false."""
+        with np.errstate(invalid="ignore"):
+            if self.above is not None:
+                return values > self.above
+            return values < self.threshold
+
+
+@dataclass(frozen=True)
+class BandRule:
+    """Fire when the value is outside the expected band at ``tolerance`` for ``for_``.
+
+    The band for each day (midnight to midnight on the ``tz`` wall clock) is fitted on the
+    ``history`` before that day only, so replaying never looks ahead: what a day's firings
+    are depends on that day and the days before it. Days with less than ``min_history`` of
+    data before them have no band and never fire. ``direction`` is ``"above"`` (only above
+    the upper edge), ``"below"`` or ``"both"``.
+    """
+
+    tolerance: float = 3.0
+    for_: pd.Timedelta = pd.Timedelta(0)
+    history: pd.Timedelta = pd.Timedelta(weeks=4)
+    direction: Literal["both", "above", "below"] = "both"
+    tz: str = "UTC"
+    step: pd.Timedelta | None = None
+    min_history: pd.Timedelta = pd.Timedelta(days=1)
+
+    def __post_init__(self) -> None:
+        if not isinstance(self.tolerance, int | float) or not self.tolerance > 0:
+            raise ValueError(f"the tolerance must be a positive number, got {self.tolerance!r}")
+        if self.direction not in ("both", "above", "below"):
+            raise ValueError(
+                f"direction must be 'both', 'above' or 'below', got {self.direction!r}"
+            )
+        _check_timing(self, self.for_, self.step)
+        for name in ("history", "min_history"):
+            delta = _as_timedelta(getattr(self, name), name)
+            if delta <= pd.Timedelta(0):
+                raise ValueError(f"{name} must be positive, got {delta}")
+            object.__setattr__(self, name, delta)
+        try:
+            pd.Timestamp("2000-01-01", tz=self.tz)
+        except Exception as err:
+            raise ValueError(f"unknown time zone {self.tz!r}") from err
+
+    @property
+    def text(self) -> str:
+        where = {"both": "outside", "above": "above", "below": "below"}[self.direction]
+        out = (
+            f"{where} the expected band at tolerance {self.tolerance:g}"
+            f" for {_format_duration(self.for_)}"
+        )
+        if self.step is not None:
+            out += f", evaluated every {_format_duration(self.step)}"
+        return out
+
+
+Rule = ThresholdRule | BandRule
+
+
+def _check_timing(rule: Rule, for_: object, step: object) -> None:
+    pending = _as_timedelta(for_, "the pending period")
+    if pending < pd.Timedelta(0):
+        raise ValueError(f"the pending period must not be negative, got {pending}")
+    object.__setattr__(rule, "for_", pending)
+    if step is not None:
+        delta = _as_timedelta(step, "the evaluation step")
+        if delta <= pd.Timedelta(0):
+            raise ValueError(f"the evaluation step must be positive, got {delta}")
+        object.__setattr__(rule, "step", delta)
+
+
+def rule_from_fields(fields: dict) -> Rule:
+    """Build a rule from stored alert-rule fields (``kind``, ``direction``, ``threshold``,
+    ``tolerance``, ``pending_seconds``, ``step_seconds``); raises ValueError when incomplete."""
+    kind = fields.get("kind") or "threshold"
+    pending = pd.Timedelta(seconds=int(fields.get("pending_seconds") or 0))
+    step_seconds = fields.get("step_seconds")
+    step = pd.Timedelta(seconds=int(step_seconds)) if step_seconds else None
+    direction = fields.get("direction") or ("both" if kind == "band" else "above")
+    if kind == "band":
+        tolerance = fields.get("tolerance")
+        return BandRule(
+            tolerance=3.0 if tolerance is None else float(tolerance),
+            for_=pending,
+            direction=direction,
+            tz=fields.get("tz") or "UTC",
+            step=step,
+        )
+    if kind != "threshold":
+        raise ValueError(f"unknown rule kind {kind!r}: expected 'threshold' or 'band'")
+    threshold = fields.get("threshold")
+    if threshold is None:
+        raise ValueError("a threshold rule needs a threshold")
+    if direction not in ("above", "below"):
+        raise ValueError(
+            f"a threshold rule's direction must be 'above' or 'below', not {direction!r}"
+        )
+    return ThresholdRule(**{direction: float(threshold)}, for_=pending, step=step)
+
+
+def _clean(series: pd.Series) -> pd.Series:
+    if not isinstance(series, pd.Series):
+        raise ValueError(f"replay needs a pandas Series, got {type(series).__name__}")
+    if not isinstance(series.index, pd.DatetimeIndex):
+        raise ValueError("replay needs a series with a DatetimeIndex (UTC timestamps)")
+    index = series.index
+    index = index.tz_localize("UTC") if index.tz is None else index.tz_convert("UTC")
+    values = pd.to_numeric(pd.Series(series.to_numpy(), index=index), errors="coerce")
+    values = values.astype("float64")
+    values = values[np.isfinite(values.to_numpy())]
+    if values.empty:
+        raise ValueError("the series has no values to replay (it is empty or all missing)")
+    if not values.index.is_monotonic_increasing:
+        values = values.sort_index(kind="stable")
+    return values
+
+
+def _series_step(index: pd.DatetimeIndex) -> pd.Timedelta:
+    """The median spacing of the timestamps, rounded to whole seconds when at least 1 s."""
+    if len(index) < 2:
+        return pd.Timedelta(minutes=1)
+    ns = index.as_unit("ns").asi8
+    diffs = np.diff(ns)
+    diffs = diffs[diffs > 0]
+    if diffs.size == 0:
+        return pd.Timedelta(minutes=1)
+    median = float(np.median(diffs))
+    if median >= 1e9:
+        median = round(median / 1e9) * 1e9
+    return pd.Timedelta(int(median), unit="ns")
+
+
+def evaluation_grid(
+    series: pd.Series, step: pd.Timedelta | None = None
+) -> tuple[pd.DatetimeIndex, np.ndarray, pd.Timedelta]:
+    """The regular grid the rule is evaluated on: (times, values with NaN for no data, step).
+
+    See the module docstring: last sample per step ``(t - step, t]``, labelled ``t``.
+    """
+    clean = _clean(series)
+    step = _series_step(clean.index) if step is None else pd.Timedelta(step)
+    step_ns = int(step.value)
+    ns = clean.index.as_unit("ns").asi8
+    bucket = -(-ns // step_ns)
+    first = int(bucket[0])
+    size = int(bucket[-1]) - first + 1
+    if size > _MAX_GRID:
+        raise ValueError(
+            f"an evaluation step of {step} over {clean.index[-1] - clean.index[0]} gives "
+            f"{size:,} evaluations; choose a longer step"
+        )
+    values = np.full(size, np.nan)
+    last_in_bucket = np.r_[bucket[1:] != bucket[:-1], True]
+    values[bucket[last_in_bucket] - first] = clean.to_numpy()[last_in_bucket]
+    times = pd.DatetimeIndex((first + np.arange(size, dtype=np.int64)) * step_ns, tz="UTC").as_unit(
+        "ns"
+    )
+    return times, values, step
+
+
+def runs(condition: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Start indices and exclusive end indices of the runs of True in ``condition``."""
+    padded = np.concatenate(([0], condition.astype(np.int8), [0]))
+    change = np.diff(padded)
+    return np.flatnonzero(change == 1), np.flatnonzero(change == -1)
+
+
+def pending_samples(pending: pd.Timedelta, step: pd.Timedelta) -> int:
+    """How many evaluations after a run starts it fires: ceil(pending / step)."""
+    return int(-(-int(pd.Timedelta(pending).value) // int(step.value)))
+
+
+def fire_indices(
+    run_starts: np.ndarray, run_ends: np.ndarray, k: int
+) -> tuple[np.ndarray, np.ndarray]:
+    """(firing start index, firing end index) for the runs that last past ``k`` samples."""
+    keep = run_ends - run_starts > k
+    return run_starts[keep] + k, run_ends[keep]
+
+
+def _firings_frame(times: pd.DatetimeIndex, starts: np.ndarray, ends: np.ndarray) -> pd.DataFrame:
+    n = len(times)
+    end_times = pd.DatetimeIndex(
+        [times[i] if i < n else pd.NaT for i in ends] if len(ends) else [], tz="UTC"
+    ).as_unit("ns")
+    return pd.DataFrame(
+        {
+            "start": pd.DatetimeIndex(times[starts]).as_unit("ns"),
+            "end": end_times,
+        }
+    )
+
+
+def band_condition(
+    times: pd.DatetimeIndex, values: np.ndarray, series: pd.Series, rule: BandRule
+) -> np.ndarray:
+    """Outside-the-band per evaluation, each day's band fitted on the days before it."""
+    from webapp.analysis import explain  # the explainer's public entry point
+
+    clean = _clean(series)
+    lower = np.full(len(times), np.nan)
+    upper = np.full(len(times), np.nan)
+    local = times.tz_convert(rule.tz)
+    day_starts = local.normalize().unique()
+    first_data = clean.index[0]
+    for day in day_starts:
+        day_start = day.tz_convert("UTC")
+        # 26 hours on, then back to midnight: the next local midnight on 23- and 25-hour days
+        day_end = (day + pd.Timedelta(hours=26)).normalize().tz_convert("UTC")
+        if day_start - first_data < rule.min_history:
+            continue
+        upto = clean[clean.index < day_end]
+        exp = explain(
+            upto,
+            window=(day_start, day_end),
+            history=rule.history,
+            tolerance=rule.tolerance,
+            tz=rule.tz,
+        )
+        band = exp.frame[["lower", "upper"]]
+        band = band[(band.index >= day_start) & (band.index < day_end)]
+        if band.empty:
+            continue
+        lo, hi = times.searchsorted(day_start), times.searchsorted(day_end)
+        aligned = band.reindex(times[lo:hi], method="ffill")
+        lower[lo:hi] = aligned["lower"].to_numpy(dtype=float)
+        upper[lo:hi] = aligned["upper"].to_numpy(dtype=float)
+    with np.errstate(invalid="ignore"):
+        above = values > upper
+        below = values < lower
+    if rule.direction == "above":
+        return above
+    if rule.direction == "below":
+        return below
+    return above | below
+
+
+def evaluate(series: pd.Series, rule: Rule) -> tuple[pd.DatetimeIndex, np.ndarray, pd.Timedelta]:
+    """(grid times, condition per evaluation, step) for any rule."""
+    if not isinstance(rule, ThresholdRule | BandRule):
+        raise ValueError(f"replay needs a ThresholdRule or a BandRule, got {type(rule).__name__}")
+    times, values, step = evaluation_grid(series, rule.step)
+    if isinstance(rule, ThresholdRule):
+        condition = rule.condition(values)
+    else:
+        condition = band_condition(times, values, series, rule)
+    return times, condition, step
+
+
+def replay(series: pd.Series, rule: Rule) -> pd.DataFrame:
+    """When ``rule`` would have fired over ``series``: a DataFrame of ``start``, ``end``.
+
+    ``end`` is NaT for a firing still going at the end of the data. Raises ValueError for an
+    empty or all-missing series or a rule that is not a ThresholdRule or BandRule.
+    """
+    times, condition, step = evaluate(series, rule)
+    run_starts, run_ends = runs(condition)
+    starts, ends = fire_indices(run_starts, run_ends, pending_samples(rule.for_, step))
+    return _firings_frame(times, starts, ends)
