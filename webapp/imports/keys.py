@@ -68,9 +68,7 @@ def parse_series_key(key: str) -> tuple[str, dict[str, str]]:
         eq = body.find("=", pos)
         if eq < 0:
             if body[pos:].strip():
-                raise ValueError(
-                    f"series key {key!r}: expected name=value after {body[:pos]!r}"
-                )
+                raise ValueError(f"series key {key!r}: expected name=value after {body[:pos]!r}")
             break
         name = body[pos:eq].strip()
         _check_label_name(name)

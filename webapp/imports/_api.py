@@ -1,0 +1,88 @@
+"""Entry points: a file or bytes in, a ParsedImport out, or ImportRejected with problems."""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Callable
+from pathlib import Path
+
+from webapp.imports._csv import parse_csv_long, parse_csv_wide
+from webapp.imports._detect import UnknownFormat, check_override, detect_format
+from webapp.imports._problems import ProblemLog
+from webapp.imports._text import without_bom
+from webapp.imports._types import ImportRejected, ParsedImport
+
+DEFAULT_MAX_BYTES = 200 * 1024**2
+
+Parser = Callable[[bytes, str, "str | None", ProblemLog], ParsedImport]
+
+
+def _parsers() -> dict[str, Parser]:
+    return {"csv-long": parse_csv_long, "csv-wide": parse_csv_wide}
+
+
+def _too_big(size: int, max_bytes: int, log: ProblemLog) -> None:
+    if size > max_bytes:
+        log.reject(
+            f"the file is {size / 1024**2:.1f} MB, over the {max_bytes / 1024**2:.0f} MB "
+            "limit (raise MAX_IMPORT_MB to accept larger files)"
+        )
+
+
+def _check_zone(tz: str | None, log: ProblemLog) -> None:
+    if tz is None:
+        return
+    import zoneinfo
+
+    try:
+        zoneinfo.ZoneInfo(tz)
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError):
+        log.reject(f"unknown time zone {tz!r}; expected an IANA name such as Europe/Berlin")
+
+
+def parse_bytes(
+    data: bytes,
+    file_name: str,
+    format: str | None = None,
+    tz: str | None = None,
+    max_bytes: int = DEFAULT_MAX_BYTES,
+) -> ParsedImport:
+    """Parse one file's bytes. ``format`` overrides detection; ``tz`` names the zone of
+    naive times (UTC when None). Raises ImportRejected naming file, line and column."""
+    log = ProblemLog(file_name)
+    _too_big(len(data), max_bytes, log)
+    _check_zone(tz, log)
+    if not bytes(without_bom(data[:65536])).strip():
+        log.reject("the file is empty")
+    if format is None:
+        try:
+            format = detect_format(data, file_name)
+        except UnknownFormat as exc:
+            log.reject(f"unknown format: {exc}")
+    else:
+        check_override(format, data, file_name, log)
+    parser = _parsers()[format]
+    try:
+        return parser(data, file_name, tz, log)
+    except ImportRejected:
+        raise
+    except Exception as exc:  # noqa: BLE001 - a reader's own error must not surface raw
+        log.reject(f"could not be read as {format}: {exc}")
+        raise AssertionError("unreachable") from exc
+
+
+def parse_file(
+    path: str | os.PathLike[str],
+    format: str | None = None,
+    tz: str | None = None,
+    max_bytes: int = DEFAULT_MAX_BYTES,
+) -> ParsedImport:
+    """Parse a file on disk; its size is checked before it is read."""
+    path = Path(path)
+    log = ProblemLog(path.name)
+    try:
+        size = path.stat().st_size
+    except OSError as exc:
+        log.reject(f"cannot read the file: {exc.strerror or exc}")
+    _too_big(size, max_bytes, log)
+    return parse_bytes(path.read_bytes(), path.name, format=format, tz=tz, max_bytes=max_bytes)

@@ -1,0 +1,326 @@
+"""CSV in two layouts.
+
+Long: one row per point, with a timestamp column, a metric column, a value column, and
+every other column a label. Wide: a timestamp column and one column per series, whose
+header is the series key (``checkout.latency_p95{host=api-3}``).
+"""
+
+from __future__ import annotations
+
+import csv
+from dataclasses import dataclass
+from functools import cache
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.csv as pcsv
+
+from webapp.imports._assemble import assemble, series_problem
+from webapp.imports._problems import LineMap, ProblemLog
+from webapp.imports._text import non_empty_lines, reject_bad_encoding, without_bom
+from webapp.imports._timestamps import Timestamps, parse_timestamps
+from webapp.imports._types import ParsedImport, SeriesMeta
+from webapp.imports._values import parse_values
+from webapp.imports.keys import parse_series_key
+
+TIMESTAMP_NAMES = ("timestamp", "time", "ts", "datetime", "date", "timestamp_utc", "time_utc")
+METRIC_NAMES = ("metric", "name", "metric_name")
+VALUE_NAMES = ("value", "val")
+DELIMITERS = (",", ";", "\t")
+_TEXT = pa.dictionary(pa.int32(), pa.string())
+
+
+@dataclass(frozen=True)
+class Header:
+    names: list[str]
+    delimiter: str
+    timestamp: str | None
+    metric: str | None
+    value: str | None
+
+
+def _role(names: list[str], aliases: tuple[str, ...]) -> str | None:
+    lowered = {name.strip().lower(): name for name in names}
+    for alias in aliases:
+        if alias in lowered:
+            return lowered[alias]
+    return None
+
+
+def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
+    """The first line: column names, the delimiter, and which columns play which role."""
+    body = without_bom(data)
+    end = bytes(body[:65536]).find(b"\n")
+    first = bytes(body[: end if end >= 0 else 65536]).rstrip(b"\r")
+    try:
+        text = first.decode("utf-8")
+    except UnicodeDecodeError:
+        reject_bad_encoding(body, log)
+    if not text.strip():
+        log.reject("line 1 is empty; expected a header row naming the columns", line=1)
+    delimiter = max(DELIMITERS, key=text.count)
+    names = next(csv.reader([text], delimiter=delimiter))
+    names = [name.strip() for name in names]
+    if len(names) < 2:
+        log.reject(
+            "expected a header row with at least a timestamp and a value column, "
+            f"separated by commas, semicolons or tabs; found {text[:80]!r}",
+            line=1,
+        )
+    seen: set[str] = set()
+    for name in names:
+        if not name:
+            log.error("a column in the header has no name", line=1)
+        elif name in seen:
+            log.error(f"column {name!r} appears twice in the header", line=1, column=name)
+        seen.add(name)
+    if _looks_like_data(names):
+        log.error(
+            "expected a header row naming the columns (e.g. timestamp,metric,host,value); "
+            f"line 1 holds data: {text[:80]!r}",
+            line=1,
+        )
+    log.check()
+    return Header(
+        names=names,
+        delimiter=delimiter,
+        timestamp=_role(names, TIMESTAMP_NAMES),
+        metric=_role(names, METRIC_NAMES),
+        value=_role(names, VALUE_NAMES),
+    )
+
+
+def _looks_like_data(names: list[str]) -> bool:
+    numbers = pd.to_numeric(pd.Series(names, dtype=object), errors="coerce").notna()
+    dates = pd.to_datetime(pd.Series(names, dtype=object), format="ISO8601", errors="coerce")
+    return bool(numbers.any() or dates.notna().any())
+
+
+class _CsvLines:
+    """Line numbers for rows, computed only when a problem needs them."""
+
+    def __init__(self, data: memoryview):
+        self.data = data
+
+    @cache  # noqa: B019 - one object per file read
+    def _lines(self) -> np.ndarray:
+        return non_empty_lines(self.data)
+
+    def __call__(self, rows: np.ndarray) -> np.ndarray:
+        lines = self._lines()
+        return lines[np.minimum(rows + 1, len(lines) - 1)]
+
+
+def _read_table(
+    body: memoryview, header: Header, column_types: dict[str, pa.DataType], log: ProblemLog
+) -> pa.Table:
+    """Arrow's multi-threaded reader; wrong field counts and bad bytes become problems."""
+    short_or_long: list[tuple[int, int, str]] = []
+
+    def on_invalid_row(row: pcsv.InvalidRow) -> str:
+        short_or_long.append((row.expected_columns, row.actual_columns, row.text))
+        return "skip"
+
+    try:
+        table = pcsv.read_csv(
+            pa.BufferReader(pa.py_buffer(body)),
+            read_options=pcsv.ReadOptions(column_names=header.names, skip_rows=1),
+            parse_options=pcsv.ParseOptions(
+                delimiter=header.delimiter, invalid_row_handler=on_invalid_row
+            ),
+            convert_options=pcsv.ConvertOptions(
+                column_types=column_types, strings_can_be_null=False
+            ),
+        )
+    except pa.ArrowInvalid as exc:
+        if "UTF8" in str(exc) or "utf8" in str(exc).lower():
+            reject_bad_encoding(body, log)
+        raise
+    raw = bytes(body) if short_or_long else b""
+    for expected, actual, text in short_or_long:
+        position = raw.find(text.encode("utf-8")) if text else -1
+        line = raw.count(b"\n", 0, position) + 1 if position >= 0 else None
+        log.error(
+            f"expected {expected} fields separated by {header.delimiter!r}, found {actual}",
+            line=line,
+        )
+    log.check()
+    return table
+
+
+def _read_with_fallback(
+    body: memoryview, header: Header, typed: dict[str, pa.DataType], log: ProblemLog
+) -> pa.Table:
+    """Read with numeric types; if a cell does not convert, read those columns as text so
+    each bad cell can be named."""
+    try:
+        return _read_table(body, header, typed, log)
+    except pa.ArrowInvalid:
+        as_text = {name: (_TEXT if kind == _TEXT else pa.string()) for name, kind in typed.items()}
+        for name in header.names:
+            as_text.setdefault(name, pa.string())
+        return _read_table(body, header, as_text, log)
+
+
+def _series_codes(
+    table: pa.Table, metric: str, label_names: list[str], log: ProblemLog, line_of: LineMap
+) -> tuple[np.ndarray, list[SeriesMeta]]:
+    """One integer per row naming its (metric, labels) combination, computed on the unique
+    combinations only; the per-row work stays in numpy."""
+    columns = [metric, *label_names]
+    combined = np.zeros(table.num_rows, dtype=np.int64)
+    dictionaries = []
+    stride = 1
+    for name in columns:
+        encoded = table.column(name).combine_chunks()
+        if not pa.types.is_dictionary(encoded.type):
+            encoded = encoded.dictionary_encode()
+        dictionary = [str(v).strip() for v in encoded.dictionary.to_pylist()]
+        dictionaries.append(dictionary)
+        indices = encoded.indices.fill_null(0).to_numpy(zero_copy_only=False).astype(np.int64)
+        combined = combined * max(len(dictionary), 1) + indices
+        stride *= max(len(dictionary), 1)
+        if stride >= 2**62:
+            return _series_codes_grouped(table, columns, log, line_of)
+    codes, uniques = pd.factorize(combined)
+    metas = []
+    bad = np.zeros(len(uniques), dtype=bool)
+    reasons: dict[int, str] = {}
+    for u, packed in enumerate(uniques.tolist()):
+        parts = []
+        for dictionary in reversed(dictionaries):
+            packed, index = divmod(packed, max(len(dictionary), 1))
+            parts.append(dictionary[index] if dictionary else "")
+        parts.reverse()
+        meta = _meta(parts[0], dict(zip(label_names, parts[1:], strict=True)))
+        problem = series_problem(meta.metric, meta.labels)
+        if problem:
+            bad[u] = True
+            reasons[u] = problem
+        metas.append(meta)
+    if bad.any():
+        rows = bad[codes]
+        log.rows(rows, None, lambda r: reasons[int(codes[r])], line_of)
+    return codes, metas
+
+
+def _series_codes_grouped(
+    table: pa.Table, columns: list[str], log: ProblemLog, line_of: LineMap
+) -> tuple[np.ndarray, list[SeriesMeta]]:
+    frame = table.select(columns).to_pandas()
+    codes = frame.groupby(columns, sort=False, dropna=False).ngroup().to_numpy()
+    firsts = frame.assign(_code=codes).drop_duplicates("_code").sort_values("_code")
+    metas = []
+    for values in firsts[columns].itertuples(index=False):
+        parts = ["" if pd.isna(v) else str(v).strip() for v in values]
+        metas.append(_meta(parts[0], dict(zip(columns[1:], parts[1:], strict=True))))
+    bad = np.array([series_problem(m.metric, m.labels) is not None for m in metas])
+    if bad.any():
+        log.rows(
+            bad[codes],
+            None,
+            lambda r: str(series_problem(metas[codes[r]].metric, metas[codes[r]].labels)),
+            line_of,
+        )
+    return codes, metas
+
+
+def _meta(metric: str, labels: dict[str, str]) -> SeriesMeta:
+    """Empty label values mean the label is absent."""
+    return SeriesMeta(metric=metric, labels={k: v for k, v in labels.items() if v != ""})
+
+
+def parse_csv_long(data: bytes, file_name: str, tz: str | None, log: ProblemLog) -> ParsedImport:
+    header = read_header(data, log)
+    missing = [
+        role
+        for role, name in (
+            ("timestamp", header.timestamp),
+            ("metric", header.metric),
+            ("value", header.value),
+        )
+        if name is None
+    ]
+    if missing:
+        log.reject(
+            f"the header has no {' or '.join(missing)} column; a long CSV needs columns "
+            "named timestamp (or time/ts), metric (or name) and value, other columns "
+            f"being labels; found {', '.join(header.names)}",
+            line=1,
+        )
+    assert header.timestamp and header.metric and header.value
+    labels = [n for n in header.names if n not in (header.timestamp, header.metric, header.value)]
+    typed = {header.value: pa.float64(), header.metric: _TEXT} | {n: _TEXT for n in labels}
+    body = without_bom(data)
+    table = _read_with_fallback(body, header, typed, log)
+    line_of = _CsvLines(body)
+    timestamps = parse_timestamps(
+        table.column(header.timestamp), tz=tz, column=header.timestamp, log=log, line_of=line_of
+    )
+    values = parse_values(table.column(header.value), column=header.value, log=log, line_of=line_of)
+    codes, metas = _series_codes(table, header.metric, labels, log, line_of)
+    return assemble(
+        data=data,
+        file_name=file_name,
+        format="csv-long",
+        codes=codes,
+        metas=metas,
+        timestamps=timestamps,
+        values=values,
+        log=log,
+        line_of=line_of,
+        tz=tz,
+        rows_read=table.num_rows,
+    )
+
+
+def parse_csv_wide(data: bytes, file_name: str, tz: str | None, log: ProblemLog) -> ParsedImport:
+    header = read_header(data, log)
+    if header.timestamp is None:
+        log.reject(
+            "the header has no timestamp column; a wide CSV needs a column named timestamp "
+            "(or time/ts) and one column per series headed by its key, e.g. "
+            f"checkout.latency_p95{{host=api-3}}; found {', '.join(header.names)}",
+            line=1,
+        )
+    assert header.timestamp
+    series_columns = [n for n in header.names if n != header.timestamp]
+    metas = []
+    for name in series_columns:
+        try:
+            metric, labels = parse_series_key(name)
+        except ValueError as exc:
+            log.error(
+                f"{exc}; expected a series key like metric{{label=value}}", line=1, column=name
+            )
+            continue
+        metas.append(SeriesMeta(metric=metric, labels=labels))
+    log.check()
+    body = without_bom(data)
+    table = _read_with_fallback(body, header, {n: pa.float64() for n in series_columns}, log)
+    line_of = _CsvLines(body)
+    timestamps = parse_timestamps(
+        table.column(header.timestamp), tz=tz, column=header.timestamp, log=log, line_of=line_of
+    )
+    columns = [
+        parse_values(table.column(n), column=n, log=log, line_of=line_of) for n in series_columns
+    ]
+    n_rows, n_series = table.num_rows, len(series_columns)
+    values = np.column_stack(columns).reshape(-1) if columns else np.zeros(0)
+    cells = Timestamps(
+        timestamps.ms.repeat(n_series), timestamps.bad.repeat(n_series), timestamps.unit
+    )
+    return assemble(
+        data=data,
+        file_name=file_name,
+        format="csv-wide",
+        codes=np.tile(np.arange(n_series), n_rows),
+        metas=metas,
+        timestamps=cells,
+        values=values,
+        log=log,
+        line_of=lambda cells: line_of(cells // max(n_series, 1)),
+        tz=tz,
+        rows_read=n_rows,
+    )

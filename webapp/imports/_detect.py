@@ -1,0 +1,100 @@
+"""Which format a file is in, from its first bytes; an override is checked against it."""
+
+from __future__ import annotations
+
+import re
+
+from webapp.imports._problems import ProblemLog
+from webapp.imports._text import without_bom
+
+FORMATS: tuple[str, ...] = (
+    "csv-long",
+    "csv-wide",
+    "json-records",
+    "json-series",
+    "openmetrics",
+    "parquet",
+)
+FAMILIES = {
+    "csv-long": "csv",
+    "csv-wide": "csv",
+    "json-records": "json",
+    "json-series": "json",
+    "openmetrics": "openmetrics",
+    "parquet": "parquet",
+}
+PARQUET_MAGIC = b"PAR1"
+_SAMPLE = re.compile(r"^[A-Za-z_:][A-Za-z0-9_:]*(\{.*\})?[ \t]+\S+([ \t]+\S+)?")
+_OPENMETRICS_COMMENT = re.compile(r"^#[ \t]+(TYPE|HELP|UNIT|EOF)\b")
+
+
+class UnknownFormat(ValueError):
+    """The first bytes fit none of the formats; the message says what was looked for."""
+
+
+def detect_format(data: bytes, file_name: str = "") -> str:
+    """One of FORMATS; raises UnknownFormat with a readable reason."""
+    if data[:4] == PARQUET_MAGIC:
+        return "parquet"
+    head = bytes(without_bom(data[:65536])).decode("utf-8", errors="replace").lstrip()
+    if not head:
+        raise UnknownFormat("the file is empty")
+    if head[0] in "[{":
+        return _json_kind(head)
+    first = head.splitlines()[0]
+    if _OPENMETRICS_COMMENT.match(first) or (
+        _SAMPLE.match(first) and not any(d in first.split("{")[0] for d in ",;")
+    ):
+        return "openmetrics"
+    return _csv_kind(head, file_name)
+
+
+def _json_kind(head: str) -> str:
+    points = head.find('"points"')
+    value = head.find('"value"')
+    if points >= 0 and (value < 0 or points < value):
+        return "json-series"
+    if value >= 0:
+        return "json-records"
+    raise UnknownFormat(
+        'JSON without "value" or "points" keys near the start; expected records '
+        '[{"timestamp", "metric", "labels", "value"}, ...] or series '
+        '{"metric", "labels", "points": [[ts, value], ...]}'
+    )
+
+
+def _csv_kind(head: str, file_name: str) -> str:
+    from webapp.imports._csv import DELIMITERS, METRIC_NAMES, TIMESTAMP_NAMES, VALUE_NAMES
+
+    first = head.splitlines()[0]
+    delimiter = max(DELIMITERS, key=first.count)
+    if first.count(delimiter) == 0:
+        raise UnknownFormat(
+            "not CSV (no commas, semicolons or tabs on line 1), JSON, OpenMetrics text "
+            f"or Parquet; line 1 reads {first[:80]!r}"
+        )
+    names = {n.strip().strip('"').lower() for n in first.split(delimiter)}
+    if names & set(METRIC_NAMES) and names & set(VALUE_NAMES):
+        return "csv-long"
+    if names & set(TIMESTAMP_NAMES):
+        return "csv-wide"
+    raise UnknownFormat(
+        "CSV whose header names no timestamp column; expected timestamp (or time/ts), "
+        f"then metric and value columns (long) or one column per series (wide); line 1 "
+        f"reads {first[:80]!r}"
+    )
+
+
+def check_override(chosen: str, data: bytes, file_name: str, log: ProblemLog) -> None:
+    """A format named by the user must at least be of the family the bytes show."""
+    if chosen not in FORMATS:
+        log.reject(f"unknown format {chosen!r}; expected one of {', '.join(FORMATS)}")
+    try:
+        seen = detect_format(data, file_name)
+    except UnknownFormat:
+        return
+    if FAMILIES[seen] != FAMILIES[chosen]:
+        log.reject(
+            f"the format was given as {chosen}, but the file looks like {seen}; "
+            "choose the matching format or leave it to detection"
+        )

@@ -1,0 +1,262 @@
+"""Timestamps to UTC epoch milliseconds, vectorised.
+
+Accepted: ISO 8601 with an offset or ``Z``; naive ISO 8601 (read in ``tz``, UTC when no
+zone is named); epoch numbers, whose unit is chosen by magnitude (see ``epoch_unit``);
+typed timestamps (Parquet, or what the CSV reader recognised). Sub-millisecond parts are
+rounded to the nearest millisecond.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
+
+from webapp.imports._problems import LineMap, ProblemLog
+
+ISO = "ISO 8601"
+EPOCH_UNITS = ("seconds", "milliseconds", "microseconds", "nanoseconds")
+_MS_PER_UNIT = {"seconds": 1000.0, "milliseconds": 1.0, "microseconds": 1e-3, "nanoseconds": 1e-6}
+_INT_DIVISOR = {"microseconds": 1000, "nanoseconds": 1_000_000}
+# Below 1e11 an epoch is seconds (1e11 s is the year 5138; 1e11 ms is 1973), and each unit
+# after that is 1000 times finer.
+_MAGNITUDE_EDGES = (1e11, 1e14, 1e17)
+MAX_MS = 9_223_372_036_854  # the end of pandas' nanosecond range (year 2262)
+EXPECTED = "expected ISO 8601 (e.g. 2026-11-30T08:00:00Z) or epoch seconds/ms/us/ns"
+_OFFSET_AT_END = r"\d\d:\d\d(?::\d\d(?:[.,]\d+)?)?\s*(?:[Zz]|[+-]\d\d(?::?\d\d)?)$"
+
+
+@dataclass
+class Timestamps:
+    ms: np.ndarray  # int64 UTC epoch milliseconds; meaningless where ``bad``
+    bad: np.ndarray  # bool: the row's timestamp could not be used (already reported)
+    unit: str  # what was understood, e.g. "ISO 8601" or "epoch seconds"
+
+
+def epoch_unit(magnitude: float) -> str:
+    """The epoch unit a number of this size is taken to be in."""
+    for unit, edge in zip(EPOCH_UNITS, _MAGNITUDE_EDGES, strict=False):
+        if magnitude < edge:
+            return unit
+    return EPOCH_UNITS[-1]
+
+
+def parse_timestamps(
+    values: pa.Array | pa.ChunkedArray,
+    *,
+    tz: str | None,
+    column: str,
+    log: ProblemLog,
+    line_of: LineMap,
+    unit: str | None = None,
+) -> Timestamps:
+    """Parse one column; every unusable row is reported to ``log`` with its line.
+
+    ``unit`` forces an epoch unit (OpenMetrics timestamps are seconds by definition).
+    """
+    if isinstance(values, pa.ChunkedArray):
+        values = values.combine_chunks()
+    missing = np.asarray(values.is_null().to_numpy(zero_copy_only=False), dtype=bool)
+    if missing.any():
+        log.rows(missing, column, lambda _row: f"missing timestamp; {EXPECTED}", line_of)
+    kind = values.type
+    if pa.types.is_dictionary(kind):
+        values = values.cast(kind.value_type)
+        kind = values.type
+    if pa.types.is_string(kind) or pa.types.is_large_string(kind):
+        parsed = _parse_text(values, missing, tz, column, log, line_of, unit)
+    elif pa.types.is_integer(kind) or pa.types.is_floating(kind):
+        parsed = _parse_epoch(values, missing, column, log, line_of, unit)
+    elif pa.types.is_timestamp(kind) or pa.types.is_date(kind):
+        parsed = _parse_typed(values, missing, tz, column, log, line_of)
+    else:
+        log.reject(f"column holds {kind} values; {EXPECTED}", column=column)
+        raise AssertionError("unreachable")
+    _check_range(parsed, column, log, line_of)
+    return parsed
+
+
+def _check_range(parsed: Timestamps, column: str, log: ProblemLog, line_of: LineMap) -> None:
+    out = ~parsed.bad & ((parsed.ms < 0) | (parsed.ms > MAX_MS))
+    if out.any():
+        log.rows(
+            out,
+            column,
+            lambda row: f"timestamp {parsed.ms[row]} ms is outside 1970-01-01..2262-04-11",
+            line_of,
+        )
+        parsed.bad |= out
+
+
+def _parse_epoch(
+    values: pa.Array,
+    missing: np.ndarray,
+    column: str,
+    log: ProblemLog,
+    line_of: LineMap,
+    unit: str | None,
+) -> Timestamps:
+    raw = values.to_numpy(zero_copy_only=False)
+    is_float = raw.dtype.kind == "f"
+    bad = missing.copy()
+    if is_float:
+        bad |= ~np.isfinite(np.where(missing, 0.0, raw))
+        if (bad & ~missing).any():
+            log.rows(bad & ~missing, column, lambda r: f"{raw[r]} is not a timestamp", line_of)
+    valid = raw[~bad]
+    if valid.size == 0:
+        return Timestamps(np.zeros(len(raw), np.int64), bad, f"epoch {unit or 'seconds'}")
+    magnitude = np.abs(valid.astype(np.float64))
+    if unit is None:
+        unit = epoch_unit(float(np.median(magnitude)))
+        bands = np.searchsorted(_MAGNITUDE_EDGES, np.abs(np.where(bad, 0, raw)), side="right")
+        chosen = EPOCH_UNITS.index(unit)
+        odd = ~bad & (bands != chosen)
+        if odd.any():
+            log.rows(
+                odd,
+                column,
+                lambda r: (
+                    f"epoch value {raw[r]} looks like epoch "
+                    f"{epoch_unit(abs(float(raw[r])))}, but this column is in epoch {unit}"
+                ),
+                line_of,
+            )
+            bad |= odd
+    filled = np.where(bad, 0, raw)
+    if is_float:
+        ms = np.rint(filled * _MS_PER_UNIT[unit]).astype(np.int64)
+    elif unit in _INT_DIVISOR:
+        div = _INT_DIVISOR[unit]
+        ms = (filled.astype(np.int64) + div // 2) // div
+    else:
+        ms = filled.astype(np.int64) * int(_MS_PER_UNIT[unit])
+    return Timestamps(ms, bad, f"epoch {unit}")
+
+
+def _parse_text(
+    values: pa.Array,
+    missing: np.ndarray,
+    tz: str | None,
+    column: str,
+    log: ProblemLog,
+    line_of: LineMap,
+    unit: str | None,
+) -> Timestamps:
+    """Text cells: all numbers means epoch; otherwise ISO 8601, aware and naive apart."""
+    stripped = pc.utf8_trim_whitespace(values)
+    for number_type in (pa.int64(), pa.float64()):
+        try:
+            numbers = stripped.cast(number_type)
+        except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
+            continue
+        return _parse_epoch(numbers, missing, column, log, line_of, unit)
+    if unit is not None:
+        bad_numbers = _not_numbers(stripped) & ~missing
+        log.rows(
+            bad_numbers,
+            column,
+            lambda r: f"{values[r].as_py()!r} is not a number of epoch {unit}",
+            line_of,
+        )
+        return Timestamps(np.zeros(len(values), np.int64), missing | bad_numbers, unit)
+    text = pd.Series(stripped.to_pandas(), dtype="str")
+    aware = text.str.contains(_OFFSET_AT_END, regex=True, na=False).to_numpy(dtype=bool)
+    ms = np.zeros(len(text), dtype=np.int64)
+    bad = missing.copy()
+    if aware.any():
+        parsed = pd.to_datetime(text[aware], format="ISO8601", utc=True, errors="coerce")
+        ms[aware] = _to_ms(parsed)
+        bad[aware] = parsed.isna().to_numpy()
+    naive = ~aware & ~missing
+    if naive.any():
+        parsed = pd.to_datetime(text[naive], format="ISO8601", errors="coerce")
+        failed = parsed.isna().to_numpy()
+        local_ms, local_bad = _localize(parsed, tz, column, log, line_of, np.flatnonzero(naive))
+        ms[naive] = local_ms
+        bad[naive] = failed | local_bad
+        unparsed = np.zeros(len(text), dtype=bool)
+        unparsed[np.flatnonzero(naive)[failed]] = True
+    else:
+        unparsed = np.zeros(len(text), dtype=bool)
+    if aware.any():
+        unparsed |= aware & bad
+    if unparsed.any():
+        log.rows(
+            unparsed, column, lambda r: f"{text.iloc[r]!r} is not a timestamp; {EXPECTED}", line_of
+        )
+    return Timestamps(ms, bad, ISO)
+
+
+def _not_numbers(values: pa.Array) -> np.ndarray:
+    numbers = pd.to_numeric(pd.Series(values.to_pandas()), errors="coerce")
+    return numbers.isna().to_numpy()
+
+
+def _to_ms(parsed: pd.Series | pd.DatetimeIndex) -> np.ndarray:
+    """Datetimes of any resolution to int64 epoch ms, rounding to the nearest ms (NaT -> 0)."""
+    index = pd.DatetimeIndex(parsed)
+    if index.tz is not None:
+        index = index.tz_convert("UTC").tz_localize(None)
+    nanos = index.as_unit("ns").asi8
+    result = (nanos + 500_000) // 1_000_000
+    result[index.isna()] = 0
+    return result
+
+
+def _localize(
+    parsed: pd.Series,
+    tz: str | None,
+    column: str,
+    log: ProblemLog,
+    line_of: LineMap,
+    positions: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Naive wall-clock times read in ``tz``; times that don't exist or occur twice there
+    (daylight-saving changes) are reported, not guessed."""
+    index = pd.DatetimeIndex(parsed)
+    if tz is None or tz == "UTC":
+        return _to_ms(index), np.zeros(len(index), dtype=bool)
+    gap_free = index.tz_localize(tz, ambiguous=np.ones(len(index), bool), nonexistent="NaT")
+    fold_free = index.tz_localize(tz, ambiguous="NaT", nonexistent="shift_forward")
+    nonexistent = gap_free.isna() & ~index.isna()
+    ambiguous = fold_free.isna() & ~index.isna()
+    local_of_row = np.full(int(positions.max()) + 1, -1, dtype=np.int64)
+    local_of_row[positions] = np.arange(len(positions))
+    for mask, why in (
+        (nonexistent, "does not exist there (the clocks jump forward at that hour)"),
+        (ambiguous, "occurs twice there (the clocks go back at that hour)"),
+    ):
+        if mask.any():
+            full = np.zeros(len(local_of_row), dtype=bool)
+            full[positions[mask]] = True
+            log.rows(
+                full,
+                column,
+                lambda r, why=why: (
+                    f"local time {index[local_of_row[r]]} in {tz} {why}; "
+                    "give the time with an offset (e.g. +02:00) or in UTC"
+                ),
+                line_of,
+            )
+    return _to_ms(fold_free), nonexistent | ambiguous
+
+
+def _parse_typed(
+    values: pa.Array,
+    missing: np.ndarray,
+    tz: str | None,
+    column: str,
+    log: ProblemLog,
+    line_of: LineMap,
+) -> Timestamps:
+    if pa.types.is_date(values.type):
+        values = values.cast(pa.timestamp("s"))
+    index = pd.DatetimeIndex(values.to_pandas())
+    if index.tz is not None:
+        return Timestamps(_to_ms(index), missing, ISO)
+    ms, bad = _localize(pd.Series(index), tz, column, log, line_of, np.arange(len(index)))
+    return Timestamps(ms, missing | bad, ISO)
