@@ -44,6 +44,11 @@ REVIEW_FIELDS = (
 TITLE_MAX = 300
 SEVERITY_MAX = 20
 OWNER_MAX = 200
+VERDICT_WARNING = (
+    "whyfired drafts this verdict from the replay's numbers; it does not decide. Retiring an "
+    "alert can hide a real failure: the service owner and the team's own paging policy "
+    "decide whether the alert is kept, tuned or retired."
+)
 _ISO_TIME = re.compile(r"^\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}")
 
 
@@ -425,6 +430,35 @@ def delete_action_item(session: Session, review: Review, item_id: int) -> None:
 
 
 # -- verdict ----------------------------------------------------------------------------
+
+
+def parse_parameters(text: str) -> dict[str, Any]:
+    """``name: value`` lines (as the verdict form shows them) to a dict; numbers as floats."""
+    out: dict[str, Any] = {}
+    for number, line in enumerate((text or "").splitlines(), start=1):
+        if not line.strip():
+            continue
+        name, sep, value = line.partition(":")
+        if not sep or not name.strip():
+            raise ReviewInvalid(
+                {
+                    "verdict_parameters": f"Line {number} should read name: value, "
+                    "e.g. pending: 10min."
+                }
+            )
+        value = value.strip()
+        try:
+            out[name.strip()] = float(value)
+        except ValueError:
+            out[name.strip()] = value
+    return out
+
+
+def format_parameters(parameters: Mapping[str, Any]) -> str:
+    return "\n".join(
+        f"{name}: {value:g}" if isinstance(value, float) else f"{name}: {value}"
+        for name, value in (parameters or {}).items()
+    )
 
 
 def set_verdict(

@@ -1,0 +1,89 @@
+"""Excluded periods: spans left out of every baseline.
+
+A span comes from an explicit row (for one series, or for every series when
+``series_id`` is None) or from a review marked ``exclude_from_baselines`` whose incident
+touches the series, through the review's page or one of its attached explanations.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import pandas as pd
+from sqlalchemy import or_, select
+from sqlalchemy.orm import Session
+
+from webapp.store.models import ExcludedPeriod, Explanation, Page, Review, ReviewExplanation
+from webapp.store.times import timestamp, utc
+
+Span = tuple[pd.Timestamp, pd.Timestamp]
+
+
+def add_excluded(
+    session: Session, series_id: int | None, start: Any, end: Any, reason: str = ""
+) -> ExcludedPeriod:
+    begin, finish = utc(start), utc(end)
+    if finish <= begin:
+        raise ValueError(
+            f"an excluded period must end after it starts: {begin.isoformat()} to "
+            f"{finish.isoformat()}"
+        )
+    row = ExcludedPeriod(series_id=series_id, start=begin, end=finish, reason=reason)
+    session.add(row)
+    session.flush()
+    return row
+
+
+def list_excluded(session: Session, series_id: int | None = None) -> list[ExcludedPeriod]:
+    """Rows that apply to ``series_id`` (its own and the global ones); every row for None."""
+    stmt = select(ExcludedPeriod).order_by(ExcludedPeriod.start, ExcludedPeriod.id)
+    if series_id is not None:
+        stmt = stmt.where(
+            or_(ExcludedPeriod.series_id == series_id, ExcludedPeriod.series_id.is_(None))
+        )
+    return list(session.scalars(stmt))
+
+
+def delete_excluded(session: Session, excluded_id: int) -> None:
+    row = session.get(ExcludedPeriod, excluded_id)
+    if row is None:
+        raise LookupError(f"there is no excluded period #{excluded_id}")
+    session.delete(row)
+    session.flush()
+
+
+def periods_for(session: Session, series_id: int) -> list[Span]:
+    """Every span to leave out of ``series_id``'s baselines, sorted, overlaps merged."""
+    spans = [(timestamp(r.start), timestamp(r.end)) for r in list_excluded(session, series_id)]
+    spans.extend(_review_spans(session, series_id))
+    return _merge(spans)
+
+
+def _review_spans(session: Session, series_id: int) -> list[Span]:
+    by_page = select(Page.id).where(Page.series_id == series_id)
+    by_attachment = (
+        select(ReviewExplanation.review_id)
+        .join(Explanation, Explanation.id == ReviewExplanation.explanation_id)
+        .where(Explanation.series_id == series_id)
+    )
+    reviews = session.scalars(
+        select(Review)
+        .where(Review.exclude_from_baselines.is_(True))
+        .where(Review.incident_start.is_not(None), Review.incident_end.is_not(None))
+        .where(or_(Review.page_id.in_(by_page), Review.id.in_(by_attachment)))
+    )
+    return [
+        (timestamp(r.incident_start), timestamp(r.incident_end))
+        for r in reviews
+        if r.incident_end > r.incident_start
+    ]
+
+
+def _merge(spans: list[Span]) -> list[Span]:
+    merged: list[Span] = []
+    for start, end in sorted(spans):
+        if merged and start <= merged[-1][1]:
+            merged[-1] = (merged[-1][0], max(merged[-1][1], end))
+        else:
+            merged.append((start, end))
+    return merged

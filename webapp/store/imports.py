@@ -1,0 +1,315 @@
+"""Recording parsed files in the store, and undoing them.
+
+An import is all or nothing: :func:`record_import` works inside a savepoint of the caller's
+transaction, so an error anywhere leaves the store exactly as it was.
+
+Points are keyed by (series, ts) and the last writer wins: a point that is already stored
+is overwritten and counted as *updated*; ``points.import_id`` names the import that wrote
+the value now stored. Re-importing a file with the same sha256 is applied like any other
+file (its points are written again and counted as updated) and reported through
+``ImportSummary.duplicate_of``; pass ``allow_duplicate=False`` to refuse it instead.
+
+Deleting an import removes exactly the points whose stored value it wrote, that is the
+points it brought that no later import replaced. Values it overwrote are not brought back:
+the store keeps one value per point, not its history.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Iterator, Sequence
+from dataclasses import asdict, dataclass, field
+from itertools import repeat
+from typing import Any
+
+import numpy as np
+import pandas as pd
+from sqlalchemy import delete, exists, func, select
+from sqlalchemy.orm import Session
+
+from webapp.imports._types import ParsedImport
+from webapp.imports.keys import parse_series_key
+from webapp.store import stats
+from webapp.store._sql import chunks
+from webapp.store.models import (
+    AlertRule,
+    ExcludedPeriod,
+    Explanation,
+    Import,
+    Page,
+    Point,
+    Series,
+)
+from webapp.store.series import series_by_keys
+from webapp.store.times import from_ms
+
+BATCH_ROWS = 100_000
+
+
+class DuplicateImport(ValueError):
+    """The same file (same sha256) was imported before and re-imports were refused."""
+
+    def __init__(self, file_name: str, earlier: Import):
+        self.earlier_id = earlier.id
+        super().__init__(
+            f"{file_name}: the same content (sha256) was already imported as import "
+            f"#{earlier.id} ({earlier.file_name!r})"
+        )
+
+
+@dataclass(frozen=True)
+class ImportSummary:
+    """What one import did. ``inserted + updated == points``."""
+
+    import_id: int
+    file_name: str
+    format: str
+    sha256: str
+    duplicate_of: int | None
+    points: int
+    inserted: int
+    updated: int
+    series_created: int
+    series_keys: list[str]
+    first_ts: pd.Timestamp | None
+    last_ts: pd.Timestamp | None
+    timestamp_unit: str
+    naive_tz: str
+    rows_read: int
+    gap_count: int
+    duplicate_count: int
+    warnings: list[str] = field(default_factory=list)
+
+    def lines(self) -> list[str]:
+        """Plain sentences for the CLI and the Imports screen."""
+        out = [
+            f"{self.file_name}: import #{self.import_id} ({self.format}) wrote "
+            f"{self.points:,} points to {len(self.series_keys):,} series "
+            f"({self.series_created:,} new series): {self.inserted:,} new points, "
+            f"{self.updated:,} updated."
+        ]
+        if self.duplicate_of is not None:
+            out.append(
+                f"The same content (sha256) was imported before as import #{self.duplicate_of}; "
+                f"it was applied again, so its {self.updated:,} overlapping points were "
+                "written again."
+            )
+        if self.first_ts is not None and self.last_ts is not None:
+            out.append(f"Time range: {self.first_ts.isoformat()} to {self.last_ts.isoformat()}.")
+        out.append(
+            f"Timestamps read as {self.timestamp_unit}; naive times taken as {self.naive_tz}."
+        )
+        if self.gap_count:
+            out.append(f"{self.gap_count:,} empty or NaN values kept as gaps.")
+        if self.duplicate_count:
+            out.append(
+                f"{self.duplicate_count:,} repeated (series, timestamp) pairs in the file: "
+                "the last one won."
+            )
+        out.extend(self.warnings)
+        return out
+
+    def to_dict(self) -> dict[str, Any]:
+        data = asdict(self)
+        for name in ("first_ts", "last_ts"):
+            data[name] = data[name].isoformat() if data[name] is not None else None
+        return data
+
+
+def record_import(
+    session: Session, parsed: ParsedImport, *, allow_duplicate: bool = True
+) -> ImportSummary:
+    """Store ``parsed`` as one import; the caller commits (``db.session_scope``)."""
+    earlier = session.scalars(
+        select(Import).where(Import.sha256 == parsed.sha256).order_by(Import.id.desc()).limit(1)
+    ).first()
+    if earlier is not None and not allow_duplicate:
+        raise DuplicateImport(parsed.file_name, earlier)
+    with session.begin_nested():
+        return _record(session, parsed, earlier.id if earlier is not None else None)
+
+
+def _record(session: Session, parsed: ParsedImport, duplicate_of: int | None) -> ImportSummary:
+    table = parsed.table
+    keys_codes, keys = pd.factorize(table["series_key"], sort=False)
+    keys = [str(k) for k in keys]
+    imp = Import(
+        file_name=parsed.file_name,
+        sha256=parsed.sha256,
+        format=parsed.format,
+        timestamp_unit=parsed.timestamp_unit,
+        naive_tz=parsed.naive_tz,
+        size_bytes=parsed.size_bytes,
+        row_count=parsed.rows_read,
+        gap_count=parsed.gap_count,
+        duplicate_count=parsed.duplicate_count,
+    )
+    session.add(imp)
+    series, created = _series_for(session, parsed, keys)
+    session.flush()
+
+    ids = np.array([series[k].id for k in keys], dtype=np.int64)
+    series_ids = ids[keys_codes] if len(keys) else np.empty(0, dtype=np.int64)
+    ts = table["ts_utc"].to_numpy(dtype=np.int64)
+    values = table["value"].to_numpy(dtype=np.float64)
+    order = np.lexsort((ts, series_ids))
+
+    existing = [int(series[k].id) for k in keys if k not in created]
+    before = sum(_point_counts(session, existing).values())
+    _write_points(session, imp.id, series_ids[order], ts[order], values[order])
+    stats.refresh(session, list(series.values()))
+    inserted = sum(s.point_count for s in series.values()) - before
+
+    summary = ImportSummary(
+        import_id=imp.id,
+        file_name=parsed.file_name,
+        format=parsed.format,
+        sha256=parsed.sha256,
+        duplicate_of=duplicate_of,
+        points=len(table),
+        inserted=inserted,
+        updated=len(table) - inserted,
+        series_created=len(created),
+        series_keys=keys,
+        first_ts=from_ms(ts.min()) if len(ts) else None,
+        last_ts=from_ms(ts.max()) if len(ts) else None,
+        timestamp_unit=parsed.timestamp_unit,
+        naive_tz=parsed.naive_tz,
+        rows_read=parsed.rows_read,
+        gap_count=parsed.gap_count,
+        duplicate_count=parsed.duplicate_count,
+        warnings=[str(p) for p in parsed.problems],
+    )
+    imp.point_count = summary.points
+    imp.inserted_count = summary.inserted
+    imp.updated_count = summary.updated
+    imp.series_count = len(keys)
+    imp.first_ts = int(ts.min()) if len(ts) else None
+    imp.last_ts = int(ts.max()) if len(ts) else None
+    imp.summary = summary.to_dict()
+    session.flush()
+    return summary
+
+
+def _series_for(
+    session: Session, parsed: ParsedImport, keys: list[str]
+) -> tuple[dict[str, Series], set[str]]:
+    """The series rows for ``keys``, creating the missing ones; also the created keys."""
+    found = series_by_keys(session, keys)
+    created: set[str] = set()
+    for key in keys:
+        meta = parsed.series.get(key)
+        unit = meta.unit if meta is not None else None
+        if key in found:
+            if unit and not found[key].unit:
+                found[key].unit = unit
+            continue
+        metric, labels = (meta.metric, dict(meta.labels)) if meta else parse_series_key(key)
+        found[key] = Series(key=key, metric=metric, labels=labels, unit=unit, point_count=0)
+        session.add(found[key])
+        created.add(key)
+    return found, created
+
+
+def _point_counts(session: Session, series_ids: Sequence[int]) -> dict[int, int]:
+    counts: dict[int, int] = {}
+    for chunk in chunks(list(series_ids)):
+        rows = session.execute(
+            select(Point.series_id, func.count())
+            .where(Point.series_id.in_(chunk))
+            .group_by(Point.series_id)
+        )
+        counts.update({int(sid): int(n) for sid, n in rows})
+    return counts
+
+
+def _upsert_sql(paramstyle: str) -> str:
+    marks = {"qmark": "?", "format": "%s", "pyformat": "%s"}
+    if paramstyle not in marks:
+        raise NotImplementedError(f"bulk import needs a qmark or format driver, not {paramstyle}")
+    p = marks[paramstyle]
+    return (
+        f"INSERT INTO points (series_id, ts, value, import_id) VALUES ({p}, {p}, {p}, {p}) "
+        "ON CONFLICT (series_id, ts) DO UPDATE "
+        "SET value = excluded.value, import_id = excluded.import_id"
+    )
+
+
+def _write_points(
+    session: Session, import_id: int, series_ids: np.ndarray, ts: np.ndarray, values: np.ndarray
+) -> None:
+    """Upsert the points in batches through the DB-API ``executemany`` of the session's
+    own connection, so they share its transaction without building ORM objects."""
+    connection = session.connection()
+    sql = _upsert_sql(connection.dialect.paramstyle)
+    cursor = connection.connection.cursor()
+    try:
+        for batch in _batches(import_id, series_ids, ts, values):
+            _write_batch(cursor, sql, batch)
+    finally:
+        cursor.close()
+
+
+def _batches(
+    import_id: int, series_ids: np.ndarray, ts: np.ndarray, values: np.ndarray
+) -> Iterator[Iterable[tuple[int, int, float, int]]]:
+    for start in range(0, len(ts), BATCH_ROWS):
+        stop = start + BATCH_ROWS
+        yield zip(
+            series_ids[start:stop].tolist(),
+            ts[start:stop].tolist(),
+            values[start:stop].tolist(),
+            repeat(import_id),
+            strict=False,
+        )
+
+
+def _write_batch(cursor: Any, sql: str, rows: Iterable[tuple[int, int, float, int]]) -> None:
+    cursor.executemany(sql, rows)
+
+
+def delete_import(session: Session, import_id: int) -> int:
+    """Remove an import and the points whose stored value it wrote; returns how many.
+
+    Series left without points that nothing else refers to (pages, alert rules, saved
+    explanations, excluded periods) are removed too. Raises LookupError for an unknown id.
+    """
+    imp = session.get(Import, import_id)
+    if imp is None:
+        raise LookupError(f"there is no import #{import_id}")
+    keys = list((imp.summary or {}).get("series_keys", []))
+    touched = list(series_by_keys(session, keys).values())
+    removed = 0
+    if touched and imp.first_ts is not None and imp.last_ts is not None:
+        for chunk in chunks([s.id for s in touched]):
+            result = session.execute(
+                delete(Point)
+                .where(Point.series_id.in_(chunk))
+                .where(Point.ts.between(imp.first_ts, imp.last_ts))
+                .where(Point.import_id == import_id)
+                .execution_options(synchronize_session=False)
+            )
+            removed += result.rowcount
+    stats.refresh(session, touched)
+    for s in touched:
+        if s.point_count == 0 and not _is_referenced(session, s.id):
+            session.delete(s)
+    session.delete(imp)
+    session.flush()
+    return removed
+
+
+def _is_referenced(session: Session, series_id: int) -> bool:
+    return any(
+        session.scalar(select(exists().where(model.series_id == series_id)))
+        for model in (Page, AlertRule, Explanation, ExcludedPeriod)
+    )
+
+
+def list_imports(session: Session) -> list[Import]:
+    """Every import, newest first."""
+    newest_first = select(Import).order_by(Import.created_at.desc(), Import.id.desc())
+    return list(session.scalars(newest_first))
+
+
+def get_import(session: Session, import_id: int) -> Import | None:
+    return session.get(Import, import_id)

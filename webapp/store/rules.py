@@ -1,0 +1,109 @@
+"""Alert rules: the conditions that produced pages, kept so they can be replayed."""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from sqlalchemy import select
+from sqlalchemy.orm import Session
+
+from webapp.store.models import AlertRule
+
+KINDS = ("threshold", "band")
+DIRECTIONS = {"threshold": ("above", "below"), "band": ("above", "below", "both")}
+FIELDS = (
+    "name",
+    "series_id",
+    "metric",
+    "label_filter",
+    "kind",
+    "direction",
+    "threshold",
+    "tolerance",
+    "pending_seconds",
+    "step_seconds",
+    "description",
+)
+
+
+def _check(rule: AlertRule) -> None:
+    """Raise ValueError naming the first field that makes ``rule`` unusable."""
+    if not (rule.name or "").strip():
+        raise ValueError("an alert rule needs a name")
+    if rule.kind not in KINDS:
+        raise ValueError(f"kind must be one of {', '.join(KINDS)}, got {rule.kind!r}")
+    allowed = DIRECTIONS[rule.kind]
+    if rule.direction not in allowed:
+        raise ValueError(
+            f"direction of a {rule.kind} rule must be one of {', '.join(allowed)}, "
+            f"got {rule.direction!r}"
+        )
+    if rule.kind == "threshold" and not _finite(rule.threshold):
+        raise ValueError(f"a threshold rule needs a finite threshold, got {rule.threshold!r}")
+    if rule.kind == "band" and not (_finite(rule.tolerance) and rule.tolerance > 0):
+        raise ValueError(f"a band rule needs a tolerance above 0, got {rule.tolerance!r}")
+    if rule.pending_seconds is None or rule.pending_seconds < 0:
+        raise ValueError(f"pending_seconds must be 0 or more, got {rule.pending_seconds!r}")
+    if rule.step_seconds is not None and rule.step_seconds <= 0:
+        raise ValueError(f"step_seconds must be above 0 when given, got {rule.step_seconds!r}")
+
+
+def _finite(value: Any) -> bool:
+    return isinstance(value, int | float) and not isinstance(value, bool) and math.isfinite(value)
+
+
+def _assign(rule: AlertRule, fields: dict[str, Any]) -> None:
+    unknown = sorted(set(fields) - set(FIELDS))
+    if unknown:
+        raise ValueError(f"unknown alert rule field(s): {', '.join(unknown)}")
+    for name, value in fields.items():
+        setattr(rule, name, value)
+
+
+def create_rule(session: Session, **fields: Any) -> AlertRule:
+    """Add an alert rule from the fields named in :data:`FIELDS`."""
+    rule = AlertRule(kind="threshold", direction="above", pending_seconds=0, label_filter={})
+    _assign(rule, fields)
+    _check(rule)
+    session.add(rule)
+    session.flush()
+    return rule
+
+
+def list_rules(session: Session, series_id: int | None = None) -> list[AlertRule]:
+    stmt = select(AlertRule).order_by(AlertRule.name, AlertRule.id)
+    if series_id is not None:
+        stmt = stmt.where(AlertRule.series_id == series_id)
+    return list(session.scalars(stmt))
+
+
+def get_rule(session: Session, rule_id: int) -> AlertRule | None:
+    return session.get(AlertRule, rule_id)
+
+
+def _require(session: Session, rule_id: int) -> AlertRule:
+    rule = session.get(AlertRule, rule_id)
+    if rule is None:
+        raise LookupError(f"there is no alert rule #{rule_id}")
+    return rule
+
+
+def update_rule(session: Session, rule_id: int, **fields: Any) -> AlertRule:
+    """Change some fields; nothing changes when the result would be invalid."""
+    rule = _require(session, rule_id)
+    previous = {name: getattr(rule, name) for name in FIELDS}
+    _assign(rule, fields)
+    try:
+        _check(rule)
+    except ValueError:
+        _assign(rule, previous)
+        raise
+    session.flush()
+    return rule
+
+
+def delete_rule(session: Session, rule_id: int) -> None:
+    """Remove a rule; its pages and reviews keep their text and lose the link."""
+    session.delete(_require(session, rule_id))
+    session.flush()

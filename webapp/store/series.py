@@ -1,0 +1,123 @@
+"""Finding series and reading their points back as pandas objects."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session
+
+from webapp.store._sql import chunks
+from webapp.store.models import Point, Series
+from webapp.store.times import from_ms, to_ms
+
+
+@dataclass(frozen=True)
+class SeriesInfo:
+    """One row of the series list. Times are UTC; ``coverage`` is points / grid slots."""
+
+    id: int
+    key: str
+    metric: str
+    labels: dict[str, str]
+    unit: str | None
+    n_points: int
+    first: pd.Timestamp | None
+    last: pd.Timestamp | None
+    step: pd.Timedelta | None
+    coverage: float
+
+
+def info(row: Series) -> SeriesInfo:
+    step = pd.Timedelta(milliseconds=row.step_ms) if row.step_ms else None
+    coverage = 0.0
+    if row.point_count:
+        coverage = 1.0
+        if step is not None and row.last_ts is not None and row.first_ts is not None:
+            slots = (row.last_ts - row.first_ts) // row.step_ms + 1
+            coverage = min(1.0, row.point_count / slots)
+    return SeriesInfo(
+        id=row.id,
+        key=row.key,
+        metric=row.metric,
+        labels=dict(row.labels or {}),
+        unit=row.unit,
+        n_points=row.point_count,
+        first=from_ms(row.first_ts) if row.first_ts is not None else None,
+        last=from_ms(row.last_ts) if row.last_ts is not None else None,
+        step=step,
+        coverage=coverage,
+    )
+
+
+def list_series(session: Session, q: str | None = None) -> list[SeriesInfo]:
+    """Every series ordered by key; ``q`` keeps those whose key holds every word of it
+    (case-insensitive), so ``latency host=api-3`` finds ``checkout.latency_p95{host=api-3}``."""
+    stmt = select(Series).order_by(Series.key)
+    for word in (q or "").split():
+        stmt = stmt.where(func.lower(Series.key).contains(word.lower(), autoescape=True))
+    return [info(row) for row in session.scalars(stmt)]
+
+
+def get_series(session: Session, series_id: int) -> Series | None:
+    return session.get(Series, series_id)
+
+
+def find_series(session: Session, key: str) -> Series | None:
+    return session.scalars(select(Series).where(Series.key == key)).first()
+
+
+def series_by_keys(session: Session, keys: Sequence[str]) -> dict[str, Series]:
+    """The stored series among ``keys``, by key (missing keys are simply absent)."""
+    found: dict[str, Series] = {}
+    for chunk in chunks(list(keys)):
+        rows = session.scalars(select(Series).where(Series.key.in_(chunk)))
+        found.update({row.key: row for row in rows})
+    return found
+
+
+def _require(session: Session, series_id: int) -> Series:
+    row = session.get(Series, series_id)
+    if row is None:
+        raise LookupError(f"there is no series #{series_id}")
+    return row
+
+
+def read_series(session: Session, series_id: int, start: Any = None, end: Any = None) -> pd.Series:
+    """The points of one series between ``start`` and ``end`` (both inclusive, either open).
+
+    Returns float64 values on a sorted ``datetime64[ns, UTC]`` index named ``ts``; the
+    Series is named by the series key. Raises LookupError for an unknown id.
+    """
+    row = _require(session, series_id)
+    stmt = select(Point.ts, Point.value).where(Point.series_id == series_id).order_by(Point.ts)
+    if start is not None:
+        stmt = stmt.where(Point.ts >= to_ms(start))
+    if end is not None:
+        stmt = stmt.where(Point.ts <= to_ms(end))
+    rows = session.execute(stmt).all()
+    ts = np.fromiter((r[0] for r in rows), dtype=np.int64, count=len(rows))
+    values = np.fromiter((r[1] for r in rows), dtype=np.float64, count=len(rows))
+    index = pd.DatetimeIndex(ts.astype("datetime64[ms]").astype("datetime64[ns]"), name="ts")
+    return pd.Series(values, index=index.tz_localize("UTC"), name=row.key, dtype=np.float64)
+
+
+def sparkline(session: Session, series_id: int, n: int = 120) -> list[float | None]:
+    """The series' whole span cut into ``n`` equal time buckets: each bucket's mean, or
+    None where the bucket holds no point."""
+    row = _require(session, series_id)
+    if not row.point_count or row.first_ts is None or row.last_ts is None:
+        return []
+    span = row.last_ts - row.first_ts + 1
+    bucket = ((Point.ts - row.first_ts) * n) // span
+    rows = session.execute(
+        select(bucket, func.avg(Point.value)).where(Point.series_id == series_id).group_by(bucket)
+    )
+    out: list[float | None] = [None] * n
+    for b, mean in rows:
+        out[min(int(b), n - 1)] = float(mean)
+    return out
