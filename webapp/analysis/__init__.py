@@ -1,0 +1,34 @@
+"""whyfired's analysis core: pure functions over pandas series (no web, no database, no I/O).
+
+from webapp.analysis import explain
+exp = explain(series, window=(start, end), history=pd.Timedelta(weeks=6), tolerance=3.0)
+"""
+
+from ._explain import ENGINE_VERSION, Explanation, explain
+from ._grid import infer_step, regularize
+from ._overlay import past_weeks_overlay
+from ._replay import BandRule, ThresholdRule, replay, rule_from_fields
+from ._report import ReplayReport, replay_report
+from ._robust import robust_scale
+from ._verdict import VerdictDraft, draft_verdict
+from ._whatif import sweep_grid, whatif_sweep
+
+__all__ = [
+    "ENGINE_VERSION",
+    "Explanation",
+    "explain",
+    "infer_step",
+    "past_weeks_overlay",
+    "regularize",
+    "robust_scale",
+    "BandRule",
+    "ReplayReport",
+    "ThresholdRule",
+    "VerdictDraft",
+    "draft_verdict",
+    "replay",
+    "replay_report",
+    "rule_from_fields",
+    "sweep_grid",
+    "whatif_sweep",
+]

@@ -6,11 +6,13 @@ pending period, and ends at the first later sample where it is false. ``end`` is
 firing still going at the end of the data.
 
 The evaluation grid. Stored series are not always regular, so the rule is evaluated on a
-regular grid of the rule's ``step`` (when it has none, the series' own step, the median
-spacing of its timestamps). The evaluation at grid time ``t`` sees the last sample in the
-step that ends at ``t``, i.e. in ``(t - step, t]``: nothing from the future, and a series
-already on that grid is evaluated sample by sample, unchanged. Grid times are multiples of
-the step counted from the Unix epoch, so two series with the same step share one grid.
+regular grid of the rule's ``step`` (when it has none, the series' own step: the median
+spacing of its timestamps, snapped to a round step as ``infer_step`` does). Grid times are
+multiples of the step counted from the Unix epoch, so series with the same step share one
+grid. The evaluation at grid time ``t`` sees the last sample in the step that ends at ``t``,
+i.e. in ``(t - step, t]``: nothing from the future. A series already on that grid is
+evaluated sample by sample, unchanged; a series sitting between grid times is evaluated at
+the next grid time.
 
 Gaps. A grid step with no sample evaluates to "no data", and no data counts as false (as
 NaN does): a collector outage ends a firing, and when data returns the pending period
@@ -30,6 +32,9 @@ from typing import Literal
 
 import numpy as np
 import pandas as pd
+
+from webapp.analysis._explain import explain
+from webapp.analysis._grid import as_utc_series, infer_step
 
 __all__ = ["ThresholdRule", "BandRule", "replay", "evaluation_grid", "rule_from_fields"]
 
@@ -196,35 +201,12 @@ def rule_from_fields(fields: dict) -> Rule:
 
 
 def _clean(series: pd.Series) -> pd.Series:
+    """Finite values on a sorted UTC index (nanosecond unit); no-data rows dropped."""
     if not isinstance(series, pd.Series):
         raise ValueError(f"replay needs a pandas Series, got {type(series).__name__}")
-    if not isinstance(series.index, pd.DatetimeIndex):
-        raise ValueError("replay needs a series with a DatetimeIndex (UTC timestamps)")
-    index = series.index
-    index = index.tz_localize("UTC") if index.tz is None else index.tz_convert("UTC")
-    values = pd.to_numeric(pd.Series(series.to_numpy(), index=index), errors="coerce")
-    values = values.astype("float64")
-    values = values[np.isfinite(values.to_numpy())]
-    if values.empty:
-        raise ValueError("the series has no values to replay (it is empty or all missing)")
-    if not values.index.is_monotonic_increasing:
-        values = values.sort_index(kind="stable")
-    return values
-
-
-def _series_step(index: pd.DatetimeIndex) -> pd.Timedelta:
-    """The median spacing of the timestamps, rounded to whole seconds when at least 1 s."""
-    if len(index) < 2:
-        return pd.Timedelta(minutes=1)
-    ns = index.as_unit("ns").asi8
-    diffs = np.diff(ns)
-    diffs = diffs[diffs > 0]
-    if diffs.size == 0:
-        return pd.Timedelta(minutes=1)
-    median = float(np.median(diffs))
-    if median >= 1e9:
-        median = round(median / 1e9) * 1e9
-    return pd.Timedelta(int(median), unit="ns")
+    clean = as_utc_series(series).dropna()
+    clean.index = clean.index.as_unit("ns")
+    return clean
 
 
 def evaluation_grid(
@@ -235,7 +217,13 @@ def evaluation_grid(
     See the module docstring: last sample per step ``(t - step, t]``, labelled ``t``.
     """
     clean = _clean(series)
-    step = _series_step(clean.index) if step is None else pd.Timedelta(step)
+    if step is None:
+        if len(clean) < 2:
+            raise ValueError(
+                "the series has a single sample: give the rule an evaluation step to replay it"
+            )
+        step = infer_step(clean.index)
+    step = pd.Timedelta(step)
     step_ns = int(step.value)
     ns = clean.index.as_unit("ns").asi8
     bucket = -(-ns // step_ns)
@@ -292,8 +280,6 @@ def band_condition(
     times: pd.DatetimeIndex, values: np.ndarray, series: pd.Series, rule: BandRule
 ) -> np.ndarray:
     """Outside-the-band per evaluation, each day's band fitted on the days before it."""
-    from webapp.analysis import explain  # the explainer's public entry point
-
     clean = _clean(series)
     lower = np.full(len(times), np.nan)
     upper = np.full(len(times), np.nan)

@@ -1,0 +1,64 @@
+"""Past-weeks overlay: each earlier week laid over the window at the same hour-of-week."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from ._clock import check_tz, same_wall_clock_weeks_ago
+from ._grid import Agg, regularize, to_utc
+from ._robust import quiet_nan_warnings
+
+SUMMARY_COLUMNS = ("median", "p10", "p90", "min", "max")
+
+
+def past_weeks_overlay(
+    series: pd.Series,
+    window: tuple,
+    weeks: int = 6,
+    tz: str = "UTC",
+    *,
+    step: pd.Timedelta | str | None = None,
+    agg: Agg = "mean",
+) -> pd.DataFrame:
+    """For each grid timestamp of the window, the value at the same wall-clock hour-of-week
+    in each of the `weeks` earlier weeks, plus their median, 10th/90th percentiles, min, max.
+
+    Columns "week_-1" ... "week_-N" then "median", "p10", "p90", "min", "max"; index: the
+    window's grid timestamps (UTC). Weeks without data at that time hold NaN.
+    """
+    tz = check_tz(tz)
+    start, end = check_window(window)
+    if not isinstance(weeks, int | np.integer) or weeks < 1:
+        raise ValueError(f"weeks must be a positive whole number, got {weeks!r}")
+    regular = regularize(series, step, agg=agg, end=max(end, to_utc(series.index.max())))
+    grid = regular.index[(regular.index >= start) & (regular.index <= end)]
+    step_td = regular.index[1] - regular.index[0] if len(regular) > 1 else pd.Timedelta("1min")
+    columns = {}
+    for k in range(1, weeks + 1):
+        targets = same_wall_clock_weeks_ago(grid, k, tz)
+        at = regular.index.get_indexer(targets, method="nearest", tolerance=step_td / 2)
+        values = np.where(at >= 0, regular.to_numpy()[np.maximum(at, 0)], np.nan)
+        values[targets.isna()] = np.nan
+        columns[f"week_-{k}"] = values
+    out = pd.DataFrame(columns, index=grid)
+    past = out.to_numpy()
+    with quiet_nan_warnings():
+        out["median"] = np.nanmedian(past, axis=1)
+        out["p10"] = np.nanpercentile(past, 10, axis=1)
+        out["p90"] = np.nanpercentile(past, 90, axis=1)
+        out["min"] = np.nanmin(past, axis=1)
+        out["max"] = np.nanmax(past, axis=1)
+    return out
+
+
+def check_window(window) -> tuple[pd.Timestamp, pd.Timestamp]:
+    """(start, end) as UTC timestamps; start must come before end."""
+    try:
+        start, end = window
+    except (TypeError, ValueError):
+        raise ValueError(f"window must be a (start, end) pair, got {window!r}") from None
+    start, end = to_utc(start), to_utc(end)
+    if start >= end:
+        raise ValueError(f"the window must start before it ends: {start} >= {end}")
+    return start, end

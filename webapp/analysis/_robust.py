@@ -1,0 +1,49 @@
+"""Robust location and scale: the median and the normalised median absolute deviation."""
+
+from __future__ import annotations
+
+import warnings
+from collections.abc import Iterator
+from contextlib import contextmanager
+
+import numpy as np
+from numpy.typing import ArrayLike
+from scipy.stats import norm
+
+#: 1 / Phi^-1(3/4): makes the MAD a consistent estimate of the standard deviation of a
+#: normal distribution.
+MAD_TO_SD = float(1.0 / norm.ppf(0.75))
+
+
+def robust_scale(values: ArrayLike) -> float:
+    """Robust standard deviation: MAD x 1.4826, ignoring NaN. NaN when nothing is left."""
+    x = np.asarray(values, dtype=float)
+    x = x[np.isfinite(x)]
+    if x.size == 0:
+        return float("nan")
+    return float(MAD_TO_SD * np.median(np.abs(x - np.median(x))))
+
+
+def grouped_robust_scale(values: np.ndarray, groups: np.ndarray, n_groups: int):
+    """Robust standard deviation and count per integer group label in [0, n_groups)."""
+    ok = np.isfinite(values)
+    v, g = values[ok], groups[ok]
+    scales = np.full(n_groups, np.nan)
+    counts = np.bincount(g, minlength=n_groups)
+    if v.size == 0:
+        return scales, counts
+    order = np.lexsort((v, g))
+    v, g = v[order], g[order]
+    starts = np.searchsorted(g, np.arange(n_groups), side="left")
+    ends = np.searchsorted(g, np.arange(n_groups), side="right")
+    for k in np.flatnonzero(ends > starts):
+        scales[k] = robust_scale(v[starts[k] : ends[k]])
+    return scales, counts
+
+
+@contextmanager
+def quiet_nan_warnings() -> Iterator[None]:
+    """Silence numpy's warnings about all-NaN slices: NaN is the intended answer there."""
+    with warnings.catch_warnings(), np.errstate(all="ignore"):
+        warnings.simplefilter("ignore", RuntimeWarning)
+        yield

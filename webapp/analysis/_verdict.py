@@ -1,0 +1,196 @@
+"""A drafted verdict on an alert rule: keep, tune (with new parameters) or retire.
+
+The draft is built from a replay report and, for threshold rules, a what-if sweep:
+- *tune* when some setting in the sweep catches every incident the current rule caught
+  with fewer firings (the setting with the fewest pages wins; ties go to the shorter median
+  delay, then to the setting closest to the current one). "Fewer" means at least one page
+  less and at least ``TUNE_MIN_SAVING`` of them.
+- *retire* when the rule caught no recorded incident and paged for nothing at least
+  ``RETIRE_MIN_FALSE`` times.
+- *keep* otherwise (it catches what it should at the least noise the sweep found, or it is
+  quiet, or there is too little to judge).
+The rationale is plain sentences built from the numbers. It always ends by saying that the
+tool only drafts, that retiring an alert can hide a real failure, and that the service owner
+and the team's own paging policy decide.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Literal
+
+import pandas as pd
+
+from webapp.analysis._replay import BandRule, Rule, ThresholdRule, _format_duration
+from webapp.analysis._report import ReplayReport
+
+TUNE_MIN_SAVING = 0.2
+RETIRE_MIN_FALSE = 2
+OWNER_DECIDES = (
+    "whyfired only drafts this verdict from the replay. Retiring an alert can hide a real "
+    "failure that did not happen to occur in these weeks; the service owner and the team's "
+    "own paging policy decide."
+)
+ON_CALL_LOAD = (
+    "Common practice (the Site Reliability Engineering book, 2016, chapter 11) is to allow "
+    "at most two incidents per 12-hour on-call shift, and every alert of the team shares "
+    "that budget."
+)
+
+
+@dataclass(frozen=True)
+class VerdictDraft:
+    suggestion: Literal["keep", "tune", "retire"]
+    parameters: dict[str, Any]
+    rationale: str
+    sentences: list[str] = field(default_factory=list)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "suggestion": self.suggestion,
+            "parameters": dict(self.parameters),
+            "rationale": self.rationale,
+        }
+
+
+def _plural(n: int, word: str) -> str:
+    return f"{n} {word}" if n == 1 else f"{n} {word}s"
+
+
+def _duration(delta: pd.Timedelta | None) -> str:
+    if delta is None or pd.isna(delta):
+        return "n/a"
+    sign = "-" if delta < pd.Timedelta(0) else ""
+    seconds = abs(delta.total_seconds())
+    if seconds < 60:
+        return f"{sign}{seconds:.0f} s"
+    if seconds < 3600 * 2:
+        return f"{sign}{seconds / 60:.0f} min"
+    return f"{sign}{seconds / 3600:.1f} h"
+
+
+def rule_parameters(rule: Rule) -> dict[str, Any]:
+    """A rule's parameters in the stored alert-rule field names."""
+    common = {
+        "pending_seconds": int(rule.for_.total_seconds()),
+        "step_seconds": None if rule.step is None else int(rule.step.total_seconds()),
+    }
+    if isinstance(rule, ThresholdRule):
+        return {
+            "kind": "threshold",
+            "direction": rule.direction,
+            "threshold": rule.threshold,
+            **common,
+        }
+    return {"kind": "band", "direction": rule.direction, "tolerance": rule.tolerance, **common}
+
+
+def _best_setting(
+    report: ReplayReport, sweep: pd.DataFrame, rule: ThresholdRule
+) -> pd.Series | None:
+    needed = set(report.caught)
+    keeps_all = sweep["caught"].map(lambda got: needed.issubset(got))
+    candidates = sweep[keeps_all]
+    if candidates.empty:
+        return None
+    closeness = (candidates["threshold"] - rule.threshold).abs() / max(abs(rule.threshold), 1e-12)
+    closeness += (candidates["pending"] - rule.for_).abs() / pd.Timedelta(hours=1)
+    ranked = candidates.assign(
+        _delay=candidates["median_delay"].fillna(pd.Timedelta.max),
+        _close=closeness,
+    ).sort_values(["pages_per_week", "_delay", "_close"], kind="stable")
+    return ranked.iloc[0]
+
+
+def _facts(report: ReplayReport) -> list[str]:
+    in_range = [i for i in report.incidents if i["in_range"]]
+    out = [
+        f"Replayed over {report.weeks:.1f} weeks of data, the rule ({report.rule_text}) would "
+        f"have fired {_plural(report.n_firings, 'time')}, {report.pages_per_week:.1f} per week."
+    ]
+    if report.n_firings:
+        out.append(
+            f"The median firing lasted {_duration(report.median_duration)}; "
+            f"{report.inside} overlapped a recorded incident and {report.outside} did not."
+        )
+    if report.flapping:
+        out.append(
+            f"{_plural(report.flapping, 'firing')} started within "
+            f"{_duration(report.flap_gap)} of the previous one ending (flapping)."
+        )
+    if in_range:
+        caught = [i for i in in_range if i["caught"]]
+        text = f"It caught {len(caught)} of {_plural(len(in_range), 'recorded incident')}"
+        if caught:
+            delays = ", ".join(_duration(i["delay"]) for i in caught)
+            text += f" (delay after the incident began: {delays})"
+        out.append(text + ".")
+        if len(caught) < len(in_range):
+            out.append(f"It missed {_plural(len(in_range) - len(caught), 'incident')}.")
+    else:
+        out.append("No recorded incident falls within the replayed data.")
+    if report.outside:
+        out.append(
+            f"At its busiest it fired {_plural(report.busiest_12h, 'time')} within 12 hours. "
+            + ON_CALL_LOAD
+        )
+    return out
+
+
+def draft_verdict(report: ReplayReport, sweep: pd.DataFrame | None, rule: Rule) -> VerdictDraft:
+    """Draft keep / tune / retire for ``rule`` from its replay ``report`` and what-if ``sweep``
+    (None, or ignored, for band rules). See the module docstring for the decision."""
+    if not isinstance(rule, ThresholdRule | BandRule):
+        raise ValueError(
+            f"draft_verdict needs a ThresholdRule or a BandRule, got {type(rule).__name__}"
+        )
+    sentences = _facts(report)
+    current = rule_parameters(rule)
+    suggestion: Literal["keep", "tune", "retire"] = "keep"
+    parameters = current
+    best = None
+    if isinstance(rule, ThresholdRule) and sweep is not None and len(sweep):
+        best = _best_setting(report, sweep, rule)
+    if report.n_firings and not report.caught and report.outside >= RETIRE_MIN_FALSE:
+        suggestion, parameters = "retire", {}
+        sentences.append(
+            "None of its firings matched a recorded incident, so every page it sent woke "
+            "someone for nothing that was written down."
+        )
+    elif (
+        best is not None and report.caught and _saves_enough(report.n_firings, int(best["firings"]))
+    ):
+        suggestion = "tune"
+        parameters = {
+            **current,
+            "threshold": float(best["threshold"]),
+            "pending_seconds": int(best["pending"].total_seconds()),
+        }
+        sentences.append(
+            f"With threshold {best['threshold']:g} and a pending period of "
+            f"{_format_duration(best['pending'])}, it would have fired "
+            f"{_plural(int(best['firings']), 'time')} ({best['pages_per_week']:.1f} per week) "
+            f"and still caught every incident the current rule caught "
+            f"(median delay {_duration(best['median_delay'])})."
+        )
+    elif report.caught:
+        sentences.append(
+            "No setting in the what-if sweep catches the same incidents with clearly fewer pages."
+            if best is not None
+            else "It caught what it was meant to catch."
+        )
+    elif not report.n_firings:
+        sentences.append("A rule that never fired cost the team no pages in these weeks.")
+    else:
+        sentences.append("It fired too rarely to judge from these weeks alone.")
+    sentences.append(OWNER_DECIDES)
+    return VerdictDraft(
+        suggestion=suggestion,
+        parameters=parameters,
+        rationale=" ".join(sentences),
+        sentences=sentences,
+    )
+
+
+def _saves_enough(current: int, proposed: int) -> bool:
+    return proposed < current and (current - proposed) >= TUNE_MIN_SAVING * current
