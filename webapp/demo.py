@@ -37,7 +37,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from webapp.analysis._replay import ThresholdRule, replay
+from webapp.analysis import ThresholdRule, replay
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports.keys import parse_series_key, series_key
 
