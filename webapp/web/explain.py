@@ -1,3 +1,251 @@
-from flask import Blueprint
+"""The Explain screen: one series around one window, live; and saved explanations, frozen."""
+
+from __future__ import annotations
+
+from dataclasses import replace
+from typing import Any
+
+import pandas as pd
+from flask import Blueprint, Response, abort, current_app, jsonify, redirect, request, url_for
+from werkzeug.wrappers import Response as WerkzeugResponse
+
+from webapp.store import db
+from webapp.web import evidence as ev
+from webapp.web.figures import from_wall_clock
+from webapp.web.htmx import is_htmx, render
+from webapp.web.params import (
+    ExplainQuery,
+    Span,
+    bad_request,
+    parse_int,
+    parse_spans,
+    parse_tz,
+    read_query,
+)
 
 bp = Blueprint("explain", __name__)
+
+DEFAULT_WINDOW = pd.Timedelta(days=1)
+
+
+def load_series(series_id: int | None) -> Any:
+    """The series row, or 404 saying which series is unknown."""
+    from webapp.store import series as store_series
+
+    row = store_series.get_series(db.get_session(), series_id) if series_id is not None else None
+    if row is None:
+        abort(404, description=f"There is no series #{series_id}. Pick one from the Series list.")
+    return row
+
+
+def default_window(series: Any) -> Span | None:
+    """The last day of the series' data."""
+    if series.last_ts is None:
+        return None
+    end = pd.Timestamp(int(series.last_ts), unit="ms", tz="UTC")
+    return end - DEFAULT_WINDOW, end
+
+
+def stored_exclusions(series_id: int) -> list[Span]:
+    from webapp.store import excluded
+
+    return [
+        (pd.Timestamp(s), pd.Timestamp(e))
+        for s, e in excluded.periods_for(db.get_session(), series_id)
+    ]
+
+
+def page_marks(page_id: int | None) -> list[tuple[pd.Timestamp, str]]:
+    if page_id is None:
+        return []
+    from webapp.store import pages
+
+    page = pages.get_page(db.get_session(), page_id)
+    if page is None:
+        return []
+    marks = [(pd.Timestamp(page.fired_at), "page fired")]
+    if page.resolved_at is not None:
+        marks.append((pd.Timestamp(page.resolved_at), "resolved"))
+    return marks
+
+
+def current_query(args: Any) -> tuple[Any, ExplainQuery]:
+    series = load_series(parse_int(args.get("series"), "series number"))
+    if series.last_ts is None:
+        bad_request(f"The series {series.key} has no points yet; import some data first.")
+    query = read_query(args, series.id, default_window(series), current_app.config)
+    return series, query
+
+
+def live(series: Any, query: ExplainQuery) -> ev.Evidence:
+    evidence = ev.live_evidence(db.get_session(), series, query, stored_exclusions(series.id))
+    evidence.marks = page_marks(query.page_id)
+    return evidence
+
+
+def chooser() -> str:
+    from webapp.store import pages
+    from webapp.store import series as store_series
+
+    session = db.get_session()
+    series_list = store_series.list_series(session)
+    return render(
+        "explain/choose.html",
+        "explain/choose.html",
+        series_list=series_list,
+        keys={s.id: s.key for s in series_list},
+        pages=pages.list_pages(session)[:20],
+        tz=parse_tz(request.args.get("tz")),
+    )
+
+
+@bp.get("/explain")
+def index() -> str:
+    if not request.args.get("series"):
+        return chooser()
+    series, query = current_query(request.args)
+    evidence = live(series, query)
+    return render(
+        "explain/index.html",
+        "explain/_results.html",
+        series=series,
+        query=query,
+        evidence=evidence,
+        panels=ev.build_panels(evidence),
+        stored=stored_exclusions(series.id),
+        fine=lambda name: url_for("explain.live_figure", name=name, **query.args()),
+    )
+
+
+def view_from_args(tz: str) -> Span | None:
+    """The zoomed range the browser asks for (plotly's wall-clock strings in ``tz``)."""
+    start, end = request.args.get("from"), request.args.get("to")
+    if not start or not end:
+        return None
+    try:
+        view = from_wall_clock(start, tz), from_wall_clock(end, tz)
+    except ValueError:
+        bad_request(f"The range {start!r} to {end!r} is not a pair of times.")
+    if view[0] >= view[1]:
+        bad_request("The range must start before it ends.")
+    return view
+
+
+def figure_response(evidence: ev.Evidence, name: str) -> Response:
+    if name not in ev.PANELS:
+        abort(404, description=f"There is no figure called {name!r}.")
+    view = view_from_args(evidence.tz)
+    try:
+        fig = ev.build_figure(evidence, name, view=view)
+    except ValueError as error:
+        return jsonify(error=str(error)), 422
+    return Response(ev.figure_json(fig), mimetype="application/json")
+
+
+@bp.get("/explain/figure/<name>")
+def live_figure(name: str) -> Response:
+    series, query = current_query(request.args)
+    return figure_response(live(series, query), name)
+
+
+@bp.post("/explain/save")
+def save() -> WerkzeugResponse:
+    from webapp.store import explanations
+
+    series, query = current_query(request.form)
+    evidence = live(series, query)
+    if evidence.explanation is None:
+        bad_request(evidence.errors.get("explain", "There is nothing to save."))
+    title = (request.form.get("title") or "").strip()[:300] or f"{series.key} around the window"
+    session = db.get_session()
+    row = explanations.save_explanation(
+        session,
+        evidence.explanation,
+        series.id,
+        overlay=evidence.overlay,
+        title=title,
+        page_id=query.page_id,
+    )
+    session.commit()
+    target = url_for("explain.saved", explanation_id=row.id)
+    if is_htmx():
+        return Response(status=204, headers={"HX-Redirect": target})
+    return redirect(target, code=303)
+
+
+@bp.post("/explain/exclusions")
+def keep_exclusion() -> WerkzeugResponse:
+    """Store one of the view's ad-hoc excluded periods, so every baseline leaves it out."""
+    from webapp.store import excluded
+
+    series, query = current_query(request.form)
+    spans = parse_spans([request.form.get("keep") or ""], query.tz)
+    if not spans:
+        bad_request("Say which excluded period to keep, written START/END.")
+    span = spans[0]
+    reason = (request.form.get("reason") or "").strip()[:500] or "left out from the Explain screen"
+    session = db.get_session()
+    excluded.add_excluded(session, series.id, span[0], span[1], reason)
+    session.commit()
+    remaining = tuple(s for s in query.exclude if s != span)
+    target = url_for("explain.index", **replace(query, exclude=remaining).args())
+    if is_htmx():
+        return Response(status=204, headers={"HX-Redirect": target})
+    return redirect(target, code=303)
+
+
+def load_saved(explanation_id: int) -> Any:
+    from webapp.store import explanations
+
+    row = explanations.get_explanation(db.get_session(), explanation_id)
+    if row is None:
+        abort(404, description=f"There is no saved explanation #{explanation_id}.")
+    return row
+
+
+def frozen(row: Any) -> ev.Evidence:
+    from webapp.store import series as store_series
+
+    series = store_series.get_series(db.get_session(), row.series_id) if row.series_id else None
+    unit = row.parameters.get("unit") or (series.unit if series is not None else None)
+    evidence = ev.frozen_evidence(row, unit)
+    evidence.marks = page_marks(row.page_id)
+    return evidence
+
+
+@bp.get("/explanations")
+def saved_list() -> str:
+    from webapp.store import explanations
+
+    rows = explanations.list_explanations(db.get_session())
+    return render("explain/saved_list.html", "explain/saved_list.html", rows=rows)
+
+
+@bp.get("/explanations/<int:explanation_id>")
+def saved(explanation_id: int) -> str:
+    row = load_saved(explanation_id)
+    evidence = frozen(row)
+    return render(
+        "explain/saved.html",
+        "explain/saved.html",
+        row=row,
+        evidence=evidence,
+        panels=ev.build_panels(evidence),
+        fine=lambda name: url_for("explain.saved_figure", explanation_id=row.id, name=name),
+    )
+
+
+@bp.get("/explanations/<int:explanation_id>/figure/<name>")
+def saved_figure(explanation_id: int, name: str) -> Response:
+    return figure_response(frozen(load_saved(explanation_id)), name)
+
+
+@bp.post("/explanations/<int:explanation_id>/delete")
+def delete_saved(explanation_id: int) -> WerkzeugResponse:
+    from webapp.store import explanations
+
+    row = load_saved(explanation_id)
+    session = db.get_session()
+    explanations.delete_explanation(session, row.id)
+    session.commit()
+    return redirect(url_for("explain.saved_list"), code=303)

@@ -4,8 +4,9 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+from functools import cache
 from typing import Any
-from zoneinfo import ZoneInfo
+from zoneinfo import ZoneInfo, available_timezones
 
 import pandas as pd
 from flask import Flask, url_for
@@ -95,7 +96,14 @@ def endpoint_url(endpoint: str, fallback: str) -> str:
         return fallback
 
 
+@cache
+def time_zones() -> list[str]:
+    """IANA zone names for the time zone pickers, UTC first."""
+    return ["UTC"] + sorted(z for z in available_timezones() if "/" in z and z != "UTC")
+
+
 def init_app(app: Flask) -> None:
+    app.add_template_global(time_zones, "time_zones")
     app.add_template_global(endpoint_url, "endpoint_url")
     for name, fn in {
         "local_time": local_time,

@@ -1,3 +1,35 @@
-from flask import Blueprint
+"""Series: the stored series, searchable by metric and label, each with its sparkline."""
+
+from __future__ import annotations
+
+from flask import Blueprint, abort, redirect, request, url_for
+from werkzeug.wrappers import Response
+
+from webapp.store import db
+from webapp.web.htmx import render
+from webapp.web.sparkline import sparkline_path
 
 bp = Blueprint("series", __name__)
+
+MAX_QUERY = 200
+
+
+@bp.get("/series")
+def index() -> str:
+    from webapp.store import series as store_series
+
+    q = (request.args.get("q") or "").strip()[:MAX_QUERY]
+    session = db.get_session()
+    rows = store_series.list_series(session, q or None)
+    paths = {row.id: sparkline_path(store_series.sparkline(session, row.id)) for row in rows}
+    return render("series/index.html", "series/_rows.html", rows=rows, paths=paths, q=q)
+
+
+@bp.get("/series/<int:series_id>")
+def open_series(series_id: int) -> Response:
+    """A series opens on the Explain screen (its last day of data)."""
+    from webapp.store import series as store_series
+
+    if store_series.get_series(db.get_session(), series_id) is None:
+        abort(404, description=f"There is no series #{series_id}.")
+    return redirect(url_for("explain.index", series=series_id))

@@ -1,0 +1,138 @@
+/* whyfired Explain screen: draws the server-built plotly figures, fetches finer data when
+   the reader zooms in, and offers the zoomed range as the new window. */
+(function () {
+  "use strict";
+
+  var CONFIG = {
+    responsive: true,
+    displaylogo: false,
+    modeBarButtonsToRemove: ["select2d", "lasso2d", "toImage"],
+  };
+
+  function readFigure(el) {
+    var data = el.nextElementSibling;
+    return JSON.parse(data.textContent);
+  }
+
+  function xRange(event) {
+    for (var key in event) {
+      var m = key.match(/^xaxis\d*\.range\[0\]$/);
+      if (m) {
+        return [event[key], event[key.replace("[0]", "[1]")]];
+      }
+      if (/^xaxis\d*\.range$/.test(key)) return event[key];
+    }
+    return null;
+  }
+
+  function isAutorange(event) {
+    return Object.keys(event).some(function (key) {
+      return /^xaxis\d*\.autorange$/.test(key);
+    });
+  }
+
+  function showMessage(el, text) {
+    var note = el.parentNode.querySelector(".figure-message");
+    if (!note) {
+      note = document.createElement("p");
+      note.className = "figure-message notice notice-warning";
+      note.setAttribute("role", "status");
+      el.parentNode.insertBefore(note, el.nextSibling);
+    }
+    note.textContent = text;
+    note.hidden = !text;
+  }
+
+  function offerRange(el, range) {
+    var panel = el.closest(".panel");
+    var offer = panel && panel.querySelector(".range-offer");
+    var controls = document.getElementById("controls");
+    if (!offer || !controls) return;
+    offer.hidden = !range;
+    offer.dataset.start = range ? String(range[0]).slice(0, 16).replace(" ", "T") : "";
+    offer.dataset.end = range ? String(range[1]).slice(0, 16).replace(" ", "T") : "";
+  }
+
+  function refine(el, event) {
+    if (el._whyfiredBusy) return;
+    var range = xRange(event);
+    if (!range && !isAutorange(event)) return;
+    if (!range) {
+      el._whyfiredBusy = true;
+      Plotly.react(el, el._whyfiredOriginal.data, el._whyfiredOriginal.layout).then(function () {
+        el._whyfiredBusy = false;
+      });
+      showMessage(el, "");
+      offerRange(el, null);
+      return;
+    }
+    offerRange(el, range);
+    var url = new URL(el.dataset.fineUrl, window.location.href);
+    url.searchParams.set("from", range[0]);
+    url.searchParams.set("to", range[1]);
+    fetch(url, { headers: { Accept: "application/json" } })
+      .then(function (response) {
+        return response.json().then(function (body) {
+          if (!response.ok) throw new Error(body.error || "The finer data could not be loaded.");
+          return body;
+        });
+      })
+      .then(function (fig) {
+        el._whyfiredBusy = true;
+        return Plotly.react(el, fig.data, fig.layout).then(function () {
+          el._whyfiredBusy = false;
+          showMessage(el, "");
+        });
+      })
+      .catch(function (error) {
+        el._whyfiredBusy = false;
+        showMessage(el, error.message);
+      });
+  }
+
+  function draw(root) {
+    var figures = root.querySelectorAll ? root.querySelectorAll("[data-figure]") : [];
+    Array.prototype.forEach.call(figures, function (el) {
+      if (el.dataset.drawn) return;
+      el.dataset.drawn = "1";
+      var fig;
+      try {
+        fig = readFigure(el);
+      } catch (error) {
+        showMessage(el, "This figure could not be read.");
+        return;
+      }
+      el._whyfiredOriginal = fig;
+      Plotly.newPlot(el, fig.data, fig.layout, CONFIG).then(function () {
+        if (el.dataset.fineUrl) {
+          el.on("plotly_relayout", function (event) {
+            refine(el, event);
+          });
+        }
+      });
+    });
+  }
+
+  function useRange(button) {
+    var offer = button.closest(".range-offer");
+    var controls = document.getElementById("controls");
+    if (!offer || !controls || !offer.dataset.start) return;
+    controls.querySelector("[name=start]").value = offer.dataset.start;
+    controls.querySelector("[name=end]").value = offer.dataset.end;
+    htmx.trigger(controls, "submit");
+  }
+
+  document.addEventListener("click", function (event) {
+    var button = event.target.closest("[data-use-range]");
+    if (button) useRange(button);
+  });
+
+  document.addEventListener("input", function (event) {
+    if (event.target.id === "tolerance") {
+      var out = document.getElementById("tolerance-out");
+      if (out) out.textContent = event.target.value;
+    }
+  });
+
+  htmx.onLoad(draw);
+})();

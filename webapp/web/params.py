@@ -1,0 +1,191 @@
+"""Reading the Explain screen's parameters from a request, with a clear 400 for bad ones."""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass, field, replace
+from typing import Any
+from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
+
+import pandas as pd
+from flask import abort
+from werkzeug.datastructures import MultiDict
+
+MIN_TOLERANCE = 0.5
+MAX_TOLERANCE = 20.0
+MIN_WEEKS, MAX_WEEKS = 1, 8
+TIME_FORMAT_HELP = "a date and time such as 2026-11-30T14:05 (or ISO 8601 with an offset)"
+
+Span = tuple[pd.Timestamp, pd.Timestamp]
+
+
+def bad_request(message: str) -> None:
+    abort(400, description=message)
+
+
+def parse_tz(text: str | None, default: str = "UTC") -> str:
+    name = (text or "").strip() or default
+    try:
+        ZoneInfo(name)
+    except (ZoneInfoNotFoundError, ValueError):
+        bad_request(f"Unknown time zone {name!r}: use an IANA name such as UTC or Europe/Berlin.")
+    return name
+
+
+def parse_time(text: str | None, tz: str, what: str) -> pd.Timestamp:
+    """A form time as a UTC Timestamp; a time without an offset is wall-clock time in ``tz``."""
+    raw = (text or "").strip()
+    if not raw:
+        bad_request(f"The {what} is missing: give {TIME_FORMAT_HELP}.")
+    try:
+        ts = pd.Timestamp(raw)
+    except (ValueError, TypeError, OverflowError):
+        ts = None
+    if ts is None or ts is pd.NaT:
+        bad_request(f"The {what} {raw!r} is not a time: give {TIME_FORMAT_HELP}.")
+    if ts.tzinfo is None:
+        ts = ts.tz_localize(tz, ambiguous=True, nonexistent="shift_forward")
+    return ts.tz_convert("UTC")
+
+
+def parse_window(start: str | None, end: str | None, tz: str) -> Span:
+    first = parse_time(start, tz, "window start")
+    last = parse_time(end, tz, "window end")
+    if first >= last:
+        bad_request("The window must start before it ends.")
+    if last - first > pd.Timedelta(weeks=4):
+        bad_request("The window may span at most 4 weeks; history before it is read separately.")
+    return first, last
+
+
+def parse_tolerance(text: str | None, default: float) -> float:
+    if text is None or not str(text).strip():
+        return default
+    try:
+        value = float(text)
+    except ValueError:
+        value = math.nan
+    if not math.isfinite(value) or not MIN_TOLERANCE <= value <= MAX_TOLERANCE:
+        bad_request(
+            f"The tolerance {text!r} is not usable: give a number of robust standard "
+            f"deviations from {MIN_TOLERANCE:g} to {MAX_TOLERANCE:g}."
+        )
+    return value
+
+
+def parse_weeks(text: str | None, default: int) -> int:
+    if text is None or not str(text).strip():
+        return default
+    try:
+        value = int(text)
+    except ValueError:
+        value = 0
+    if not MIN_WEEKS <= value <= MAX_WEEKS:
+        bad_request(
+            f"The history {text!r} is not usable: give a whole number of weeks "
+            f"from {MIN_WEEKS} to {MAX_WEEKS}."
+        )
+    return value
+
+
+def parse_int(text: str | None, what: str) -> int | None:
+    if text is None or not str(text).strip():
+        return None
+    try:
+        return int(text)
+    except ValueError:
+        bad_request(f"The {what} {text!r} is not a number.")
+    return None
+
+
+def format_span(span: Span) -> str:
+    return f"{span[0].isoformat()}/{span[1].isoformat()}"
+
+
+def parse_spans(values: list[str], tz: str) -> list[Span]:
+    """Excluded periods given as ``START/END`` strings."""
+    spans = []
+    for text in values:
+        if not text.strip():
+            continue
+        start, sep, end = text.partition("/")
+        if not sep:
+            bad_request(f"The excluded period {text!r} must be written START/END.")
+        first = parse_time(start, tz, "excluded period start")
+        last = parse_time(end, tz, "excluded period end")
+        if first >= last:
+            bad_request(f"The excluded period {text!r} must start before it ends.")
+        spans.append((first, last))
+    return spans
+
+
+@dataclass(frozen=True)
+class ExplainQuery:
+    """Everything that decides one explanation, as read from the request."""
+
+    series_id: int
+    window: Span
+    tolerance: float
+    weeks: int
+    tz: str
+    exclude: tuple[Span, ...] = field(default=())
+    page_id: int | None = None
+
+    @property
+    def history(self) -> pd.Timedelta:
+        return pd.Timedelta(weeks=self.weeks)
+
+    def args(self) -> dict[str, Any]:
+        """The query string that reproduces this explanation (for links and hx-push-url)."""
+        args: dict[str, Any] = {
+            "series": self.series_id,
+            "start": self.window[0].isoformat(),
+            "end": self.window[1].isoformat(),
+            "tolerance": f"{self.tolerance:g}",
+            "weeks": self.weeks,
+            "tz": self.tz,
+        }
+        if self.exclude:
+            args["exclude"] = [format_span(s) for s in self.exclude]
+        if self.page_id is not None:
+            args["page"] = self.page_id
+        return args
+
+    def with_window(self, window: Span) -> ExplainQuery:
+        return replace(self, window=window)
+
+
+def read_query(
+    args: Mapping[str, Any] | MultiDict,
+    series_id: int,
+    default_window: Span | None,
+    defaults: Mapping[str, Any],
+) -> ExplainQuery:
+    """An :class:`ExplainQuery` from request args; aborts with 400 on any bad value."""
+    multi = args if isinstance(args, MultiDict) else MultiDict(args)
+    tz = parse_tz(multi.get("tz"))
+    if multi.get("start") or multi.get("end") or default_window is None:
+        window = parse_window(multi.get("start"), multi.get("end"), tz)
+    else:
+        window = default_window
+    exclude = parse_spans(multi.getlist("exclude"), tz)
+    if multi.get("exclude_start") or multi.get("exclude_end"):
+        exclude.append(parse_window_pair(multi.get("exclude_start"), multi.get("exclude_end"), tz))
+    return ExplainQuery(
+        series_id=series_id,
+        window=window,
+        tolerance=parse_tolerance(multi.get("tolerance"), float(defaults["DEFAULT_TOLERANCE"])),
+        weeks=parse_weeks(multi.get("weeks"), int(defaults["DEFAULT_HISTORY_WEEKS"])),
+        tz=tz,
+        exclude=tuple(dict.fromkeys(exclude)),
+        page_id=parse_int(multi.get("page"), "page number"),
+    )
+
+
+def parse_window_pair(start: str | None, end: str | None, tz: str) -> Span:
+    first = parse_time(start, tz, "excluded period start")
+    last = parse_time(end, tz, "excluded period end")
+    if first >= last:
+        bad_request("The excluded period must start before it ends.")
+    return first, last
