@@ -2,12 +2,17 @@
 
 from __future__ import annotations
 
+import hashlib
 import os
 from collections.abc import Callable
+from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 from webapp.imports._csv import parse_csv_long, parse_csv_wide
 from webapp.imports._detect import UnknownFormat, check_override, detect_format
+from webapp.imports._json import parse_json_records, parse_json_series
+from webapp.imports._openmetrics import parse_openmetrics
+from webapp.imports._parquet import parse_parquet
 from webapp.imports._problems import ProblemLog
 from webapp.imports._text import without_bom
 from webapp.imports._types import ImportRejected, ParsedImport
@@ -17,8 +22,14 @@ DEFAULT_MAX_BYTES = 200 * 1024**2
 Parser = Callable[[bytes, str, "str | None", ProblemLog], ParsedImport]
 
 
-def _parsers() -> dict[str, Parser]:
-    return {"csv-long": parse_csv_long, "csv-wide": parse_csv_wide}
+PARSERS: dict[str, Parser] = {
+    "csv-long": parse_csv_long,
+    "csv-wide": parse_csv_wide,
+    "json-records": parse_json_records,
+    "json-series": parse_json_series,
+    "openmetrics": parse_openmetrics,
+    "parquet": parse_parquet,
+}
 
 
 def _too_big(size: int, max_bytes: int, log: ProblemLog) -> None:
@@ -61,14 +72,18 @@ def parse_bytes(
             log.reject(f"unknown format: {exc}")
     else:
         check_override(format, data, file_name, log)
-    parser = _parsers()[format]
-    try:
-        return parser(data, file_name, tz, log)
-    except ImportRejected:
-        raise
-    except Exception as exc:  # noqa: BLE001 - a reader's own error must not surface raw
-        log.reject(f"could not be read as {format}: {exc}")
-        raise AssertionError("unreachable") from exc
+    parser = PARSERS[format]
+    with ThreadPoolExecutor(max_workers=1) as pool:
+        digest = pool.submit(lambda: hashlib.sha256(data).hexdigest())  # releases the GIL
+        try:
+            parsed = parser(data, file_name, tz, log)
+        except ImportRejected:
+            raise
+        except Exception as exc:  # noqa: BLE001 - a reader's own error must not surface raw
+            log.reject(f"could not be read as {format}: {exc}")
+            raise AssertionError("unreachable") from exc
+        parsed.sha256 = digest.result()
+    return parsed
 
 
 def parse_file(

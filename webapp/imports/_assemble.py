@@ -3,16 +3,18 @@ series keys attached, and the ParsedImport built."""
 
 from __future__ import annotations
 
-import hashlib
 from collections.abc import Sequence
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 
 from webapp.imports._problems import LineMap, ProblemLog
 from webapp.imports._timestamps import Timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports.keys import series_key
+
+_STR = pd.StringDtype("pyarrow", na_value=np.nan)  # pandas' default "str" dtype
 
 
 def assemble(
@@ -34,34 +36,40 @@ def assemble(
     if len(values) == 0:
         log.reject("the file has no data rows")
     codes, metas = _merge_equal_keys(codes, metas)
+    codes = codes.astype(_code_dtype(len(metas)), copy=False)
+    ms = timestamps.ms
+    rows = None  # positions of the kept rows in the file's order, built only when needed
     present = ~np.isnan(values)
-    gap_count = int(len(values) - present.sum())
-    codes, ms, values = codes[present], timestamps.ms[present], values[present]
-    lines = np.flatnonzero(present)
+    gap_count = int(len(values) - np.count_nonzero(present))
+    if gap_count:
+        rows = np.flatnonzero(present)
+        codes, ms, values = codes[rows], ms[rows], values[rows]
     if len(values) == 0:
         log.reject("every value is empty or NaN; there is nothing to import")
     keep = _last_of_each_pair(codes, ms)
-    duplicate_count = int(len(keep) - keep.sum())
+    duplicate_count = 0 if keep is None else int(len(keep) - np.count_nonzero(keep))
     if duplicate_count:
-        first = int(line_of(lines[~keep][:1])[0])
+        dropped = np.flatnonzero(~keep)[:1]
+        first = int(line_of(dropped if rows is None else rows[dropped])[0])
         log.warning(
-            f"{duplicate_count} rows repeat a (series, timestamp) pair seen earlier or later; "
-            f"the last value of each pair was kept (first at line {first})"
+            f"{duplicate_count} rows repeat a (series, timestamp) pair that appears again "
+            f"later; the last value of each pair was kept (first repeat at line {first})"
         )
         codes, ms, values = codes[keep], ms[keep], values[keep]
-    used = np.unique(codes)
-    keys = np.array([m_key for m_key, _ in metas], dtype=object)
+    used = np.flatnonzero(np.bincount(codes, minlength=len(metas)))
+    keys = [m_key for m_key, _ in metas]
     table = pd.DataFrame(
         {
-            "series_key": pd.array(keys[codes], dtype="str"),
+            "series_key": _key_column(keys, codes),
             "ts_utc": ms.astype(np.int64, copy=False),
             "value": values.astype(np.float64, copy=False),
-        }
+        },
+        copy=False,
     )
     return ParsedImport(
         file_name=file_name,
         format=format,
-        sha256=hashlib.sha256(data).hexdigest(),
+        sha256="",  # provenance is filled in by the entry point
         size_bytes=len(data),
         table=table,
         series={metas[c][0]: metas[c][1] for c in used.tolist()},
@@ -89,12 +97,20 @@ def _merge_equal_keys(
     return inverse[codes], [(k, first[k]) for k in unique_keys.tolist()]
 
 
-def _last_of_each_pair(codes: np.ndarray, ms: np.ndarray) -> np.ndarray:
-    """Mask keeping the last row of every (series, timestamp) pair."""
-    low, span = int(ms.min()), int(ms.max()) - int(ms.min()) + 1
-    if (int(codes.max()) + 1) * span < 2**62:
-        combined = codes.astype(np.int64) * span + (ms - low)
-        return ~pd.Series(combined).duplicated(keep="last").to_numpy()
+def _code_dtype(n: int) -> type:
+    """Small codes let numpy's stable sort use radix sort."""
+    return np.int16 if n < 2**15 else np.int64
+
+
+def _last_of_each_pair(codes: np.ndarray, ms: np.ndarray) -> np.ndarray | None:
+    """Mask keeping the last row of every (series, timestamp) pair; None when no pair
+    repeats. Exports usually list each series in time order, which is checked first in
+    O(n); only files where that fails pay for hashing."""
+    order = np.argsort(codes, kind="stable")
+    sorted_codes, sorted_ms = codes[order], ms[order]
+    same_series = sorted_codes[1:] == sorted_codes[:-1]
+    if not np.any(same_series & (sorted_ms[1:] <= sorted_ms[:-1])):
+        return None
     frame = pd.DataFrame({"c": codes, "t": ms})
     return ~frame.duplicated(keep="last").to_numpy()
 
@@ -108,3 +124,10 @@ def series_problem(metric: str, labels: dict[str, str]) -> str | None:
     except ValueError as exc:
         return str(exc)
     return None
+
+
+def _key_column(keys: list[str], codes: np.ndarray) -> pd.Series:
+    """A string column built in Arrow from the few distinct keys (no Python per row)."""
+    encoded = pa.DictionaryArray.from_arrays(pa.array(codes.astype(np.int32)), pa.array(keys))
+    strings = encoded.cast(pa.string())
+    return pd.Series(strings.to_pandas(types_mapper={pa.string(): _STR}.get), name="series_key")

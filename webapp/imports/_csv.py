@@ -16,17 +16,15 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.csv as pcsv
 
-from webapp.imports._assemble import assemble, series_problem
-from webapp.imports._problems import LineMap, ProblemLog
+from webapp.imports._assemble import assemble
+from webapp.imports._long import TIMESTAMP_NAMES, find_column, long_roles, parse_long_table
+from webapp.imports._problems import ProblemLog
 from webapp.imports._text import non_empty_lines, reject_bad_encoding, without_bom
 from webapp.imports._timestamps import Timestamps, parse_timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports._values import parse_values
 from webapp.imports.keys import parse_series_key
 
-TIMESTAMP_NAMES = ("timestamp", "time", "ts", "datetime", "date", "timestamp_utc", "time_utc")
-METRIC_NAMES = ("metric", "name", "metric_name")
-VALUE_NAMES = ("value", "val")
 DELIMITERS = (",", ";", "\t")
 _TEXT = pa.dictionary(pa.int32(), pa.string())
 
@@ -35,17 +33,6 @@ _TEXT = pa.dictionary(pa.int32(), pa.string())
 class Header:
     names: list[str]
     delimiter: str
-    timestamp: str | None
-    metric: str | None
-    value: str | None
-
-
-def _role(names: list[str], aliases: tuple[str, ...]) -> str | None:
-    lowered = {name.strip().lower(): name for name in names}
-    for alias in aliases:
-        if alias in lowered:
-            return lowered[alias]
-    return None
 
 
 def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
@@ -75,23 +62,17 @@ def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
         elif name in seen:
             log.error(f"column {name!r} appears twice in the header", line=1, column=name)
         seen.add(name)
-    if _looks_like_data(names):
+    if looks_like_data(names):
         log.error(
             "expected a header row naming the columns (e.g. timestamp,metric,host,value); "
             f"line 1 holds data: {text[:80]!r}",
             line=1,
         )
     log.check()
-    return Header(
-        names=names,
-        delimiter=delimiter,
-        timestamp=_role(names, TIMESTAMP_NAMES),
-        metric=_role(names, METRIC_NAMES),
-        value=_role(names, VALUE_NAMES),
-    )
+    return Header(names=names, delimiter=delimiter)
 
 
-def _looks_like_data(names: list[str]) -> bool:
+def looks_like_data(names: list[str]) -> bool:
     numbers = pd.to_numeric(pd.Series(names, dtype=object), errors="coerce").notna()
     dates = pd.to_datetime(pd.Series(names, dtype=object), format="ISO8601", errors="coerce")
     return bool(numbers.any() or dates.notna().any())
@@ -163,129 +144,38 @@ def _read_with_fallback(
         return _read_table(body, header, as_text, log)
 
 
-def _series_codes(
-    table: pa.Table, metric: str, label_names: list[str], log: ProblemLog, line_of: LineMap
-) -> tuple[np.ndarray, list[SeriesMeta]]:
-    """One integer per row naming its (metric, labels) combination, computed on the unique
-    combinations only; the per-row work stays in numpy."""
-    columns = [metric, *label_names]
-    combined = np.zeros(table.num_rows, dtype=np.int64)
-    dictionaries = []
-    stride = 1
-    for name in columns:
-        encoded = table.column(name).combine_chunks()
-        if not pa.types.is_dictionary(encoded.type):
-            encoded = encoded.dictionary_encode()
-        dictionary = [str(v).strip() for v in encoded.dictionary.to_pylist()]
-        dictionaries.append(dictionary)
-        indices = encoded.indices.fill_null(0).to_numpy(zero_copy_only=False).astype(np.int64)
-        combined = combined * max(len(dictionary), 1) + indices
-        stride *= max(len(dictionary), 1)
-        if stride >= 2**62:
-            return _series_codes_grouped(table, columns, log, line_of)
-    codes, uniques = pd.factorize(combined)
-    metas = []
-    bad = np.zeros(len(uniques), dtype=bool)
-    reasons: dict[int, str] = {}
-    for u, packed in enumerate(uniques.tolist()):
-        parts = []
-        for dictionary in reversed(dictionaries):
-            packed, index = divmod(packed, max(len(dictionary), 1))
-            parts.append(dictionary[index] if dictionary else "")
-        parts.reverse()
-        meta = _meta(parts[0], dict(zip(label_names, parts[1:], strict=True)))
-        problem = series_problem(meta.metric, meta.labels)
-        if problem:
-            bad[u] = True
-            reasons[u] = problem
-        metas.append(meta)
-    if bad.any():
-        rows = bad[codes]
-        log.rows(rows, None, lambda r: reasons[int(codes[r])], line_of)
-    return codes, metas
-
-
-def _series_codes_grouped(
-    table: pa.Table, columns: list[str], log: ProblemLog, line_of: LineMap
-) -> tuple[np.ndarray, list[SeriesMeta]]:
-    frame = table.select(columns).to_pandas()
-    codes = frame.groupby(columns, sort=False, dropna=False).ngroup().to_numpy()
-    firsts = frame.assign(_code=codes).drop_duplicates("_code").sort_values("_code")
-    metas = []
-    for values in firsts[columns].itertuples(index=False):
-        parts = ["" if pd.isna(v) else str(v).strip() for v in values]
-        metas.append(_meta(parts[0], dict(zip(columns[1:], parts[1:], strict=True))))
-    bad = np.array([series_problem(m.metric, m.labels) is not None for m in metas])
-    if bad.any():
-        log.rows(
-            bad[codes],
-            None,
-            lambda r: str(series_problem(metas[codes[r]].metric, metas[codes[r]].labels)),
-            line_of,
-        )
-    return codes, metas
-
-
-def _meta(metric: str, labels: dict[str, str]) -> SeriesMeta:
-    """Empty label values mean the label is absent."""
-    return SeriesMeta(metric=metric, labels={k: v for k, v in labels.items() if v != ""})
-
-
 def parse_csv_long(data: bytes, file_name: str, tz: str | None, log: ProblemLog) -> ParsedImport:
     header = read_header(data, log)
-    missing = [
-        role
-        for role, name in (
-            ("timestamp", header.timestamp),
-            ("metric", header.metric),
-            ("value", header.value),
-        )
-        if name is None
-    ]
-    if missing:
-        log.reject(
-            f"the header has no {' or '.join(missing)} column; a long CSV needs columns "
-            "named timestamp (or time/ts), metric (or name) and value, other columns "
-            f"being labels; found {', '.join(header.names)}",
-            line=1,
-        )
-    assert header.timestamp and header.metric and header.value
-    labels = [n for n in header.names if n not in (header.timestamp, header.metric, header.value)]
-    typed = {header.value: pa.float64(), header.metric: _TEXT} | {n: _TEXT for n in labels}
+    ts_name, metric_name, value_name = long_roles(header.names, log, line=1)
+    labels = [n for n in header.names if n not in (ts_name, metric_name, value_name)]
+    typed = {value_name: pa.float64(), metric_name: _TEXT} | {n: _TEXT for n in labels}
     body = without_bom(data)
     table = _read_with_fallback(body, header, typed, log)
-    line_of = _CsvLines(body)
-    timestamps = parse_timestamps(
-        table.column(header.timestamp), tz=tz, column=header.timestamp, log=log, line_of=line_of
-    )
-    values = parse_values(table.column(header.value), column=header.value, log=log, line_of=line_of)
-    codes, metas = _series_codes(table, header.metric, labels, log, line_of)
-    return assemble(
+    if table.num_rows == 0:
+        log.reject("the file has no data rows below the header")
+    return parse_long_table(
+        table,
         data=data,
         file_name=file_name,
         format="csv-long",
-        codes=codes,
-        metas=metas,
-        timestamps=timestamps,
-        values=values,
-        log=log,
-        line_of=line_of,
         tz=tz,
-        rows_read=table.num_rows,
+        log=log,
+        line_of=_CsvLines(body),
+        header_line=1,
     )
 
 
 def parse_csv_wide(data: bytes, file_name: str, tz: str | None, log: ProblemLog) -> ParsedImport:
     header = read_header(data, log)
-    if header.timestamp is None:
+    ts_name = find_column(header.names, TIMESTAMP_NAMES)
+    if ts_name is None:
         log.reject(
             "the header has no timestamp column; a wide CSV needs a column named timestamp "
             "(or time/ts) and one column per series headed by its key, e.g. "
             f"checkout.latency_p95{{host=api-3}}; found {', '.join(header.names)}",
             line=1,
         )
-    assert header.timestamp
-    series_columns = [n for n in header.names if n != header.timestamp]
+    series_columns = [n for n in header.names if n != ts_name]
     metas = []
     for name in series_columns:
         try:
@@ -299,9 +189,11 @@ def parse_csv_wide(data: bytes, file_name: str, tz: str | None, log: ProblemLog)
     log.check()
     body = without_bom(data)
     table = _read_with_fallback(body, header, {n: pa.float64() for n in series_columns}, log)
+    if table.num_rows == 0:
+        log.reject("the file has no data rows below the header")
     line_of = _CsvLines(body)
     timestamps = parse_timestamps(
-        table.column(header.timestamp), tz=tz, column=header.timestamp, log=log, line_of=line_of
+        table.column(ts_name), tz=tz, column=ts_name, log=log, line_of=line_of
     )
     columns = [
         parse_values(table.column(n), column=n, log=log, line_of=line_of) for n in series_columns

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import re
 
+from webapp.imports._csv import DELIMITERS, looks_like_data
+from webapp.imports._long import METRIC_NAMES, TIMESTAMP_NAMES, VALUE_NAMES
 from webapp.imports._problems import ProblemLog
 from webapp.imports._text import without_bom
 
@@ -64,8 +66,6 @@ def _json_kind(head: str) -> str:
 
 
 def _csv_kind(head: str, file_name: str) -> str:
-    from webapp.imports._csv import DELIMITERS, METRIC_NAMES, TIMESTAMP_NAMES, VALUE_NAMES
-
     first = head.splitlines()[0]
     delimiter = max(DELIMITERS, key=first.count)
     if first.count(delimiter) == 0:
@@ -73,7 +73,13 @@ def _csv_kind(head: str, file_name: str) -> str:
             "not CSV (no commas, semicolons or tabs on line 1), JSON, OpenMetrics text "
             f"or Parquet; line 1 reads {first[:80]!r}"
         )
-    names = {n.strip().strip('"').lower() for n in first.split(delimiter)}
+    fields = [n.strip().strip('"') for n in first.split(delimiter)]
+    if looks_like_data(fields):
+        raise UnknownFormat(
+            "line 1 holds data, not a header; expected a CSV header row naming the columns, "
+            f"e.g. timestamp,metric,host,value; line 1 reads {first[:80]!r}"
+        )
+    names = {n.lower() for n in fields}
     if names & set(METRIC_NAMES) and names & set(VALUE_NAMES):
         return "csv-long"
     if names & set(TIMESTAMP_NAMES):

@@ -17,8 +17,9 @@ LineMap = Callable[[np.ndarray], np.ndarray]
 class ProblemLog:
     """Errors and warnings about one file; ``check()`` raises once errors were seen."""
 
-    def __init__(self, file: str, limit: int = MAX_REPORTED):
+    def __init__(self, file: str, limit: int = MAX_REPORTED, place: str = "line"):
         self.file = file
+        self.place = place
         self.limit = limit
         self.errors: list[Problem] = []
         self.warnings: list[Problem] = []
@@ -27,10 +28,12 @@ class ProblemLog:
     def error(self, message: str, line: int | None = None, column: str | None = None) -> None:
         self.error_total += 1
         if len(self.errors) < self.limit:
-            self.errors.append(Problem(self.file, message, line, column))
+            self.errors.append(Problem(self.file, message, line, column, place=self.place))
 
     def warning(self, message: str, line: int | None = None, column: str | None = None) -> None:
-        self.warnings.append(Problem(self.file, message, line, column, severity="warning"))
+        self.warnings.append(
+            Problem(self.file, message, line, column, severity="warning", place=self.place)
+        )
 
     def rows(
         self,
@@ -50,7 +53,9 @@ class ProblemLog:
         room = max(self.limit - len(self.errors), 0)
         shown = positions[:room]
         for row, line in zip(shown.tolist(), line_of(shown).tolist(), strict=True):
-            self.errors.append(Problem(self.file, message(row), int(line), column))
+            self.errors.append(
+                Problem(self.file, message(row), int(line), column, place=self.place)
+            )
         self.error_total += int(positions.size)
         return int(positions.size)
 

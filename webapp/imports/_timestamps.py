@@ -20,6 +20,7 @@ from webapp.imports._problems import LineMap, ProblemLog
 ISO = "ISO 8601"
 EPOCH_UNITS = ("seconds", "milliseconds", "microseconds", "nanoseconds")
 _MS_PER_UNIT = {"seconds": 1000.0, "milliseconds": 1.0, "microseconds": 1e-3, "nanoseconds": 1e-6}
+_ARROW_UNITS = {"s": "seconds", "ms": "milliseconds", "us": "microseconds", "ns": "nanoseconds"}
 _INT_DIVISOR = {"microseconds": 1000, "nanoseconds": 1_000_000}
 # Below 1e11 an epoch is seconds (1e11 s is the year 5138; 1e11 ms is 1973), and each unit
 # after that is 1000 times finer.
@@ -106,35 +107,47 @@ def _parse_epoch(
         bad |= ~np.isfinite(np.where(missing, 0.0, raw))
         if (bad & ~missing).any():
             log.rows(bad & ~missing, column, lambda r: f"{raw[r]} is not a timestamp", line_of)
-    valid = raw[~bad]
+    valid = raw[~bad] if bad.any() else raw
     if valid.size == 0:
         return Timestamps(np.zeros(len(raw), np.int64), bad, f"epoch {unit or 'seconds'}")
-    magnitude = np.abs(valid.astype(np.float64))
     if unit is None:
-        unit = epoch_unit(float(np.median(magnitude)))
-        bands = np.searchsorted(_MAGNITUDE_EDGES, np.abs(np.where(bad, 0, raw)), side="right")
-        chosen = EPOCH_UNITS.index(unit)
-        odd = ~bad & (bands != chosen)
-        if odd.any():
-            log.rows(
-                odd,
-                column,
-                lambda r: (
-                    f"epoch value {raw[r]} looks like epoch "
-                    f"{epoch_unit(abs(float(raw[r])))}, but this column is in epoch {unit}"
-                ),
-                line_of,
-            )
-            bad |= odd
-    filled = np.where(bad, 0, raw)
+        low, high = float(valid.min()), float(valid.max())
+        unit = epoch_unit(abs(low))
+        if low < 0 or epoch_unit(high) != unit:
+            unit = epoch_unit(float(np.median(np.abs(valid))))
+            _report_odd_magnitudes(raw, bad, unit, column, log, line_of)
+    filled = np.where(bad, 0, raw) if bad.any() else raw
     if is_float:
         ms = np.rint(filled * _MS_PER_UNIT[unit]).astype(np.int64)
-    elif unit in _INT_DIVISOR:
-        div = _INT_DIVISOR[unit]
-        ms = (filled.astype(np.int64) + div // 2) // div
     else:
-        ms = filled.astype(np.int64) * int(_MS_PER_UNIT[unit])
+        ms = _scale_to_ms(filled.astype(np.int64, copy=False), unit)
     return Timestamps(ms, bad, f"epoch {unit}")
+
+
+def _report_odd_magnitudes(
+    raw: np.ndarray, bad: np.ndarray, unit: str, column: str, log: ProblemLog, line_of: LineMap
+) -> None:
+    """Rows whose size puts them in another epoch unit than the column's are errors."""
+    bands = np.searchsorted(_MAGNITUDE_EDGES, np.abs(np.where(bad, 0, raw)), side="right")
+    odd = ~bad & (bands != EPOCH_UNITS.index(unit))
+    log.rows(
+        odd,
+        column,
+        lambda r: (
+            f"epoch value {raw[r]} looks like epoch {epoch_unit(abs(float(raw[r])))}, "
+            f"but this column is in epoch {unit}"
+        ),
+        line_of,
+    )
+    bad |= odd
+
+
+def _scale_to_ms(raw: np.ndarray, unit: str) -> np.ndarray:
+    """Integer epoch in ``unit`` to milliseconds, rounding to the nearest millisecond."""
+    if unit in _INT_DIVISOR:
+        div = _INT_DIVISOR[unit]
+        return (raw + div // 2) // div
+    return raw * int(_MS_PER_UNIT[unit])
 
 
 def _parse_text(
@@ -185,10 +198,19 @@ def _parse_text(
     if aware.any():
         unparsed |= aware & bad
     if unparsed.any():
-        log.rows(
-            unparsed, column, lambda r: f"{text.iloc[r]!r} is not a timestamp; {EXPECTED}", line_of
-        )
+        log.rows(unparsed, column, lambda r: _why_not_iso(text.iloc[r]), line_of)
     return Timestamps(ms, bad, ISO)
+
+
+def _why_not_iso(cell: str) -> str:
+    try:
+        float(cell)
+    except ValueError:
+        return f"{cell!r} is not a timestamp; {EXPECTED}"
+    return (
+        f"{cell!r} is an epoch number, but other rows of this column are ISO 8601 text; "
+        "use one form of timestamp throughout the file"
+    )
 
 
 def _not_numbers(values: pa.Array) -> np.ndarray:
@@ -255,8 +277,9 @@ def _parse_typed(
 ) -> Timestamps:
     if pa.types.is_date(values.type):
         values = values.cast(pa.timestamp("s"))
-    index = pd.DatetimeIndex(values.to_pandas())
-    if index.tz is not None:
-        return Timestamps(_to_ms(index), missing, ISO)
-    ms, bad = _localize(pd.Series(index), tz, column, log, line_of, np.arange(len(index)))
-    return Timestamps(ms, missing | bad, ISO)
+    if values.type.tz is None and tz not in (None, "UTC"):
+        index = pd.DatetimeIndex(values.to_pandas())
+        ms, bad = _localize(pd.Series(index), tz, column, log, line_of, np.arange(len(index)))
+        return Timestamps(ms, missing | bad, ISO)
+    raw = values.cast(pa.int64()).fill_null(0).to_numpy()
+    return Timestamps(_scale_to_ms(raw, _ARROW_UNITS[values.type.unit]), missing, ISO)

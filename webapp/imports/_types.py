@@ -16,11 +16,12 @@ class Problem:
     line: int | None = None  # 1-based line (text formats) or row (Parquet)
     column: str | None = None
     severity: str = "error"  # error | warning
+    place: str = "line"  # what ``line`` counts: "line" in text files, "row" in Parquet
 
     def __str__(self) -> str:
         where = self.file
         if self.line is not None:
-            where += f", line {self.line}"
+            where += f", {self.place} {self.line}"
         if self.column:
             where += f", column {self.column!r}"
         return f"{where}: {self.message}"
