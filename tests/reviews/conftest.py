@@ -2,13 +2,13 @@
 
 from __future__ import annotations
 
-import io
 from collections.abc import Callable
 
 import numpy as np
 import pandas as pd
 import pytest
 
+from webapp.store.explanations import frame_to_parquet
 from webapp.store.models import Explanation, Page, Series
 
 WINDOW = (pd.Timestamp("2026-11-30 14:00", tz="UTC"), pd.Timestamp("2026-11-30 16:00", tz="UTC"))
@@ -37,12 +37,6 @@ def synthetic_frame(start: pd.Timestamp, end: pd.Timestamp, step: str = "5min") 
     )
     frame["outside"] = (frame.value > frame.upper) | (frame.value < frame.lower)
     return frame
-
-
-def _parquet(frame: pd.DataFrame) -> bytes:
-    buffer = io.BytesIO()
-    frame.to_parquet(buffer)
-    return buffer.getvalue()
 
 
 @pytest.fixture
@@ -76,7 +70,7 @@ def make_explanation(session, make_series) -> Callable[..., Explanation]:
             window_end=window[1].to_pydatetime(),
             parameters={"history": "P2D", "tolerance": 3.0, "tz": "UTC", "agg": "mean"},
             engine_version="test-1",
-            frame=_parquet(frame),
+            frame=frame_to_parquet(frame),
             overlay=None,
             facts={
                 "first_outside": first_outside.isoformat(),

@@ -111,7 +111,10 @@ def test_search_matches_every_word_in_any_text_field(session) -> None:
         session, good_form(title="Checkout slowdown", root_cause="cache stampede")
     )
     reviews.create_review(session, good_form(title="Queue backlog", summary="Consumers stalled"))
-    titles = lambda q: [r.title for r in reviews.list_reviews(session, q)]  # noqa: E731
+
+    def titles(q: str | None) -> list[str]:
+        return [r.title for r in reviews.list_reviews(session, q)]
+
     assert titles("STAMPEDE") == ["Checkout slowdown"]
     assert titles("consumers stalled") == ["Queue backlog"]
     assert titles("stampede stalled") == []
@@ -167,9 +170,10 @@ def test_attachments_keep_caption_and_order(session, make_explanation) -> None:
     for exp in (a, b, c):
         reviews.attach_explanation(session, review, exp.id, caption=f"caption {exp.title}")
     session.commit()
-    order = lambda: [
-        x.explanation.title for x in reviews.get_review(session, review.id).attachments
-    ]  # noqa: E731,E501
+
+    def order() -> list[str]:
+        return [x.explanation.title for x in reviews.get_review(session, review.id).attachments]
+
     assert order() == ["a", "b", "c"]
     c_att = review.attachments[2]
     reviews.move_attachment(session, review, c_att.id, -1)

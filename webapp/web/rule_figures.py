@@ -1,0 +1,152 @@
+"""Figures for the Alert rules screen: the replay over history and the what-if sweep."""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+import numpy as np
+import pandas as pd
+import plotly.graph_objects as go
+
+from webapp.web import palette
+from webapp.web.downsample import minmax_indices
+from webapp.web.figures import FONT, wall_clock
+
+MAX_SHADES = 300
+# Pending periods are told apart by marker shape as well as colour.
+SYMBOLS = ("circle", "square", "diamond", "triangle-up", "cross", "x", "pentagon", "hexagon")
+COLOURS = tuple(c for c in palette.OKABE_ITO if c not in (palette.YELLOW, palette.BLACK))
+
+
+def _layout(fig: go.Figure, height: int, x_title: str, y_title: str) -> go.Figure:
+    fig.update_layout(
+        template="none",
+        height=height,
+        margin={"l": 64, "r": 16, "t": 36, "b": 52},
+        font={"family": FONT, "size": 13, "color": palette.VALUE},
+        paper_bgcolor="#ffffff",
+        plot_bgcolor="#ffffff",
+        legend={"orientation": "h", "x": 0, "y": 1.02, "yanchor": "bottom"},
+        xaxis_title_text=x_title,
+        yaxis_title_text=y_title,
+    )
+    fig.update_xaxes(showgrid=True, gridcolor="#ece8dd", linecolor="#8e8877", ticks="outside")
+    fig.update_yaxes(showgrid=True, gridcolor="#ece8dd", linecolor="#8e8877", ticks="outside")
+    return fig
+
+
+def replay_figure(
+    series: pd.Series,
+    firings: pd.DataFrame,
+    incidents: Sequence[tuple[pd.Timestamp, pd.Timestamp]],
+    threshold: float | None,
+    unit: str | None,
+    tz: str = "UTC",
+    n_out: int = 3000,
+) -> go.Figure:
+    """The series over all its history, with the firings and the recorded incidents shaded."""
+    fig = go.Figure()
+    values = series.to_numpy(dtype="float64")
+    at = minmax_indices(series.index.asi8, values, n_out) if len(series) else np.array([], int)
+    fig.add_trace(
+        go.Scatter(
+            x=wall_clock(series.index[at], tz),
+            y=values[at],
+            name=str(series.name or "value"),
+            mode="lines",
+            line={"color": palette.VALUE, "width": 1.2},
+        )
+    )
+    end_of_data = series.index[-1] if len(series) else None
+    for row in firings.head(MAX_SHADES).itertuples(index=False):
+        stop = row.end if not pd.isna(row.end) else end_of_data
+        fig.add_vrect(
+            x0=wall_clock(pd.DatetimeIndex([row.start]), tz)[0],
+            x1=wall_clock(pd.DatetimeIndex([stop]), tz)[0],
+            fillcolor=palette.OUT_OF_BAND,
+            opacity=0.25,
+            line_width=0,
+        )
+    for number, (start, end) in enumerate(incidents, start=1):
+        fig.add_vrect(
+            x0=wall_clock(pd.DatetimeIndex([start]), tz)[0],
+            x1=wall_clock(pd.DatetimeIndex([end]), tz)[0],
+            fillcolor=palette.SKY_BLUE,
+            opacity=0.3,
+            line={"color": palette.BLUE, "width": 1, "dash": "dot"},
+            annotation_text=f"incident {number}",
+            annotation_position="top left",
+            annotation_font_size=11,
+        )
+    if threshold is not None:
+        fig.add_hline(
+            y=threshold, line={"color": palette.OUT_OF_BAND, "dash": "dash", "width": 1.4}
+        )
+    _layout(fig, 340, f"time ({tz}); firings shaded vermillion, incidents blue", unit or "value")
+    fig.update_xaxes(type="date")
+    return fig
+
+
+def sweep_figure(
+    sweep: pd.DataFrame,
+    current: tuple[float, pd.Timedelta] | None = None,
+    drafted: tuple[float, pd.Timedelta] | None = None,
+) -> go.Figure:
+    """Pages per week against incidents caught, one line of thresholds per pending period."""
+    fig = go.Figure()
+    for i, (pending, rows) in enumerate(sweep.groupby("pending", sort=True)):
+        rows = rows.sort_values("threshold")
+        label = f"pending {_short(pending)}"
+        fig.add_trace(
+            go.Scatter(
+                x=rows["pages_per_week"],
+                y=rows["incidents_caught"],
+                mode="lines+markers",
+                name=label,
+                line={"color": COLOURS[i % len(COLOURS)], "width": 1.2},
+                marker={"symbol": SYMBOLS[i % len(SYMBOLS)], "size": 8},
+                customdata=np.stack([rows["threshold"], rows["firings"]], axis=1),
+                hovertemplate=(
+                    f"{label}<br>threshold %{{customdata[0]:.4g}}<br>%{{x:.2f}} pages/week"
+                    "<br>%{y} incidents caught<br>%{customdata[1]} firings<extra></extra>"
+                ),
+            )
+        )
+    for point, name, symbol, colour in (
+        (current, "current rule", "circle-open", palette.BLACK),
+        (drafted, "drafted setting", "star", palette.VERMILLION),
+    ):
+        row = _row(sweep, point)
+        if row is not None:
+            fig.add_trace(
+                go.Scatter(
+                    x=[row["pages_per_week"]],
+                    y=[row["incidents_caught"]],
+                    mode="markers",
+                    name=name,
+                    marker={"symbol": symbol, "size": 18, "color": colour, "line": {"width": 2}},
+                    hovertemplate=f"{name}: threshold {row['threshold']:.4g}, "
+                    f"pending {_short(row['pending'])}<extra></extra>",
+                )
+            )
+    _layout(fig, 380, "pages per week", "incidents caught")
+    fig.update_yaxes(rangemode="tozero", dtick=1)
+    fig.update_xaxes(rangemode="tozero")
+    return fig
+
+
+def _row(sweep: pd.DataFrame, point: tuple[float, pd.Timedelta] | None) -> pd.Series | None:
+    if point is None:
+        return None
+    match = sweep[np.isclose(sweep["threshold"], point[0]) & (sweep["pending"] == point[1])]
+    return None if match.empty else match.iloc[0]
+
+
+def _short(delta: pd.Timedelta) -> str:
+    seconds = int(pd.Timedelta(delta).total_seconds())
+    if seconds == 0:
+        return "none"
+    for unit, size in (("h", 3600), ("min", 60)):
+        if seconds % size == 0:
+            return f"{seconds // size} {unit}"
+    return f"{seconds} s"
