@@ -107,11 +107,18 @@ def whatif_sweep(
                         pd.Timedelta(int((np.minimum(end_idx, n) - first_idx).sum()) * step_ns),
                         int(caught.sum()),
                         int((in_range & ~caught).sum()),
-                        pd.Timedelta(int(np.median(delays))) if delays.size else pd.NaT,
+                        pd.Timedelta(int(np.median(delays))) if delays.size else None,
                         tuple(int(i) for i in np.flatnonzero(caught)),
                     )
                 )
-    return pd.DataFrame(rows, columns=SWEEP_COLUMNS)
+    columns = dict(zip(SWEEP_COLUMNS, zip(*rows, strict=True), strict=True))
+    durations = {"pending", "time_firing", "median_delay"}
+    return pd.DataFrame(
+        {
+            name: pd.Series(list(values), dtype="timedelta64[ns]" if name in durations else None)
+            for name, values in columns.items()
+        }
+    )
 
 
 def _round_sig(x: float, digits: int = 3) -> float:

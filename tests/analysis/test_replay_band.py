@@ -1,0 +1,95 @@
+"""BandRule: each day's band comes from the days before it, so replay never looks ahead.
+
+Series are synthetic (invented for the test)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from webapp.analysis import BandRule, replay
+from webapp.analysis._replay import evaluate
+
+T0 = pd.Timestamp("2026-03-02 00:00", tz="UTC")
+DAY = pd.Timedelta(days=1)
+
+
+def daily(days: int = 6, seed: int = 11) -> pd.Series:
+    """5-minute data: a daily cycle plus unit noise."""
+    index = pd.date_range(T0, T0 + days * DAY, freq="5min", inclusive="left")
+    hours = (index - T0) / pd.Timedelta(hours=1)
+    rng = np.random.default_rng(seed)
+    values = 100 + 20 * np.sin(2 * np.pi * hours / 24) + rng.normal(0, 1, len(index))
+    return pd.Series(values, index=index)
+
+
+RULE = BandRule(tolerance=4.0, for_="15min", history=pd.Timedelta(days=3))
+
+
+def test_changing_data_after_a_day_never_changes_that_days_firings():
+    series = daily()
+    cut = T0 + 4 * DAY
+    changed = series.copy()
+    later = changed.index >= cut
+    changed[later] = changed[later] * 3 + 500  # a different world from day 4 on
+    times, before, _ = evaluate(series, RULE)
+    _, after, _ = evaluate(changed, RULE)
+    np.testing.assert_array_equal(before[times < cut], after[times < cut])
+    assert (after[times >= cut]).any()  # the change itself is seen where it happens
+
+    def until_cut(firings: pd.DataFrame) -> pd.DataFrame:
+        return firings[firings["start"] < cut].reset_index(drop=True)
+
+    pd.testing.assert_frame_equal(
+        until_cut(replay(series[series.index < cut], RULE)), until_cut(replay(changed, RULE))
+    )
+
+
+def test_a_sustained_jump_fires_once_the_pending_period_has_passed():
+    series = daily()
+    jump = (series.index >= T0 + 5 * DAY + pd.Timedelta(hours=3)) & (
+        series.index < T0 + 5 * DAY + pd.Timedelta(hours=4)
+    )
+    series[jump] += 400
+    firings = replay(
+        series,
+        BandRule(tolerance=4.0, for_="15min", history=pd.Timedelta(days=3), direction="above"),
+    )
+    start = T0 + 5 * DAY + pd.Timedelta(hours=3)
+    assert (firings["start"] == start + pd.Timedelta("15min")).any()
+    assert (firings["end"] == start + pd.Timedelta(hours=1)).any()
+
+
+def test_direction_above_ignores_a_dip_and_below_catches_it():
+    series = daily()
+    dip = (series.index >= T0 + 5 * DAY) & (series.index < T0 + 5 * DAY + pd.Timedelta(hours=1))
+    series[dip] -= 400
+    kwargs = {"tolerance": 4.0, "for_": "15min", "history": pd.Timedelta(days=3)}
+    above = replay(series, BandRule(direction="above", **kwargs))
+    below = replay(series, BandRule(direction="below", **kwargs))
+    start, end = T0 + 5 * DAY, T0 + 5 * DAY + pd.Timedelta(hours=1)
+    assert above[(above["start"] >= start) & (above["start"] < end)].empty
+    assert len(below[(below["start"] >= start) & (below["start"] < end)]) == 1
+
+
+def test_a_day_without_enough_history_has_no_band_and_never_fires():
+    series = daily(days=2)
+    series[: 12 * 6] += 1000  # the first six hours, before any history exists
+    times, condition, _ = evaluate(series, RULE)
+    assert not condition[times < T0 + DAY].any()
+
+
+@pytest.mark.parametrize(
+    ("kwargs", "message"),
+    [
+        ({"tolerance": 0}, "tolerance must be a positive number"),
+        ({"direction": "up"}, "direction must be"),
+        ({"history": "0s"}, "history must be positive"),
+        ({"tz": "Mars/Olympus"}, "unknown time zone"),
+        ({"for_": "-5min"}, "must not be negative"),
+    ],
+)
+def test_band_rule_validation(kwargs, message):
+    with pytest.raises(ValueError, match=message):
+        BandRule(**kwargs)
