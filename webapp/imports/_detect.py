@@ -17,6 +17,15 @@ FORMATS: tuple[str, ...] = (
     "openmetrics",
     "parquet",
 )
+EXAMPLE_FILES: dict[str, str] = {
+    "csv-long": "example-csv-long.csv",
+    "csv-wide": "example-csv-wide.csv",
+    "json-records": "example-json-records.json",
+    "json-series": "example-json-series.json",
+    "openmetrics": "example-openmetrics.txt",
+    "parquet": "example-parquet.parquet",
+}
+"""One small file per format in static/examples/ (described in its README.md)."""
 FAMILIES = {
     "csv-long": "csv",
     "csv-wide": "csv",
