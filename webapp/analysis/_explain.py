@@ -1,25 +1,42 @@
-"""explain(): the expected band of one series around one window, with facts and sentences."""
+"""explain(): the expected band of one series around one window, with facts and sentences.
+
+The frame runs on the regular grid from `window start - history` to `window end` (both
+inclusive). Only samples before the window start, minus the excluded periods, are the
+baseline: the decomposition and the scale are fitted on them, and inside the window the band
+is their forecast, so the window's own values never move it.
+"""
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
+from ._band import BaselineFit, fit_baseline
 from ._clock import check_tz
-from ._grid import Agg, find_gaps, regularize, to_utc
+from ._decompose import period_label
+from ._facts import (
+    confidence,
+    number,
+    outside_facts,
+    point_facts,
+    same_hour_facts,
+)
+from ._grid import Agg, as_utc_series, find_gaps, regularize, to_utc
 from ._overlay import check_window
-from ._robust import robust_scale
+from ._sentences import sentences
 
-ENGINE_VERSION = "0.1.0"
+ENGINE_VERSION = "1.0.0"
 DEFAULT_HISTORY = pd.Timedelta(weeks=6)
+BAND_COLUMNS = ("expected", "lower", "upper", "trend", "seasonal", "band_scale")
 
 
 @dataclass(frozen=True)
 class Explanation:
-    """The result of `explain`: read-only, JSON-able apart from `frame`."""
+    """The result of `explain`. Everything but `frame` and the timestamps is JSON-able."""
 
     frame: pd.DataFrame
     step: pd.Timedelta
@@ -40,41 +57,205 @@ def explain(
     window: tuple,
     history: pd.Timedelta | str = DEFAULT_HISTORY,
     tolerance: float = 3.0,
-    exclude=(),
+    exclude: Iterable = (),
     tz: str = "UTC",
     agg: Agg = "mean",
     *,
     unit: str = "",
+    step: pd.Timedelta | str | None = None,
 ) -> Explanation:
-    """Provisional: flat robust band from history (full decomposition follows)."""
+    """Rebuild what `series` was expected to do in `window` from `history` before it.
+
+    `tolerance` is the band's half-width in robust standard deviations; `exclude` lists
+    (start, end) spans left out of the baseline; `tz` is the wall clock the seasonal cycles
+    follow; `agg` how points sharing a grid slot combine ("sum" for counts); `unit` is
+    used in the sentences; `step` forces the grid step (inferred by default).
+    """
     tz = check_tz(tz)
     start, end = check_window(window)
-    history = pd.Timedelta(history)
-    regular = regularize(series, agg=agg, start=start - history, end=end)
-    frame = pd.DataFrame({"value": regular})
-    base = regular[regular.index < start]
-    level = float(np.nanmedian(base)) if base.notna().any() else np.nan
-    scale = robust_scale(base)
-    frame["expected"] = level
-    frame["trend"] = level
-    frame["seasonal"] = 0.0
-    frame["band_scale"] = scale
-    frame["lower"] = level - tolerance * scale
-    frame["upper"] = level + tolerance * scale
-    frame["residual"] = frame["value"] - frame["expected"]
-    frame["outside"] = (frame["value"] < frame["lower"]) | (frame["value"] > frame["upper"])
+    history = check_history(history)
+    tolerance = check_tolerance(tolerance)
+    excluded_spans = check_exclude(exclude)
+    if agg not in ("mean", "sum"):
+        raise ValueError(f"agg must be 'mean' or 'sum', got {agg!r}")
+    clean = as_utc_series(series)
+    regular = regularize(clean, step, agg=agg, start=start - history, end=end)
+    if len(regular) < 2:
+        raise ValueError(
+            f"the window and history span less than two grid steps of "
+            f"{infer_step_text(regular)}: widen the window or the history"
+        )
+    grid_step = regular.index[1] - regular.index[0]
+    frame = pd.DataFrame({"value": regular.to_numpy()}, index=regular.index)
     frame["in_window"] = frame.index >= start
+    frame["excluded"] = excluded_mask(frame.index, excluded_spans)
+    baseline = frame["value"].where(~frame["in_window"] & ~frame["excluded"])
+    baseline = baseline[~frame["in_window"]]
+    fit = fit_baseline(baseline, tz=tz) if len(baseline) >= 2 else None
+    frame = add_band(frame, fit, tolerance)
+    periods = fit.periods if fit else []
+    scale = fit.scale.overall if fit else float("nan")
+    gaps = find_gaps(frame["value"])
+    facts = build_facts(
+        frame=frame,
+        baseline=baseline,
+        fit=fit,
+        name=str(series.name) if series.name is not None else "The metric",
+        unit=unit,
+        tz=tz,
+        tolerance=tolerance,
+        history=history,
+        gaps=gaps,
+        window=(start, end),
+    )
+    parameters = {
+        "window": [start.isoformat(), end.isoformat()],
+        "history_seconds": history.total_seconds(),
+        "tolerance": tolerance,
+        "exclude": [[s.isoformat(), e.isoformat()] for s, e in excluded_spans],
+        "tz": tz,
+        "agg": agg,
+        "unit": unit,
+        "step_seconds": grid_step.total_seconds(),
+    }
     return Explanation(
         frame=frame,
-        step=regular.index[1] - regular.index[0],
-        periods=[],
+        step=grid_step,
+        periods=periods,
         scale=scale,
-        facts={},
-        summary=[],
+        facts=facts,
+        summary=sentences(facts),
         window=(start, end),
-        parameters={"history": str(history), "tolerance": tolerance, "tz": tz, "agg": agg},
-        gaps=find_gaps(regular),
+        parameters=parameters,
+        candidates=[c.as_dict() for c in fit.candidates] if fit else [],
+        confidence=facts["confidence"],
+        gaps=gaps,
     )
 
 
-__all__ = ["ENGINE_VERSION", "Explanation", "explain", "to_utc"]
+def add_band(frame: pd.DataFrame, fit: BaselineFit | None, tolerance: float) -> pd.DataFrame:
+    """The frame with the band columns, in the documented order."""
+    if fit is None:
+        band = pd.DataFrame(np.nan, index=frame.index, columns=list(BAND_COLUMNS))
+    else:
+        band = fit.band(frame.index, tolerance)
+    value = frame["value"]
+    out = pd.DataFrame({"value": value}, index=frame.index)
+    for col in ("expected", "lower", "upper", "trend", "seasonal"):
+        out[col] = band[col]
+    out["residual"] = value - band["expected"]
+    out["outside"] = ((value < band["lower"]) | (value > band["upper"])).to_numpy()
+    for col in band.columns:
+        if col.startswith("seasonal_"):
+            out[col] = band[col]
+    out["band_scale"] = band["band_scale"]
+    out["in_window"] = frame["in_window"]
+    out["excluded"] = frame["excluded"]
+    return out
+
+
+def build_facts(
+    *,
+    frame: pd.DataFrame,
+    baseline: pd.Series,
+    fit: BaselineFit | None,
+    name: str,
+    unit: str,
+    tz: str,
+    tolerance: float,
+    history: pd.Timedelta,
+    gaps: list,
+    window: tuple[pd.Timestamp, pd.Timestamp],
+) -> dict[str, Any]:
+    step = frame.index[1] - frame.index[0]
+    minutes = step.total_seconds() / 60
+    in_window = frame[frame["in_window"]]
+    hist = frame[~frame["in_window"]]
+    usable_slots = int((~hist["excluded"]).sum())
+    valid = baseline.dropna()
+    coverage_history = len(valid) / usable_slots if usable_slots else float("nan")
+    coverage_window = in_window["value"].notna().mean() if len(in_window) else float("nan")
+    excluded_minutes = float(hist["excluded"].sum() * minutes)
+    if len(valid):
+        since_first = hist.index >= valid.index[0]
+        usable = window[0] - valid.index[0] - step * int(hist["excluded"][since_first].sum())
+    else:
+        usable = pd.Timedelta(0)
+    level, reasons = confidence(usable, coverage_history, coverage_window)
+    facts: dict[str, Any] = {
+        "series": name,
+        "unit": unit,
+        "tz": tz,
+        "tolerance": tolerance,
+        "step_seconds": step.total_seconds(),
+        "window_start": window[0].isoformat(),
+        "window_end": window[1].isoformat(),
+        "window_minutes": (window[1] - window[0]).total_seconds() / 60,
+        "history_requested_days": history / pd.Timedelta(days=1),
+        "history_usable_days": max(0.0, usable / pd.Timedelta(days=1)),
+        "excluded_minutes": excluded_minutes,
+        "coverage_history": number(coverage_history),
+        "coverage_window": number(coverage_window),
+        "gap_count": len(gaps),
+        "gap_minutes": float(sum((e - s).total_seconds() for s, e in gaps) / 60),
+        "periods": [period_label(p) for p in fit.periods] if fit else [],
+        "period_strengths": {
+            period_label(c.period): round(c.strength, 4)
+            for c in (fit.candidates if fit else [])
+            if c.strength is not None
+        },
+        "scale": number(fit.scale.overall) if fit else None,
+        "scale_varies_by_hour": bool(fit is not None and fit.scale.hourly is not None),
+        "window_samples": int(in_window["value"].notna().sum()),
+    }
+    facts.update(point_facts(in_window))
+    facts.update(outside_facts(in_window, step))
+    facts.update(same_hour_facts(frame, baseline, facts["peak_time"], tz))
+    facts["confidence"] = level
+    facts["confidence_reasons"] = reasons
+    return facts
+
+
+def excluded_mask(index: pd.DatetimeIndex, spans: list) -> np.ndarray:
+    mask = np.zeros(len(index), dtype=bool)
+    for s, e in spans:
+        mask |= (index >= s) & (index <= e)
+    return mask
+
+
+def check_history(history) -> pd.Timedelta:
+    try:
+        value = pd.Timedelta(history)
+    except (TypeError, ValueError):
+        raise ValueError(f"history must be a duration such as '6W', got {history!r}") from None
+    if value is pd.NaT or value < pd.Timedelta(0):
+        raise ValueError(f"history must be a duration of zero or more, got {history!r}")
+    return value
+
+
+def check_tolerance(tolerance) -> float:
+    try:
+        value = float(tolerance)
+    except (TypeError, ValueError):
+        raise ValueError(f"tolerance must be a number, got {tolerance!r}") from None
+    if not np.isfinite(value) or value <= 0:
+        raise ValueError(f"tolerance must be a positive number of sds, got {tolerance!r}")
+    return value
+
+
+def check_exclude(exclude) -> list[tuple[pd.Timestamp, pd.Timestamp]]:
+    spans = []
+    for i, span in enumerate(exclude or (), start=1):
+        try:
+            s, e = span
+        except (TypeError, ValueError):
+            raise ValueError(f"excluded period {i} must be a (start, end) pair") from None
+        s, e = to_utc(s), to_utc(e)
+        if s >= e:
+            raise ValueError(f"excluded period {i} must start before it ends: {s} >= {e}")
+        spans.append((s, e))
+    return spans
+
+
+def infer_step_text(regular: pd.Series) -> str:
+    return "the inferred step" if len(regular) else "any step"

@@ -37,7 +37,7 @@ def grouped_robust_scale(values: np.ndarray, groups: np.ndarray, n_groups: int):
     starts = np.searchsorted(g, np.arange(n_groups), side="left")
     ends = np.searchsorted(g, np.arange(n_groups), side="right")
     for k in np.flatnonzero(ends > starts):
-        scales[k] = robust_scale(v[starts[k] : ends[k]])
+        scales[k] = band_scale_estimate(v[starts[k] : ends[k]])
     return scales, counts
 
 
@@ -47,3 +47,19 @@ def quiet_nan_warnings() -> Iterator[None]:
     with warnings.catch_warnings(), np.errstate(all="ignore"):
         warnings.simplefilter("ignore", RuntimeWarning)
         yield
+
+
+#: sqrt(pi / 2): makes the mean absolute deviation consistent for the normal sd.
+MEAN_AD_TO_SD = float(np.sqrt(np.pi / 2))
+
+
+def band_scale_estimate(values: ArrayLike) -> float:
+    """`robust_scale`, falling back to the mean absolute deviation x 1.2533 when more than
+    half the values are equal (MAD = 0, common for counts that are mostly zero; the same
+    fallback as the modified z-score in common practice)."""
+    scale = robust_scale(values)
+    if scale == 0:
+        x = np.asarray(values, dtype=float)
+        x = x[np.isfinite(x)]
+        scale = float(MEAN_AD_TO_SD * np.mean(np.abs(x - np.median(x))))
+    return scale

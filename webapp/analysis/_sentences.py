@@ -1,0 +1,213 @@
+"""Plain sentences built from the facts alone: deterministic, with units and rounding.
+
+Values keep three significant figures (no decimals from 100 up, thousands separated from
+1,000); deviations one decimal; strengths two; shares whole percent. Times are read on the
+explanation's wall clock with the zone's abbreviation.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+
+def fmt_number(x: float | None) -> str:
+    if x is None or not np.isfinite(x):
+        return "n/a"
+    a = abs(x)
+    if a >= 100:
+        text = f"{x:,.0f}"
+    elif a >= 10:
+        text = f"{x:.1f}"
+    elif a >= 1:
+        text = f"{x:.2f}"
+    elif a == 0:
+        return "0"
+    else:
+        text = f"{x:.3g}"
+    if "." in text and "e" not in text:
+        text = text.rstrip("0").rstrip(".")
+    return "0" if text in ("-0", "") else text
+
+
+def fmt_value(x: float | None, unit: str) -> str:
+    text = fmt_number(x)
+    if not unit or text == "n/a":
+        return text
+    return f"{text}{unit}" if unit == "%" else f"{text} {unit}"
+
+
+def fmt_duration(minutes: float) -> str:
+    if minutes < 1:
+        return f"{round(minutes * 60)} s"
+    if minutes < 60:
+        return f"{fmt_number(minutes)} min"
+    if minutes < 48 * 60:
+        hours, rest = divmod(round(minutes), 60)
+        return f"{hours} h" if rest == 0 else f"{hours} h {rest} min"
+    return f"{fmt_number(minutes / 1440)} days"
+
+
+def fmt_time(iso: str, tz: str, with_date: bool = True) -> str:
+    local = pd.Timestamp(iso).tz_convert(tz)
+    clock = local.strftime("%H:%M") if local.second == 0 else local.strftime("%H:%M:%S")
+    zone = local.strftime("%Z")
+    if not with_date:
+        return f"{clock} {zone}"
+    return f"{clock} {zone} on {local.strftime('%a')} {local.day} {local.strftime('%b %Y')}"
+
+
+def describe_period(label: str) -> str:
+    named = {"1d": "daily", "7d": "weekly"}
+    if label in named:
+        return named[label]
+    number = int("".join(ch for ch in label if ch.isdigit()))
+    unit = label.lstrip("0123456789")
+    if unit == "d" and number % 7 == 0:
+        return f"{number // 7}-week"
+    return f"{number}-{ {'d': 'day', 'h': 'hour', 'min': 'minute', 's': 'second'}[unit] }"
+
+
+def ordinal(n: int) -> str:
+    suffix = "th" if 10 <= n % 100 <= 20 else {1: "st", 2: "nd", 3: "rd"}.get(n % 10, "th")
+    return f"{n}{suffix}"
+
+
+def sentences(facts: dict[str, Any]) -> list[str]:
+    """The summary of an explanation, in reading order."""
+    out = [s for s in (window_sentence(facts), peak_sentence(facts)) if s]
+    for extra in (drop_sentence(facts), same_hour_sentence(facts)):
+        if extra:
+            out.append(extra)
+    out += [model_sentence(facts), coverage_sentence(facts), confidence_sentence(facts)]
+    return out
+
+
+def window_sentence(f: dict[str, Any]) -> str:
+    name, tz = f["series"], f["tz"]
+    if not f["window_samples"]:
+        return f"{name} has no data in the window."
+    if f["peak_expected"] is None:
+        return f"{name} could not be compared with an expected band: there is no usable history."
+    if not f["minutes_outside"]:
+        return f"{name} stayed inside the expected band for the whole window."
+    stretches = f["outside_stretches"]
+    first, last = f["first_outside"], f["last_outside"]
+    if first == last:
+        where = f"at {fmt_time(first, tz)}"
+    elif pd.Timestamp(first).tz_convert(tz).date() == pd.Timestamp(last).tz_convert(tz).date():
+        clock = fmt_time(first, tz, with_date=False).rsplit(" ", 1)[0]
+        where = f"from {clock} to {fmt_time(last, tz)}"
+    else:
+        where = f"from {fmt_time(first, tz)} to {fmt_time(last, tz)}"
+    return (
+        f"{name} was outside the expected band for {fmt_duration(f['minutes_outside'])} "
+        f"of the {fmt_duration(f['window_minutes'])} window, {where}, "
+        f"in {stretches} stretch{'es' if stretches != 1 else ''}."
+    )
+
+
+def side(z: float) -> str:
+    return "above" if z >= 0 else "below"
+
+
+def peak_sentence(f: dict[str, Any]) -> str | None:
+    if f["peak_value"] is None or f["peak_expected"] is None:
+        return None
+    unit, tz = f["unit"], f["tz"]
+    text = (
+        f"It peaked at {fmt_value(f['peak_value'], unit)} at {fmt_time(f['peak_time'], tz)}, "
+        f"where {fmt_value(f['peak_expected'], unit)} was expected "
+        f"(band {fmt_value(f['peak_lower'], unit)} to {fmt_value(f['peak_upper'], unit)})"
+    )
+    z = f["peak_deviation_sd"]
+    if z is None:
+        return text + "."
+    return text + f": {abs(z):.1f} robust standard deviations {side(z)} the expected value."
+
+
+def drop_sentence(f: dict[str, Any]) -> str | None:
+    z = f["strongest_deviation_sd"]
+    if z is None or z >= 0 or f["strongest_time"] == f["peak_time"] or not f["minutes_below"]:
+        return None
+    unit = f["unit"]
+    return (
+        f"Its deepest drop was to {fmt_value(f['strongest_value'], unit)} at "
+        f"{fmt_time(f['strongest_time'], f['tz'])}, {abs(z):.1f} robust standard deviations "
+        f"below the expected {fmt_value(f['strongest_expected'], unit)}."
+    )
+
+
+def same_hour_sentence(f: dict[str, Any]) -> str | None:
+    weeks = f["same_hour_weeks"]
+    if not weeks or f["same_hour_rank"] is None:
+        return None
+    unit, tz = f["unit"], f["tz"]
+    start = pd.Timestamp(f["same_hour_start"]).tz_convert(tz)
+    hour = f"{start.strftime('%a')} {fmt_time(f['same_hour_start'], tz, with_date=False)}"
+    value = fmt_value(f["same_hour_value"], unit)
+    usual = fmt_value(f["same_hour_past_median"], unit)
+    high = fmt_value(f["same_hour_past_max"], unit)
+    if f["same_hour_rank"] == 1:
+        return (
+            f"At this hour of the week ({hour}), {value} is the highest of the last "
+            f"{weeks + 1} weeks (before this week: highest {high}, median {usual})."
+        )
+    return (
+        f"At this hour of the week ({hour}), {value} is the "
+        f"{ordinal(f['same_hour_rank'])} highest of the last {weeks + 1} weeks "
+        f"(before this week: highest {high}, median {usual})."
+    )
+
+
+def model_sentence(f: dict[str, Any]) -> str:
+    if f["history_usable_days"] <= 0 or f["scale"] is None:
+        return "There is no usable history before the window, so no expected band was drawn."
+    days = f"{fmt_number(f['history_usable_days'])} days of history"
+    spread = (
+        f"plus or minus {fmt_number(f['tolerance'])} robust standard deviations of the "
+        f"residual ({fmt_value(f['scale'], f['unit'])} overall"
+        + (", varying with the hour of day)" if f["scale_varies_by_hour"] else ")")
+    )
+    if not f["periods"]:
+        return f"No regular cycle was found in {days}: the band is the recent level {spread}."
+    strengths = f["period_strengths"]
+    cycles = [
+        f"{describe_period(label)} cycle (strength {strengths[label]:.2f})"
+        for label in f["periods"]
+    ]
+    listed = cycles[0] if len(cycles) == 1 else ", ".join(cycles[:-1]) + " and " + cycles[-1]
+    return f"The expected band is the trend plus the {listed}, learned from {days}, {spread}."
+
+
+def coverage_sentence(f: dict[str, Any]) -> str:
+    parts = [
+        f"Data coverage: {share(f['coverage_history'])} of the history and "
+        f"{share(f['coverage_window'])} of the window"
+    ]
+    gaps = f["gap_count"]
+    if gaps:
+        parts.append(
+            f"{gaps} gap{'s' if gaps != 1 else ''} ({fmt_duration(f['gap_minutes'])} in total)"
+        )
+    if f["excluded_minutes"]:
+        parts.append(f"{fmt_duration(f['excluded_minutes'])} excluded from the baseline")
+    return "; ".join(parts) + "."
+
+
+def share(x: float | None) -> str:
+    if x is None or not np.isfinite(x):
+        return "n/a"
+    pct = 100 * x
+    if 99 < pct < 100:
+        return f"{np.floor(pct * 10) / 10:.1f}%"  # never round a gap away
+    return f"{pct:.0f}%"
+
+
+def confidence_sentence(f: dict[str, Any]) -> str:
+    reasons = f["confidence_reasons"]
+    if not reasons:
+        return f"Confidence: {f['confidence']}."
+    return f"Confidence: {f['confidence']}, because of " + "; ".join(reasons) + "."
