@@ -384,7 +384,8 @@ def build_demo(seed: int = 7) -> Demo:
 
 
 def _iso(ms: np.ndarray) -> np.ndarray:
-    return pd.to_datetime(ms, unit="ms", utc=True).strftime("%Y-%m-%dT%H:%M:%SZ").to_numpy()
+    text = np.datetime_as_string(ms.astype("datetime64[ms]"), unit="s")
+    return np.char.add(text, "Z").astype(object)
 
 
 def demo_csv_frame(
@@ -407,7 +408,7 @@ def demo_csv_frame(
             continue
         ts = pd.Timestamp(bound)
         ts = ts.tz_localize("UTC") if ts.tz is None else ts.tz_convert("UTC")
-        ms = int(ts.as_unit("ms").value)
+        ms = int(ts.value) // 1_000_000
         keep &= (table["ts_utc"] < ms).to_numpy() if before else (table["ts_utc"] >= ms).to_numpy()
     rows = table[keep]
     meta = {key: demo.parsed.series[key] for key in rows["series_key"].unique()}
