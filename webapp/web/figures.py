@@ -14,7 +14,6 @@ from collections.abc import Sequence
 import numpy as np
 import pandas as pd
 import plotly.graph_objects as go
-from plotly.subplots import make_subplots
 
 from webapp.web import palette
 from webapp.web.downsample import clip, minmax_indices, reduce_together
@@ -62,31 +61,45 @@ def default_view(frame: pd.DataFrame) -> Window | None:
     return max(frame.index[0], start - context), end
 
 
-def _base_layout(fig: go.Figure, tz: str, unit: str | None, height: int) -> None:
-    fig.update_layout(
-        template="none",
-        height=height,
-        margin={"l": 64, "r": 16, "t": 36, "b": 48},
-        font={"family": FONT, "size": 13, "color": palette.VALUE},
-        paper_bgcolor="#ffffff",
-        plot_bgcolor="#ffffff",
-        hovermode="x unified",
-        legend={"orientation": "h", "x": 0, "y": 1.02, "yanchor": "bottom", "font": {"size": 12}},
-        dragmode="zoom",
-    )
-    fig.update_xaxes(
+def _axis(**extra: object) -> dict:
+    return {
+        "showgrid": True,
+        "gridcolor": "#ece8dd",
+        "linecolor": "#8e8877",
+        "ticks": "outside",
+        "zeroline": False,
+        **extra,
+    }
+
+
+def _time_axis(tz: str, title: bool = True, **extra: object) -> dict:
+    return _axis(
         type="date",
-        showgrid=True,
-        gridcolor="#ece8dd",
-        linecolor="#8e8877",
-        ticks="outside",
         hoverformat="%Y-%m-%d %H:%M",
+        title={"text": f"time ({tz})" if title else ""},
+        **extra,
     )
-    fig.update_yaxes(
-        showgrid=True, gridcolor="#ece8dd", zeroline=False, linecolor="#8e8877", ticks="outside"
-    )
-    fig.update_xaxes(title_text=f"time ({tz})", row=None)
-    fig.update_layout(yaxis_title_text=unit or "value")
+
+
+def _layout(height: int, **extra: object) -> dict:
+    return {
+        "template": {},
+        "height": height,
+        "margin": {"l": 64, "r": 16, "t": 40, "b": 48},
+        "font": {"family": FONT, "size": 13, "color": palette.VALUE},
+        "paper_bgcolor": "#ffffff",
+        "plot_bgcolor": "#ffffff",
+        "hovermode": "x unified",
+        "legend": {"orientation": "h", "x": 0, "y": 1.0, "yanchor": "bottom", "font": {"size": 12}},
+        "dragmode": "zoom",
+        **extra,
+    }
+
+
+def _figure(traces: list[dict], layout: dict) -> go.Figure:
+    """A Figure from plain dicts, skipping plotly's per-attribute validation (the builders
+    here only use attributes they were written against; it is the slow part)."""
+    return go.Figure(data=traces, layout=layout, _validate=False)
 
 
 def _points(
@@ -121,54 +134,67 @@ def _rows(frame: pd.DataFrame, columns: list[str], n_out: int, view: Window | No
 
 def _line(
     index: pd.DatetimeIndex, values: np.ndarray, tz: str, name: str, colour: str, **kw: object
-) -> go.Scatter:
+) -> dict:
     width = kw.pop("width", 1.6)
     dash = kw.pop("dash", "solid")
-    return go.Scatter(
-        x=wall_clock(index, tz),
-        y=np.asarray(values, dtype="float64"),
-        name=name,
-        mode="lines",
-        line={"color": colour, "width": width, "dash": dash},
-        connectgaps=False,
+    return {
+        "type": "scatter",
+        "x": wall_clock(index, tz),
+        "y": np.asarray(values, dtype="float64"),
+        "name": name,
+        "mode": "lines",
+        "line": {"color": colour, "width": width, "dash": dash},
+        "connectgaps": False,
         **kw,
-    )
+    }
 
 
 def _band_traces(
-    rows: pd.DataFrame, low: str, high: str, tz: str, name: str, colour: str, alpha: float
-) -> list[go.Scatter]:
+    rows: pd.DataFrame,
+    low: str,
+    high: str,
+    tz: str,
+    name: str,
+    colour: str,
+    alpha: float,
+    **kw: object,
+) -> list[dict]:
     x = wall_clock(rows.index, tz)
     edge = {"color": colour, "width": 0.6}
+    common = {"type": "scatter", "x": x, "mode": "lines", "line": edge, "name": name}
     return [
-        go.Scatter(
-            x=x,
-            y=rows[low].to_numpy(dtype="float64", na_value=np.nan),
-            mode="lines",
-            line=edge,
-            name=name,
-            legendgroup=name,
-            showlegend=False,
-            hoverinfo="skip",
-        ),
-        go.Scatter(
-            x=x,
-            y=rows[high].to_numpy(dtype="float64", na_value=np.nan),
-            mode="lines",
-            line=edge,
-            fill="tonexty",
-            fillcolor=palette.rgba(colour, alpha),
-            name=name,
-            legendgroup=name,
-            hoverinfo="skip",
-        ),
+        {
+            **common,
+            "y": rows[low].to_numpy(dtype="float64", na_value=np.nan),
+            "legendgroup": name,
+            "showlegend": False,
+            "hoverinfo": "skip",
+            **kw,
+        },
+        {
+            **common,
+            "y": rows[high].to_numpy(dtype="float64", na_value=np.nan),
+            "fill": "tonexty",
+            "fillcolor": palette.rgba(colour, alpha),
+            "legendgroup": name,
+            "hoverinfo": "skip",
+            **kw,
+        },
     ]
 
 
 def _out_of_band_markers(
-    frame: pd.DataFrame, value: str, tz: str, n_out: int, above: str, below: str
-) -> list[go.Scatter]:
-    """Triangles pointing up above the band and down below it, both in vermillion."""
+    frame: pd.DataFrame,
+    value: str,
+    tz: str,
+    n_out: int,
+    above: str,
+    below: str,
+    view: Window | None = None,
+    **kw: object,
+) -> list[dict]:
+    """Triangles pointing up above the band and down below it, both in vermillion: every
+    out-of-band sample inside ``view`` (up to ``n_out``), a reduced set outside it."""
     traces = []
     for name, mask, symbol in (
         ("above the band", frame[value] > frame[above], "triangle-up"),
@@ -177,21 +203,31 @@ def _out_of_band_markers(
         hits = frame.loc[mask.fillna(False).to_numpy(dtype=bool), value]
         if hits.empty:
             continue
-        at = minmax_indices(hits.index.asi8, hits.to_numpy(dtype="float64"), n_out)
+        x_all, y_all = hits.index.asi8, hits.to_numpy(dtype="float64")
+        if view is None:
+            at = minmax_indices(x_all, y_all, n_out)
+        else:
+            inside = (hits.index >= view[0]) & (hits.index <= view[1])
+            parts = []
+            for where, budget in ((np.flatnonzero(inside), n_out), (np.flatnonzero(~inside), 40)):
+                parts.append(where[minmax_indices(x_all[where], y_all[where], budget)])
+            at = np.unique(np.concatenate(parts))
         hits = hits.iloc[at]
         traces.append(
-            go.Scatter(
-                x=wall_clock(hits.index, tz),
-                y=hits.to_numpy(dtype="float64"),
-                name=name,
-                mode="markers",
-                marker={
+            {
+                "type": "scatter",
+                "x": wall_clock(hits.index, tz),
+                "y": hits.to_numpy(dtype="float64"),
+                "name": name,
+                "mode": "markers",
+                "marker": {
                     "symbol": symbol,
-                    "size": 9,
+                    "size": 8,
                     "color": palette.OUT_OF_BAND,
                     "line": {"color": "#5a2600", "width": 0.8},
                 },
-            )
+                **kw,
+            }
         )
     return traces
 
@@ -209,20 +245,26 @@ def stretches(mask: pd.Series, max_gap: int = 1) -> list[Window]:
     return [(mask.index[s], mask.index[e]) for s, e in zip(starts, ends, strict=True)]
 
 
-def _shade(fig: go.Figure, span: Window, tz: str, colour: str, alpha: float, **kw: object) -> None:
-    fig.add_vrect(
-        x0=wall_clock_ms(span[0], tz),
-        x1=wall_clock_ms(span[1], tz),
-        fillcolor=palette.rgba(colour, alpha),
-        line_width=0,
-        layer="below",
+def _shade(span: Window, tz: str, colour: str, alpha: float, **kw: object) -> dict:
+    return {
+        "type": "rect",
+        "xref": "x",
+        "yref": "paper",
+        "x0": wall_clock_ms(span[0], tz),
+        "x1": wall_clock_ms(span[1], tz),
+        "y0": 0,
+        "y1": 1,
+        "fillcolor": palette.rgba(colour, alpha),
+        "line": {"width": 0},
+        "layer": "below",
         **kw,
-    )
+    }
 
 
-def _set_view(fig: go.Figure, view: Window | None, tz: str) -> None:
-    if view is not None and view[0] < view[1]:
-        fig.update_xaxes(range=[wall_clock_ms(view[0], tz), wall_clock_ms(view[1], tz)])
+def _range(view: Window | None, tz: str) -> dict:
+    if view is None or view[0] >= view[1]:
+        return {}
+    return {"range": [wall_clock_ms(view[0], tz), wall_clock_ms(view[1], tz)]}
 
 
 def band_figure(
@@ -235,38 +277,73 @@ def band_figure(
     marks: Sequence[tuple[pd.Timestamp, str]] = (),
     n_out: int = DEFAULT_POINTS,
 ) -> go.Figure:
-    """The value against its expected band; out-of-band points as vermillion triangles,
-    out-of-band stretches inside the window shaded, the window itself tinted yellow."""
+    """The value against its expected band; out-of-band samples as vermillion triangles
+    (pointing the way they left the band), out-of-band stretches inside the window shaded
+    vermillion, the window itself tinted yellow, page times as dotted lines."""
     view = view or default_view(frame)
-    fig = go.Figure()
     band = _rows(frame, ["lower", "upper", "expected"], n_out, view)
-    fig.add_traces(
-        _band_traces(band, "lower", "upper", tz, "expected band", palette.BAND_EDGE, 0.32)
-    )
-    fig.add_trace(
+    traces = _band_traces(band, "lower", "upper", tz, "expected band", palette.BAND_EDGE, 0.32)
+    traces.append(
         _line(band.index, band["expected"], tz, "expected", palette.EXPECTED, dash="dash")
     )
     x, y = _points(frame, "value", n_out, view)
-    fig.add_trace(_line(x, y, tz, "value", palette.VALUE, width=1.8))
-    fig.add_traces(_out_of_band_markers(frame, "value", tz, n_out // 4, "upper", "lower"))
+    traces.append(_line(x, y, tz, "value", palette.VALUE, width=1.8))
+    traces.extend(_out_of_band_markers(frame, "value", tz, n_out // 2, "upper", "lower", view))
+    shapes, annotations = [], []
     window = window_of(frame)
     if window is not None:
-        _shade(fig, window, tz, palette.WINDOW, 0.22)
+        shapes.append(_shade(window, tz, palette.WINDOW, 0.22))
         inside = frame[frame["in_window"].to_numpy(dtype=bool)]
-        for span in stretches(inside["outside"])[:200]:
-            _shade(fig, span, tz, palette.OUT_OF_BAND, 0.14)
-    for at, label in marks:
-        fig.add_vline(
-            x=wall_clock_ms(pd.Timestamp(at), tz),
-            line={"color": palette.VALUE, "width": 1.2, "dash": "dot"},
-            annotation_text=label,
-            annotation_position="top left",
-            annotation_font_size=11,
+        shapes.extend(
+            _shade(span, tz, palette.OUT_OF_BAND, 0.14)
+            for span in stretches(inside["outside"])[:200]
         )
-    _base_layout(fig, tz, unit, height=420)
-    fig.update_layout(title={"text": title, "x": 0, "font": {"size": 14}})
-    _set_view(fig, view, tz)
-    return fig
+    for at, label in marks:
+        x_mark = wall_clock_ms(pd.Timestamp(at), tz)
+        shapes.append(
+            {
+                "type": "line",
+                "xref": "x",
+                "yref": "paper",
+                "x0": x_mark,
+                "x1": x_mark,
+                "y0": 0,
+                "y1": 1,
+                "line": {"color": palette.VALUE, "width": 1.2, "dash": "dot"},
+            }
+        )
+        annotations.append(
+            {
+                "x": x_mark,
+                "xref": "x",
+                "y": 1,
+                "yref": "paper",
+                "text": label,
+                "showarrow": False,
+                "xanchor": "left",
+                "yanchor": "top",
+                "font": {"size": 11},
+                "bgcolor": "rgba(255,255,255,0.8)",
+            }
+        )
+    layout = _layout(
+        430,
+        title={
+            "text": title,
+            "x": 0,
+            "xanchor": "left",
+            "y": 0.99,
+            "yanchor": "top",
+            "font": {"size": 13},
+        },
+        xaxis=_time_axis(tz, **_range(view, tz)),
+        yaxis=_axis(title={"text": unit or "value"}),
+        shapes=shapes,
+        annotations=annotations,
+    )
+    layout["margin"]["t"] = 64
+    layout["legend"]["y"] = 1.01
+    return _figure(traces, layout)
 
 
 def overlay_figure(
@@ -279,41 +356,39 @@ def overlay_figure(
 ) -> go.Figure:
     """Each earlier week laid over the window at the same hour-of-week, their p10–p90
     spread and median, and this window's value on top."""
-    fig = go.Figure()
     overlay = overlay.sort_index()
+    traces: list[dict] = []
     if {"p10", "p90"} <= set(overlay.columns):
         spread = reduce_together(overlay, ["p10", "p90"], n_out)
-        fig.add_traces(
+        traces.extend(
             _band_traces(spread, "p10", "p90", tz, "p10–p90 of past weeks", palette.ORANGE, 0.22)
         )
     weeks = sorted((c for c in overlay.columns if c.startswith("week_")), key=lambda c: -int(c[5:]))
     for i, column in enumerate(weeks):
         x, y = _points(overlay, column, n_out, None)
         label = f"week {column[5:].replace('-', '−')}"
-        fig.add_trace(
+        traces.append(
             _line(
                 x,
                 y,
                 tz,
-                label,
+                "past weeks" if i == 0 else label,
                 "#9a958a",
                 width=0.9,
                 legendgroup="past weeks",
                 showlegend=i == 0,
-                legendgrouptitle=None,
                 hovertemplate=f"{label}: %{{y:.4g}}<extra></extra>",
-            ).update(name="past weeks" if i == 0 else label)
+            )
         )
     if "median" in overlay:
         x, y = _points(overlay, "median", n_out, None)
-        fig.add_trace(_line(x, y, tz, "median of past weeks", palette.ORANGE, width=2.2))
+        traces.append(_line(x, y, tz, "median of past weeks", palette.ORANGE, width=2.2))
     window = window_of(frame)
     if window is not None:
-        now = clip(frame, *window)
-        x, y = _points(now, "value", n_out, None)
-        fig.add_trace(_line(x, y, tz, "this window", palette.VALUE, width=2))
-    _base_layout(fig, tz, unit, height=360)
-    return fig
+        x, y = _points(clip(frame, *window), "value", n_out, None)
+        traces.append(_line(x, y, tz, "this window", palette.VALUE, width=2))
+    layout = _layout(360, xaxis=_time_axis(tz), yaxis=_axis(title={"text": unit or "value"}))
+    return _figure(traces, layout)
 
 
 def seasonal_columns(frame: pd.DataFrame) -> list[str]:
@@ -321,6 +396,42 @@ def seasonal_columns(frame: pd.DataFrame) -> list[str]:
     if not columns and "seasonal" in frame and frame["seasonal"].abs().sum() > 0:
         columns = ["seasonal"]
     return columns
+
+
+def _stacked_axes(titles: list[str], tz: str, unit: str | None, view: Window | None) -> dict:
+    """One y axis per row, top to bottom, all sharing the bottom time axis."""
+    rows = len(titles)
+    gap = 0.07
+    height = (1 - gap * (rows - 1)) / rows
+    layout: dict = {"annotations": []}
+    for i, title in enumerate(titles):
+        top = 1 - i * (height + gap)
+        suffix = "" if i == 0 else str(i + 1)
+        layout[f"yaxis{suffix}"] = _axis(
+            domain=[max(0.0, top - height), top],
+            title={"text": unit or "value", "font": {"size": 11}},
+        )
+        layout[f"xaxis{suffix}"] = _time_axis(
+            tz,
+            title=i == rows - 1,
+            anchor=f"y{suffix}",
+            showticklabels=i == rows - 1,
+            **({"matches": "x"} if i else _range(view, tz)),
+        )
+        layout["annotations"].append(
+            {
+                "text": title,
+                "x": 0,
+                "xref": "paper",
+                "xanchor": "left",
+                "y": top,
+                "yref": "paper",
+                "yanchor": "bottom",
+                "showarrow": False,
+                "font": {"size": 12},
+            }
+        )
+    return layout
 
 
 def components_figure(
@@ -337,32 +448,35 @@ def components_figure(
     titles = ["trend"] + [f"seasonal, period {c.removeprefix('seasonal_')}" for c in seasonal]
     titles.append("residual, with the band's half-width")
     rows = len(titles)
-    fig = make_subplots(
-        rows=rows, cols=1, shared_xaxes=True, vertical_spacing=0.06, subplot_titles=titles
-    )
     n_row = max(200, n_out // 2)
+
+    def on_row(trace: dict, row: int) -> dict:
+        suffix = "" if row == 1 else str(row)
+        return {**trace, "xaxis": f"x{suffix}", "yaxis": f"y{suffix}"}
+
     x, y = _points(frame, "trend", n_row, view)
-    fig.add_trace(_line(x, y, tz, "trend", palette.TREND, width=1.8), row=1, col=1)
+    traces = [on_row(_line(x, y, tz, "trend", palette.TREND, width=1.8), 1)]
     for i, column in enumerate(seasonal, start=2):
         x, y = _points(frame, column, n_row, view)
         colour = palette.seasonal_colour(i - 2)
-        fig.add_trace(_line(x, y, tz, titles[i - 1], colour, width=1.3), row=i, col=1)
-    half = ((frame["upper"] - frame["lower"]) / 2).rename("half")
+        traces.append(on_row(_line(x, y, tz, titles[i - 1], colour, width=1.3), i))
+    half = (frame["upper"] - frame["lower"]) / 2
     with_half = frame[["residual"]].assign(half=half, neg_half=-half)
     band = _rows(with_half, ["neg_half", "half"], n_row, view)
-    for trace in _band_traces(
-        band, "neg_half", "half", tz, "band half-width", palette.BAND_EDGE, 0.28
-    ):
-        fig.add_trace(trace, row=rows, col=1)
+    traces.extend(
+        on_row(t, rows)
+        for t in _band_traces(
+            band, "neg_half", "half", tz, "band half-width", palette.BAND_EDGE, 0.28
+        )
+    )
     x, y = _points(frame, "residual", n_row, view)
-    fig.add_trace(_line(x, y, tz, "residual", palette.RESIDUAL, width=1.1), row=rows, col=1)
-    for trace in _out_of_band_markers(with_half, "residual", tz, n_row // 4, "half", "neg_half"):
-        fig.add_trace(trace.update(showlegend=False), row=rows, col=1)
-    _base_layout(fig, tz, unit, height=170 * rows + 80)
-    fig.update_layout(showlegend=False, yaxis_title_text=None)
-    fig.update_annotations(font_size=12, x=0, xanchor="left")
-    for row in range(1, rows + 1):
-        fig.update_yaxes(title_text=unit or "value", title_font_size=11, row=row, col=1)
-        fig.update_xaxes(title_text=f"time ({tz})" if row == rows else None, row=row, col=1)
-    _set_view(fig, view, tz)
-    return fig
+    traces.append(on_row(_line(x, y, tz, "residual", palette.RESIDUAL, width=1.1), rows))
+    window = window_of(frame)
+    marked = clip(with_half, *window) if window is not None and view is None else with_half
+    traces.extend(
+        on_row(t, rows)
+        for t in _out_of_band_markers(marked, "residual", tz, n_row // 2, "half", "neg_half", view)
+    )
+    layout = _layout(165 * rows + 70, showlegend=False, **_stacked_axes(titles, tz, unit, view))
+    layout["margin"]["t"] = 28
+    return _figure(traces, layout)
