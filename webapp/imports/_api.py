@@ -9,12 +9,12 @@ from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 from webapp.imports._csv import parse_csv_long, parse_csv_wide
-from webapp.imports._detect import UnknownFormat, check_override, detect_format
+from webapp.imports._detect import PARQUET_MAGIC, UnknownFormat, check_override, detect_format
 from webapp.imports._json import parse_json_records, parse_json_series
 from webapp.imports._openmetrics import parse_openmetrics
 from webapp.imports._parquet import parse_parquet
 from webapp.imports._problems import ProblemLog
-from webapp.imports._text import without_bom
+from webapp.imports._text import reject_utf16, without_bom
 from webapp.imports._types import ImportRejected, ParsedImport
 
 DEFAULT_MAX_BYTES = 200 * 1024**2
@@ -65,6 +65,8 @@ def parse_bytes(
     _check_zone(tz, log)
     if not bytes(without_bom(data[:65536])).strip():
         log.reject("the file is empty")
+    if data[:4] != PARQUET_MAGIC:
+        reject_utf16(data, log)
     if format is None:
         try:
             format = detect_format(data, file_name)

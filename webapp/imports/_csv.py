@@ -74,7 +74,9 @@ def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
 
 def looks_like_data(names: list[str]) -> bool:
     numbers = pd.to_numeric(pd.Series(names, dtype=object), errors="coerce").notna()
-    dates = pd.to_datetime(pd.Series(names, dtype=object), format="ISO8601", errors="coerce")
+    dates = pd.to_datetime(
+        pd.Series(names, dtype=object), format="ISO8601", errors="coerce", utc=True
+    )
     return bool(numbers.any() or dates.notna().any())
 
 

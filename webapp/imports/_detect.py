@@ -35,7 +35,10 @@ FAMILIES = {
     "parquet": "parquet",
 }
 PARQUET_MAGIC = b"PAR1"
-_SAMPLE = re.compile(r"^[A-Za-z_:][A-Za-z0-9_:]*(\{.*\})?[ \t]+\S+([ \t]+\S+)?")
+_NUMBER = r"[+-]?(?:\d+\.?\d*(?:[eE][+-]?\d+)?|\.\d+|Inf|NaN)"
+_SAMPLE = re.compile(
+    rf"^[A-Za-z_:][A-Za-z0-9_:]*(\{{.*\}})?[ ]+{_NUMBER}([ ]+{_NUMBER})?([ ]+#.*)?$"
+)
 _OPENMETRICS_COMMENT = re.compile(r"^#[ \t]+(TYPE|HELP|UNIT|EOF)\b")
 
 

@@ -14,11 +14,16 @@ def without_bom(data: bytes | memoryview) -> memoryview:
     return view[len(UTF8_BOM) :] if bytes(view[:3]) == UTF8_BOM else view
 
 
+def reject_utf16(data: bytes | memoryview, log: ProblemLog) -> None:
+    head = bytes(data[:2])
+    if head in (b"\xff\xfe", b"\xfe\xff"):
+        log.reject("the file is UTF-16 text; expected UTF-8 (save or export it as UTF-8)")
+
+
 def reject_bad_encoding(data: bytes | memoryview, log: ProblemLog) -> None:
     """Say where the first byte that is not UTF-8 sits, and stop."""
+    reject_utf16(data, log)
     raw = bytes(data)
-    if raw.startswith((b"\xff\xfe", b"\xfe\xff")):
-        log.reject("the file is UTF-16 text; expected UTF-8 (save or export it as UTF-8)")
     try:
         raw.decode("utf-8")
     except UnicodeDecodeError as exc:
