@@ -67,6 +67,8 @@ def parse_timestamps(
     if pa.types.is_dictionary(kind):
         values = values.cast(kind.value_type)
         kind = values.type
+    if pa.types.is_null(kind):  # every cell empty, each one already reported
+        return Timestamps(np.zeros(len(values), np.int64), missing, ISO)
     if pa.types.is_string(kind) or pa.types.is_large_string(kind):
         parsed = _parse_text(values, missing, tz, column, log, line_of, unit)
     elif pa.types.is_integer(kind) or pa.types.is_floating(kind):
@@ -176,6 +178,7 @@ def _parse_text(
             line_of,
         )
         return Timestamps(np.zeros(len(values), np.int64), missing | bad_numbers, unit)
+    stripped = pc.replace_substring_regex(stripped, pattern="z$", replacement="Z")
     text = pd.Series(stripped.to_pandas(), dtype="str")
     aware = text.str.contains(_OFFSET_AT_END, regex=True, na=False).to_numpy(dtype=bool)
     ms = np.zeros(len(text), dtype=np.int64)

@@ -1,0 +1,95 @@
+"""Gaps are dropped and counted; a repeated (series, timestamp) keeps its last value."""
+
+import pytest
+
+from webapp.imports import parse_bytes
+
+HEADER = "timestamp,metric,host,value\n"
+
+
+def _csv(rows: list[str]):
+    return parse_bytes((HEADER + "".join(r + "\n" for r in rows)).encode(), "g.csv")
+
+
+@pytest.mark.parametrize("gap", ["", "NaN", "nan", "NA", "null"])
+def test_empty_cells_and_nan_are_gaps(gap, points):
+    parsed = _csv(
+        [
+            "2026-11-30T08:00:00Z,checkout.requests,api-1,1450",
+            f"2026-11-30T08:01:00Z,checkout.requests,api-1,{gap}",
+            "2026-11-30T08:02:00Z,checkout.requests,api-1,1460",
+        ]
+    )
+    assert parsed.gap_count == 1
+    assert parsed.rows_read == 3
+    assert sorted(points(parsed).values()) == [1450.0, 1460.0]
+
+
+def test_duplicates_keep_the_last_value_and_are_reported(points):
+    parsed = _csv(
+        [
+            "2026-11-30T08:00:00Z,checkout.requests,api-1,1",
+            "2026-11-30T08:00:00Z,checkout.requests,api-2,5",
+            "2026-11-30T08:00:00Z,checkout.requests,api-1,2",
+            "2026-11-30T08:01:00Z,checkout.requests,api-1,7",
+            "2026-11-30T09:00:00+01:00,checkout.requests,api-1,3",
+        ]
+    )
+    assert parsed.duplicate_count == 2
+    got = points(parsed)
+    assert got == {
+        ("checkout.requests{host=api-1}", 1796025600000): 3.0,
+        ("checkout.requests{host=api-2}", 1796025600000): 5.0,
+        ("checkout.requests{host=api-1}", 1796025660000): 7.0,
+    }
+    assert [p.severity for p in parsed.problems] == ["warning"]
+    assert str(parsed.problems[0]) == (
+        "g.csv: 2 rows repeat a (series, timestamp) pair that appears again later; the last "
+        "value of each pair was kept (first repeat at line 2)"
+    )
+
+
+def test_a_gap_does_not_overwrite_an_earlier_value(points):
+    parsed = _csv(
+        [
+            "2026-11-30T08:00:00Z,checkout.requests,api-1,1",
+            "2026-11-30T08:00:00Z,checkout.requests,api-1,",
+        ]
+    )
+    assert (parsed.gap_count, parsed.duplicate_count) == (1, 0)
+    assert list(points(parsed).values()) == [1.0]
+
+
+def test_spellings_of_one_series_merge():
+    parsed = parse_bytes(
+        b"ts,metric,host,dc,value\n"
+        b"1796025600,checkout.requests,api-1,,1\n"
+        b"1796025660,checkout.requests, api-1 ,,2\n",
+        "s.csv",
+    )
+    assert list(parsed.series) == ["checkout.requests{host=api-1}"]
+    assert parsed.table["series_key"].nunique() == 1
+
+
+def test_wide_csv_gaps_are_counted_per_cell():
+    parsed = parse_bytes(b"ts,a{h=1},a{h=2},a{h=3}\n1796025600,1,,NaN\n1796025660,,2,3\n", "w.csv")
+    assert parsed.gap_count == 3
+    assert len(parsed.table) == 3
+
+
+def test_duplicates_in_json_series_and_openmetrics(points):
+    series = b'{"metric": "m", "points": [[1796025600, 1], [1796025600, 2]]}'
+    parsed = parse_bytes(series, "s.json")
+    assert parsed.duplicate_count == 1 and list(points(parsed).values()) == [2.0]
+    om = b"# TYPE m gauge\nm 1 1796025600\nm 2 1796025600.0\n# EOF\n"
+    parsed = parse_bytes(om, "m.txt")
+    assert parsed.duplicate_count == 1 and list(points(parsed).values()) == [2.0]
+
+
+def test_table_columns_and_types():
+    parsed = _csv(["2026-11-30T08:00:00Z,checkout.requests,api-1,1"])
+    table = parsed.table
+    assert list(table.columns) == ["series_key", "ts_utc", "value"]
+    assert str(table["ts_utc"].dtype) == "int64"
+    assert str(table["value"].dtype) == "float64"
+    assert table["series_key"].tolist() == ["checkout.requests{host=api-1}"]
