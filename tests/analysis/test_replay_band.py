@@ -4,11 +4,13 @@ Series are synthetic (invented for the test)."""
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import pandas as pd
 import pytest
 
-from webapp.analysis import BandRule, replay
+from webapp.analysis import BandRule, replay, replay_report
 from webapp.analysis._replay import evaluate
 
 T0 = pd.Timestamp("2026-03-02 00:00", tz="UTC")
@@ -24,7 +26,7 @@ def daily(days: int = 6, seed: int = 11) -> pd.Series:
     return pd.Series(values, index=index)
 
 
-RULE = BandRule(tolerance=4.0, for_="15min", history=pd.Timedelta(days=3))
+RULE = BandRule(tolerance=4.0, for_="15min", history=pd.Timedelta(days=3), min_history=DAY)
 
 
 def test_changing_data_after_a_day_never_changes_that_days_firings():
@@ -52,10 +54,7 @@ def test_a_sustained_jump_fires_once_the_pending_period_has_passed():
         series.index < T0 + 5 * DAY + pd.Timedelta(hours=4)
     )
     series[jump] += 400
-    firings = replay(
-        series,
-        BandRule(tolerance=4.0, for_="15min", history=pd.Timedelta(days=3), direction="above"),
-    )
+    firings = replay(series, replace(RULE, direction="above"))
     start = T0 + 5 * DAY + pd.Timedelta(hours=3)
     assert (firings["start"] == start + pd.Timedelta("15min")).any()
     assert (firings["end"] == start + pd.Timedelta(hours=1)).any()
@@ -65,19 +64,26 @@ def test_direction_above_ignores_a_dip_and_below_catches_it():
     series = daily()
     dip = (series.index >= T0 + 5 * DAY) & (series.index < T0 + 5 * DAY + pd.Timedelta(hours=1))
     series[dip] -= 400
-    kwargs = {"tolerance": 4.0, "for_": "15min", "history": pd.Timedelta(days=3)}
-    above = replay(series, BandRule(direction="above", **kwargs))
-    below = replay(series, BandRule(direction="below", **kwargs))
+    above = replay(series, replace(RULE, direction="above"))
+    below = replay(series, replace(RULE, direction="below"))
     start, end = T0 + 5 * DAY, T0 + 5 * DAY + pd.Timedelta(hours=1)
     assert above[(above["start"] >= start) & (above["start"] < end)].empty
     assert len(below[(below["start"] >= start) & (below["start"] < end)]) == 1
 
 
-def test_a_day_without_enough_history_has_no_band_and_never_fires():
-    series = daily(days=2)
+def test_the_replay_starts_at_the_first_day_with_enough_history():
+    series = daily(days=3)
     series[: 12 * 6] += 1000  # the first six hours, before any history exists
     times, condition, _ = evaluate(series, RULE)
-    assert not condition[times < T0 + DAY].any()
+    assert times[0] == T0 + DAY
+    assert len(condition) == len(times) == 2 * 288
+    report = replay_report(series, RULE)
+    assert report.span == (T0 + DAY, T0 + 3 * DAY)
+
+
+def test_too_little_history_for_any_band_is_a_clear_error():
+    with pytest.raises(ValueError, match="needs at least 14d of data before a day"):
+        replay(daily(days=6), BandRule())
 
 
 @pytest.mark.parametrize(
@@ -93,3 +99,16 @@ def test_a_day_without_enough_history_has_no_band_and_never_fires():
 def test_band_rule_validation(kwargs, message):
     with pytest.raises(ValueError, match=message):
         BandRule(**kwargs)
+
+
+def test_an_excluded_bad_day_is_left_out_of_later_baselines():
+    series = daily()
+    bad = (series.index >= T0 + 2 * DAY) & (series.index < T0 + 3 * DAY)
+    series[bad] += 300  # a whole bad day: in a 3-day baseline it lifts the trend
+    day = T0 + 3 * DAY
+    times, kept, _ = evaluate(series, RULE)
+    _, left_out, _ = evaluate(series, RULE, exclude=[(T0 + 2 * DAY, T0 + 3 * DAY)])
+    clean_times, clean, _ = evaluate(daily().where(~bad), RULE)
+    after = times >= day
+    assert kept[after].sum() > left_out[after].sum()  # normal days then look low
+    np.testing.assert_array_equal(left_out[after], clean[clean_times >= day])

@@ -107,7 +107,9 @@ def test_every_draft_leaves_the_decision_to_the_owner(threshold):
 
 def test_a_band_rule_is_drafted_without_a_sweep():
     series = fortnight(*BLIPS) + np.random.default_rng(5).normal(0, 1, DAYS * 1440)
-    rule = BandRule(tolerance=5.0, for_="2min", history=pd.Timedelta(days=3))
+    rule = BandRule(
+        tolerance=5.0, for_="2min", history=pd.Timedelta(days=3), min_history=pd.Timedelta(days=3)
+    )
     report = replay_report(series, rule, INCIDENTS)
     verdict = draft_verdict(report, None, rule)
     assert verdict.suggestion in {"keep", "retire"}

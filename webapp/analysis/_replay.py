@@ -27,14 +27,15 @@ that).
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable
 from dataclasses import dataclass
 from typing import Literal
 
 import numpy as np
 import pandas as pd
 
-from webapp.analysis._explain import explain
-from webapp.analysis._grid import as_utc_series, infer_step
+from webapp.analysis._band import expected_band, fit_baseline, mask_excluded
+from webapp.analysis._grid import as_utc_series, infer_step, regularize
 
 __all__ = ["ThresholdRule", "BandRule", "replay", "evaluation_grid", "rule_from_fields"]
 
@@ -114,8 +115,9 @@ class BandRule:
     The band for each day (midnight to midnight on the ``tz`` wall clock) is fitted on the
     ``history`` before that day only, so replaying never looks ahead: what a day's firings
     are depends on that day and the days before it. Days with less than ``min_history`` of
-    data before them have no band and never fire. ``direction`` is ``"above"`` (only above
-    the upper edge), ``"below"`` or ``"both"``.
+    data before them (two weeks by default: the least that shows a weekly cycle twice) have
+    no band, and the replay starts at the first day that has one. ``direction`` is
+    ``"above"`` (only above the upper edge), ``"below"`` or ``"both"``.
     """
 
     tolerance: float = 3.0
@@ -124,7 +126,7 @@ class BandRule:
     direction: Literal["both", "above", "below"] = "both"
     tz: str = "UTC"
     step: pd.Timedelta | None = None
-    min_history: pd.Timedelta = pd.Timedelta(days=1)
+    min_history: pd.Timedelta = pd.Timedelta(weeks=2)
 
     def __post_init__(self) -> None:
         if not isinstance(self.tolerance, int | float) or not self.tolerance > 0:
@@ -276,67 +278,106 @@ def _firings_frame(times: pd.DatetimeIndex, starts: np.ndarray, ends: np.ndarray
     )
 
 
-def band_condition(
-    times: pd.DatetimeIndex, values: np.ndarray, series: pd.Series, rule: BandRule
-) -> np.ndarray:
-    """Outside-the-band per evaluation, each day's band fitted on the days before it."""
+PERIOD_REFRESH = pd.Timedelta(days=7)
+
+
+def _local_days(times: pd.DatetimeIndex, tz: str) -> list[tuple[pd.Timestamp, pd.Timestamp]]:
+    """(start, end) in UTC of every local calendar day the grid touches, in order."""
+    days = []
+    for day in times.tz_convert(tz).normalize().unique():
+        # 26 hours on, then back to midnight: the next local midnight on 23- and 25-hour days
+        end = (day + pd.Timedelta(hours=26)).normalize()
+        days.append((day.tz_convert("UTC"), end.tz_convert("UTC")))
+    return days
+
+
+def band_limits(
+    times: pd.DatetimeIndex,
+    step: pd.Timedelta,
+    series: pd.Series,
+    rule: BandRule,
+    exclude: Iterable = (),
+) -> tuple[np.ndarray, np.ndarray]:
+    """Lower and upper band edge per evaluation (NaN on days without enough history).
+
+    Each day's band is fitted on the ``rule.history`` before that day only. Choosing the
+    seasonal periods is the costly part of a fit, so they are chosen once every
+    ``PERIOD_REFRESH`` (on the history before the first day of that stretch) and kept for
+    the days after it; the decomposition and the scale are refitted every day. Neither
+    ever sees the day itself or anything later. ``exclude`` spans are left out of every
+    day's baseline (they may still fire).
+    """
+    exclude = list(exclude)
     clean = _clean(series)
     lower = np.full(len(times), np.nan)
     upper = np.full(len(times), np.nan)
-    local = times.tz_convert(rule.tz)
-    day_starts = local.normalize().unique()
-    first_data = clean.index[0]
-    for day in day_starts:
-        day_start = day.tz_convert("UTC")
-        # 26 hours on, then back to midnight: the next local midnight on 23- and 25-hour days
-        day_end = (day + pd.Timedelta(hours=26)).normalize().tz_convert("UTC")
-        if day_start - first_data < rule.min_history:
-            continue
-        upto = clean[clean.index < day_end]
-        exp = explain(
-            upto,
-            window=(day_start, day_end),
-            history=rule.history,
-            tolerance=rule.tolerance,
-            tz=rule.tz,
-        )
-        band = exp.frame[["lower", "upper"]]
-        band = band[(band.index >= day_start) & (band.index < day_end)]
-        if band.empty:
+    periods: list[pd.Timedelta] | None = None
+    chosen_at = None
+    for day_start, day_end in _local_days(times, rule.tz):
+        if day_start - clean.index[0] < rule.min_history:
             continue
         lo, hi = times.searchsorted(day_start), times.searchsorted(day_end)
-        aligned = band.reindex(times[lo:hi], method="ffill")
-        lower[lo:hi] = aligned["lower"].to_numpy(dtype=float)
-        upper[lo:hi] = aligned["upper"].to_numpy(dtype=float)
-    with np.errstate(invalid="ignore"):
-        above = values > upper
-        below = values < lower
-    if rule.direction == "above":
-        return above
-    if rule.direction == "below":
-        return below
-    return above | below
+        history = clean[(clean.index >= day_start - rule.history) & (clean.index < day_start)]
+        if lo == hi or len(history) < 2:
+            continue
+        if chosen_at is None or day_start - chosen_at >= PERIOD_REFRESH:
+            baseline = mask_excluded(regularize(history, step), exclude)
+            fit = fit_baseline(baseline, tz=rule.tz)
+            periods, chosen_at = fit.periods, day_start
+            band = fit.band(times[lo:hi], rule.tolerance)
+        else:
+            band = expected_band(
+                history,
+                times[lo:hi],
+                tolerance=rule.tolerance,
+                tz=rule.tz,
+                exclude=exclude,
+                periods=periods,
+            )
+        lower[lo:hi] = band["lower"].to_numpy(dtype=float)
+        upper[lo:hi] = band["upper"].to_numpy(dtype=float)
+    return lower, upper
 
 
-def evaluate(series: pd.Series, rule: Rule) -> tuple[pd.DatetimeIndex, np.ndarray, pd.Timedelta]:
-    """(grid times, condition per evaluation, step) for any rule."""
+def evaluate(
+    series: pd.Series, rule: Rule, exclude: Iterable = ()
+) -> tuple[pd.DatetimeIndex, np.ndarray, pd.Timedelta]:
+    """(grid times, condition per evaluation, step) for any rule; ``exclude`` (spans left
+    out of baselines) matters only to band rules.
+
+    For a band rule the grid starts at the first day that has a band: the days before it
+    could not have fired, and counting them would understate pages per week.
+    """
     if not isinstance(rule, ThresholdRule | BandRule):
         raise ValueError(f"replay needs a ThresholdRule or a BandRule, got {type(rule).__name__}")
     times, values, step = evaluation_grid(series, rule.step)
     if isinstance(rule, ThresholdRule):
-        condition = rule.condition(values)
-    else:
-        condition = band_condition(times, values, series, rule)
-    return times, condition, step
+        return times, rule.condition(values), step
+    lower, upper = band_limits(times, step, series, rule, exclude)
+    banded = np.flatnonzero(np.isfinite(lower) & np.isfinite(upper))
+    if banded.size == 0:
+        raise ValueError(
+            f"a band rule needs at least {_format_duration(rule.min_history)} of data before "
+            f"a day to build that day's band; this series covers "
+            f"{_format_duration(times[-1] - times[0] + step)}"
+        )
+    first = int(banded[0])
+    with np.errstate(invalid="ignore"):
+        above = values[first:] > upper[first:]
+        below = values[first:] < lower[first:]
+    condition = {"above": above, "below": below, "both": above | below}[rule.direction]
+    return times[first:], condition, step
 
 
-def replay(series: pd.Series, rule: Rule) -> pd.DataFrame:
+def replay(series: pd.Series, rule: Rule, exclude: Iterable = ()) -> pd.DataFrame:
     """When ``rule`` would have fired over ``series``: a DataFrame of ``start``, ``end``.
 
-    ``end`` is NaT for a firing still going at the end of the data. Raises ValueError for an
-    empty or all-missing series or a rule that is not a ThresholdRule or BandRule.
+    ``end`` is NaT for a firing still going at the end of the data. ``exclude``: (start, end)
+    spans left out of a band rule's baselines (excluded periods); threshold rules ignore it.
+    Raises ValueError for an empty or all-missing series or a rule that is neither a
+    ThresholdRule nor a BandRule.
     """
-    times, condition, step = evaluate(series, rule)
+    times, condition, step = evaluate(series, rule, exclude)
     run_starts, run_ends = runs(condition)
     starts, ends = fire_indices(run_starts, run_ends, pending_samples(rule.for_, step))
     return _firings_frame(times, starts, ends)

@@ -197,13 +197,16 @@ def replay_report(
     incidents: Iterable[object] | None = None,
     flap_gap: pd.Timedelta = DEFAULT_FLAP_GAP,
     lead: pd.Timedelta = DEFAULT_LEAD,
+    exclude: Iterable[object] = (),
 ) -> ReplayReport:
-    """Replay ``rule`` over ``series`` and measure it (definitions in the module docstring)."""
+    """Replay ``rule`` over ``series`` and measure it (definitions in the module docstring).
+
+    ``exclude``: spans left out of a band rule's baselines, as in ``replay``."""
     flap_gap, lead = pd.Timedelta(flap_gap), pd.Timedelta(lead)
     if flap_gap < pd.Timedelta(0) or lead < pd.Timedelta(0):
         raise ValueError("flap_gap and lead must not be negative")
     windows = incident_windows(incidents)
-    times, condition, step = evaluate(series, rule)
+    times, condition, step = evaluate(series, rule, exclude)
     run_starts, run_ends = runs(condition)
     first_idx, end_idx = fire_indices(run_starts, run_ends, pending_samples(rule.for_, step))
     grid_ns = times.asi8
