@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import re
 from collections.abc import Callable
 
 import numpy as np
@@ -101,3 +102,46 @@ def make_page(session) -> Callable[..., Page]:
         return page
 
     return make
+
+
+@pytest.fixture
+def csrf(client) -> str:
+    """The CSRF token of the test client's session, read from a form the app served."""
+    page = client.get("/reviews/new")
+    match = re.search(r'name="csrf_token" value="([^"]+)"', page.text)
+    assert match, "the review form carries no CSRF field"
+    return match.group(1)
+
+
+@pytest.fixture
+def app_session(app):
+    """A store session on the app's own database, for arranging data before requests."""
+    from webapp.store import db
+
+    s = db.new_session(db.get_engine(app))
+    yield s
+    s.close()
+
+
+def real_explanation(session, series: Series, window=WINDOW) -> Explanation:
+    """An explanation computed by the analysis core on synthetic data and saved by the store."""
+    from webapp.analysis import explain, past_weeks_overlay
+    from webapp.store import explanations
+    from webapp.store.models import Point
+
+    history = pd.Timedelta(weeks=2)
+    index = pd.date_range(window[0] - history, window[1], freq="5min", tz="UTC")
+    rng = np.random.default_rng(5)
+    minutes = index.hour * 60 + index.minute
+    values = 200 + 40 * np.sin(2 * np.pi * minutes / 1440) + rng.normal(0, 3, len(index))
+    values[(index >= window[0]) & (index < window[0] + pd.Timedelta("1h"))] += 150
+    points = pd.Series(values, index)
+    session.add_all(
+        Point(series_id=series.id, ts=int(ts.value // 1_000_000), value=float(v))
+        for ts, v in points.items()
+    )
+    exp = explain(points, window=window, history=history)
+    overlay = past_weeks_overlay(points, window=window, weeks=2)
+    return explanations.save_explanation(
+        session, exp, series.id, overlay=overlay, title=f"{series.key} band"
+    )

@@ -253,6 +253,19 @@ def delete(rule_id: int) -> Any:
     return redirect(url_for("rules.index"))
 
 
+def firing_rows(firings: pd.DataFrame, limit: int = 500) -> list[dict[str, Any]]:
+    """The first ``limit`` firings as plain values for the table (incidents numbered from 1)."""
+    return [
+        {
+            "start": row.start,
+            "end": None if row.ongoing else row.end,
+            "duration": row.duration,
+            "incident": None if pd.isna(row.incident) else int(row.incident) + 1,
+        }
+        for row in firings.head(limit).itertuples(index=False)
+    ]
+
+
 @dataclass
 class Replay:
     """Everything the replay page shows for one rule on one series."""
@@ -345,6 +358,7 @@ def _show(
         reviews=reviews,
         form=form or _verdict_values(replay, rule, reviews),
         errors=errors or {},
+        firings=firing_rows(replay.report.firings) if replay else [],
         verdict_warning=store_reviews.VERDICT_WARNING,
         tz=TZ,
     )

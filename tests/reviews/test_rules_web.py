@@ -1,0 +1,224 @@
+"""The Alert rules screen: rule forms, the replay page, the what-if sweep and the verdict.
+
+The data is synthetic: three weeks of five-minute samples at 100 with three bursts to 300
+lasting 30 minutes; one review records the second burst as an incident.
+"""
+
+from __future__ import annotations
+
+import html
+import re
+
+import numpy as np
+import pandas as pd
+import pytest
+from sqlalchemy import insert
+
+from webapp.store import reviews
+from webapp.store import rules as store_rules
+from webapp.store.models import Point, Review, Series
+from webapp.store.stats import refresh
+
+START = pd.Timestamp("2026-11-02", tz="UTC")
+BURSTS = [START + pd.Timedelta(days=d, hours=10) for d in (3, 10, 17)]
+
+
+@pytest.fixture
+def watched(session) -> Series:
+    series = Series(key="queue.depth{host=q-1}", metric="queue.depth", labels={"host": "q-1"})
+    session.add(series)
+    session.flush()
+    index = pd.date_range(START, START + pd.Timedelta(weeks=3), freq="5min", inclusive="left")
+    values = np.full(len(index), 100.0)
+    for burst in BURSTS:
+        values[(index >= burst) & (index < burst + pd.Timedelta("30min"))] = 300.0
+    rows = [
+        {"series_id": series.id, "ts": int(ts.value // 1_000_000), "value": float(v)}
+        for ts, v in zip(index, values, strict=True)
+    ]
+    session.execute(insert(Point), rows)
+    refresh(session, [series])
+    session.commit()
+    return series
+
+
+@pytest.fixture
+def incident_review(session, watched, make_explanation) -> Review:
+    review = reviews.create_review(
+        session,
+        {
+            "title": "Queue backlog",
+            "incident_start": BURSTS[1],
+            "incident_end": BURSTS[1] + pd.Timedelta("1h"),
+        },
+    )
+    reviews.attach_explanation(session, review, make_explanation(watched).id)
+    session.commit()
+    return review
+
+
+@pytest.fixture
+def rule(session, watched):
+    row = store_rules.create_rule(
+        session,
+        name="Queue deep",
+        series_id=watched.id,
+        kind="threshold",
+        direction="above",
+        threshold=200.0,
+        pending_seconds=600,
+    )
+    session.commit()
+    return row
+
+
+def rule_form(series_id: int, /, **overrides: str) -> dict[str, str]:
+    form = {
+        "name": "Queue deep",
+        "target": "series",
+        "series_id": str(series_id),
+        "kind": "threshold",
+        "direction": "above",
+        "threshold": "200",
+        "tolerance": "",
+        "pending": "10min",
+        "step": "",
+        "description": "",
+    }
+    return form | overrides
+
+
+def count(text: str, label: str) -> str:
+    found = re.search(rf'<span class="count">([^<]+)</span> {label}', text)
+    assert found, f"no count for {label}"
+    return found.group(1)
+
+
+def test_list_shows_the_rule_in_words(client, rule) -> None:
+    text = client.get("/rules").text
+    assert "Queue deep" in text and "above 200 for 10min" in text
+
+
+def test_create_a_rule(client, csrf, watched, session) -> None:
+    response = client.post("/rules/new", data={"csrf_token": csrf, **rule_form(watched.id)})
+    assert response.status_code == 302
+    created = store_rules.list_rules(session)[0]
+    assert (created.threshold, created.pending_seconds) == (200.0, 600)
+    assert response.location.endswith(f"/rules/{created.id}")
+
+
+@pytest.mark.parametrize(
+    ("overrides", "message"),
+    [
+        ({"name": ""}, "Give the rule a name"),
+        ({"threshold": "lots"}, "Give the threshold as a number"),
+        ({"pending": "soon"}, "is not a duration"),
+        ({"pending": "-5min"}, "cannot be negative"),
+        ({"step": "0s"}, "above zero"),
+        ({"series_id": "999"}, "Pick one of the stored series"),
+        ({"kind": "band", "tolerance": "0"}, "above 0"),
+        ({"kind": "threshold", "direction": "both"}, "fires above or below"),
+        ({"target": "metric", "metric": ""}, "Name the metric"),
+        ({"target": "metric", "metric": "queue.depth", "label_filter": "host"}, "name=value"),
+    ],
+)
+def test_bad_rule_input_is_explained_and_kept(client, csrf, watched, overrides, message) -> None:
+    form = rule_form(watched.id, description="typed notes to keep", **overrides)
+    response = client.post("/rules/new", data={"csrf_token": csrf, **form})
+    assert response.status_code == 422
+    text = html.unescape(response.text)
+    assert message in text
+    assert "typed notes to keep" in text
+
+
+def test_unknown_rule_is_a_readable_404(client) -> None:
+    response = client.get("/rules/42")
+    assert response.status_code == 404 and "There is no alert rule #42" in response.text
+
+
+def test_replay_counts_firings_and_incidents(client, rule, incident_review) -> None:
+    text = html.unescape(client.get(f"/rules/{rule.id}").text)
+    assert count(text, "firings") == "3"
+    assert count(text, "inside incidents") == "1"
+    assert count(text, "outside incidents") == "2"
+    assert count(text, "incidents caught") == "1"
+    assert count(text, "incidents missed") == "0"
+    # the burst starts at 10:00 and the rule waits 10 minutes (pending period)
+    assert "caught, first firing 2026-11-12 10:10" in text
+    assert count(text, "median duration") == "20 min"
+
+
+def test_replay_page_has_the_sweep_and_the_warning(client, rule, incident_review) -> None:
+    text = html.unescape(client.get(f"/rules/{rule.id}").text)
+    assert 'id="sweep-figure"' in text and 'id="replay-figure"' in text
+    assert "pages per week" in text and "incidents caught" in text
+    assert "Retiring an alert can hide a real failure" in text
+    assert "the service owner and the team's own paging policy decide" in text
+    assert "<strong>The tool drafts; the owner decides.</strong>" in text
+
+
+def test_a_rule_without_data_says_so(client, csrf, session) -> None:
+    row = store_rules.create_rule(session, name="Nothing", metric="absent.metric", threshold=1.0)
+    session.commit()
+    response = client.get(f"/rules/{row.id}")
+    assert response.status_code == 200
+    assert "No stored series matches this rule yet" in response.text
+
+
+def test_metric_rule_matches_series_by_labels(client, session, watched) -> None:
+    row = store_rules.create_rule(
+        session,
+        name="By label",
+        metric="queue.depth",
+        label_filter={"host": "q-1"},
+        threshold=200.0,
+    )
+    session.commit()
+    text = client.get(f"/rules/{row.id}").text
+    assert count(text, "firings") == "3"
+
+
+def test_carry_the_draft_into_a_review(client, csrf, rule, incident_review, session) -> None:
+    data = {
+        "csrf_token": csrf,
+        "review_id": str(incident_review.id),
+        "verdict": "tune",
+        "verdict_parameters": "threshold: 250\npending_seconds: 900",
+        "verdict_rationale": "Fewer pages, same catch.",
+    }
+    response = client.post(f"/rules/{rule.id}/verdict", data=data)
+    assert response.status_code == 302
+    session.rollback()
+    session.expire_all()
+    stored = session.get(Review, incident_review.id)
+    assert stored.verdict == "tune" and stored.alert_rule_id == rule.id
+    assert stored.verdict_parameters == {"threshold": 250.0, "pending_seconds": 900.0}
+
+
+def test_carrying_a_bad_verdict_keeps_the_rationale(client, csrf, rule, incident_review) -> None:
+    data = {
+        "csrf_token": csrf,
+        "review_id": str(incident_review.id),
+        "verdict": "tune",
+        "verdict_parameters": "no colon here",
+        "verdict_rationale": "My own careful words.",
+    }
+    response = client.post(f"/rules/{rule.id}/verdict", data=data)
+    assert response.status_code == 422
+    assert "should read name: value" in response.text
+    assert "My own careful words." in response.text
+
+
+def test_edit_and_delete(client, csrf, rule, watched, session) -> None:
+    form = rule_form(watched.id, threshold="250")
+    assert (
+        client.post(f"/rules/{rule.id}/edit", data={"csrf_token": csrf, **form}).status_code == 302
+    )
+    session.rollback()
+    session.expire_all()
+    assert store_rules.get_rule(session, rule.id).threshold == 250.0
+    rule_id = rule.id
+    assert client.post(f"/rules/{rule_id}/delete", data={"csrf_token": csrf}).status_code == 302
+    session.rollback()
+    session.expire_all()
+    assert store_rules.get_rule(session, rule_id) is None
