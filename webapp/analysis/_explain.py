@@ -25,7 +25,7 @@ from ._facts import (
     point_facts,
     same_hour_facts,
 )
-from ._grid import Agg, as_utc_series, find_gaps, regularize, to_utc
+from ._grid import Agg, as_utc_series, find_gaps, infer_step, regularize, to_utc
 from ._overlay import check_window
 from ._sentences import sentences
 
@@ -79,7 +79,11 @@ def explain(
     if agg not in ("mean", "sum"):
         raise ValueError(f"agg must be 'mean' or 'sum', got {agg!r}")
     clean = as_utc_series(series)
-    regular = regularize(clean, step, agg=agg, start=start - history, end=end)
+    margin = pd.Timedelta(step) if step is not None else infer_step(clean.index)
+    nearby = clean[(clean.index >= start - history - margin) & (clean.index <= end + margin)]
+    regular = regularize(
+        nearby if nearby.notna().any() else clean, margin, agg=agg, start=start - history, end=end
+    )
     if len(regular) < 2:
         raise ValueError(
             f"the window and history span less than two grid steps of "

@@ -3,8 +3,9 @@
 Exports arrive with jittered or irregular timestamps (a scraper that runs a little late,
 a collector restarted mid-day). The step is the median spacing, snapped to a round step
 when it is within 10% of one, so that one late sample or a long outage does not change it.
-The grid is anchored at the data's own offset (the median phase of the timestamps), and each
-point goes to the nearest grid timestamp.
+The grid sits on whole multiples of the step unless the data keeps a clear offset of its own
+(its median phase more than a quarter step away, e.g. every 5 minutes at :02:30); each point
+goes to the nearest grid timestamp.
 """
 
 from __future__ import annotations
@@ -42,6 +43,7 @@ ROUND_STEPS = [
     ]
 ]
 SNAP_TOLERANCE = 0.10
+OFFSET_SNAP = 0.25
 
 Agg = Literal["mean", "sum"]
 
@@ -75,10 +77,12 @@ def as_utc_series(series: pd.Series) -> pd.Series:
 
 def infer_step(index: pd.DatetimeIndex) -> pd.Timedelta:
     """The grid step: median positive spacing, snapped to a round step within 10%."""
-    ns = np.unique(np.asarray(index.as_unit("ns").asi8))
-    if ns.size < 2:
+    ns = np.asarray(index.as_unit("ns").asi8)
+    diffs = np.diff(ns) if index.is_monotonic_increasing else np.diff(np.sort(ns))
+    diffs = diffs[diffs > 0]
+    if diffs.size == 0:
         raise ValueError("at least two distinct timestamps are needed to infer the step")
-    median = float(np.median(np.diff(ns)))
+    median = float(np.median(diffs))
     for step in ROUND_STEPS:
         if abs(median - step.value) <= SNAP_TOLERANCE * step.value:
             return step
@@ -91,8 +95,10 @@ def grid_offset(index: pd.DatetimeIndex, step: pd.Timedelta) -> int:
     step_ns = step.value
     first = int(ns[0] % step_ns)
     wrapped = (ns - ns[0] + step_ns // 2) % step_ns - step_ns // 2
-    median = int(np.median(wrapped))
-    return (first + median) % step_ns // 1_000_000_000 * 1_000_000_000
+    offset = (first + int(np.median(wrapped))) % step_ns // 1_000_000_000 * 1_000_000_000
+    if min(offset, step_ns - offset) < OFFSET_SNAP * step_ns:
+        return 0
+    return offset
 
 
 def make_grid(start: pd.Timestamp, end: pd.Timestamp, step: pd.Timedelta, offset: int = 0):

@@ -44,6 +44,7 @@ MIN_CYCLE_COVERAGE = 0.25
 ACF_MIN_HEIGHT = 0.2
 ACF_MAX_POINTS = 4096
 ACF_MAX_CANDIDATES = 2
+FUNDAMENTAL_SHARE = 0.8
 HARMONIC_TOLERANCE = 0.05
 
 
@@ -80,7 +81,9 @@ def usable_cycles(baseline: pd.Series, period: pd.Timedelta, tz: str) -> float:
 
 
 def autocorrelation_peaks(baseline: pd.Series) -> list[pd.Timedelta]:
-    """Lags of the highest local maxima of the gap-masked autocorrelation (highest first)."""
+    """Lags of the highest local maxima of the gap-masked autocorrelation, highest first, each
+    replaced by its fundamental: the shortest peak it is a multiple of whose height is at
+    least 80% of its own (the peaks of a cycle repeat at every multiple of its period)."""
     step = baseline.index[1] - baseline.index[0]
     y = baseline.to_numpy(dtype=float)
     factor = acf_bin_factor(len(y), step)
@@ -108,8 +111,21 @@ def autocorrelation_peaks(baseline: pd.Series) -> list[pd.Timedelta]:
     lags = lags[
         (acf[lags] > acf[lags - 1]) & (acf[lags] >= acf[lags + 1]) & (acf[lags] >= ACF_MIN_HEIGHT)
     ]
-    lags = lags[np.argsort(-acf[lags])]
-    return [step * int(lag * factor) for lag in lags]
+    ordered: list[int] = []
+    for lag in lags[np.argsort(-acf[lags])]:
+        root = min(
+            (f for f in lags if acf[f] >= FUNDAMENTAL_SHARE * acf[lag] and divides(f, lag)),
+            default=lag,
+        )
+        if root not in ordered:
+            ordered.append(int(root))
+    return [step * int(lag * factor) for lag in ordered]
+
+
+def divides(short: int, long: int) -> bool:
+    """Whether lag `long` is a whole multiple of lag `short`, to a bin or 1%."""
+    k = max(1, round(long / short))
+    return abs(long - k * short) <= max(1, round(0.01 * long))
 
 
 def acf_bin_factor(n: int, step: pd.Timedelta) -> int:
@@ -126,10 +142,10 @@ def acf_bin_factor(n: int, step: pd.Timedelta) -> int:
 
 
 def is_harmonic(period: pd.Timedelta, of: pd.Timedelta) -> bool:
-    """True when one period is within 5% of a whole multiple of the other."""
+    """True when the ratio of the two periods is within 0.05 of a whole number."""
     long, short = max(period, of), min(period, of)
     ratio = long / short
-    return abs(ratio - round(ratio)) <= HARMONIC_TOLERANCE * round(ratio)
+    return abs(ratio - round(ratio)) <= HARMONIC_TOLERANCE
 
 
 def strength(dec: Decomposition, baseline: pd.Series, which: int) -> float:

@@ -1,0 +1,124 @@
+"""Benchmark: explain on 8 and 16 weeks of 1-minute data, against statsmodels STL.
+
+Bars (DESIGN.md): explain on 8 weeks (80,640 points) takes at most 1/4 of the time of
+statsmodels STL(robust=True, period = one week, jumps at 10% of each span) on the same data
+in the same run; 16 weeks take at most 2.3x the 8-week time.
+
+    python benchmarks/bench_explain.py            # STL runs once; it takes minutes
+    python benchmarks/bench_explain.py --no-stl   # explain timings only
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import statistics
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+
+from webapp.analysis import explain  # noqa: E402
+
+MINUTES_PER_WEEK = 7 * 24 * 60
+
+
+def synthetic(weeks: int, seed: int = 3) -> pd.Series:
+    """1-minute latency-like data: daily and weekly cycles, slow drift, noise, a few spikes."""
+    rng = np.random.default_rng(seed)
+    n = weeks * MINUTES_PER_WEEK
+    index = pd.date_range("2026-01-05", periods=n, freq="1min", tz="UTC")
+    day = np.arange(n) / 1440
+    weekend = (index.day_of_week >= 5).astype(float)
+    values = (
+        220
+        + 60 * np.sin(2 * np.pi * (day - 0.3))
+        + 25 * np.sin(4 * np.pi * day)
+        - 40 * weekend
+        + 0.2 * day
+        + rng.normal(0, 8, n)
+    )
+    for at in rng.integers(0, n - 60, size=weeks):
+        values[at : at + 30] += 150
+    return pd.Series(values, index=index, name="bench.latency")
+
+
+def time_explain(series: pd.Series, repeats: int) -> list[float]:
+    window = (series.index[-1440], series.index[-1])
+    history = series.index[-1440] - series.index[0]
+    times = []
+    for _ in range(repeats):
+        start = time.perf_counter()
+        explain(series, window=window, history=history, tolerance=3.0)
+        times.append(time.perf_counter() - start)
+    return times
+
+
+def stl_jumps_fit(series: pd.Series) -> float:
+    """statsmodels STL, robust, weekly period, every jump 10% of its span (rounded up)."""
+    from statsmodels.tsa.seasonal import STL
+
+    period = MINUTES_PER_WEEK
+    seasonal = 7
+    trend = math.ceil(1.5 * period / (1 - 1.5 / seasonal))
+    trend += trend % 2 == 0
+    low_pass = period + 1
+    low_pass += low_pass % 2 == 0
+    stl = STL(
+        series.to_numpy(),
+        period=period,
+        seasonal=seasonal,
+        trend=trend,
+        low_pass=low_pass,
+        robust=True,
+        seasonal_jump=math.ceil(0.1 * seasonal),
+        trend_jump=math.ceil(0.1 * trend),
+        low_pass_jump=math.ceil(0.1 * low_pass),
+    )
+    start = time.perf_counter()
+    stl.fit()
+    return time.perf_counter() - start
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--no-stl", action="store_true", help="skip the STL reference fit")
+    parser.add_argument("--repeats", type=int, default=5, help="explain runs per size")
+    args = parser.parse_args()
+
+    eight, sixteen = synthetic(8), synthetic(16)
+    t8 = time_explain(eight, args.repeats)
+    t16 = time_explain(sixteen, args.repeats)
+    m8, m16 = statistics.median(t8), statistics.median(t16)
+    print(
+        f"explain, 8 weeks ({len(eight):,} points):   median {m8:.3f} s  (runs: "
+        + ", ".join(f"{t:.3f}" for t in t8)
+        + ")"
+    )
+    print(
+        f"explain, 16 weeks ({len(sixteen):,} points): median {m16:.3f} s  (runs: "
+        + ", ".join(f"{t:.3f}" for t in t16)
+        + ")"
+    )
+    ratio16 = m16 / m8
+    print(
+        f"16 weeks / 8 weeks: {ratio16:.2f}x  (bar: at most 2.3x) "
+        + ("PASS" if ratio16 <= 2.3 else "FAIL")
+    )
+    if args.no_stl:
+        return
+    print("statsmodels STL(robust=True, period=10080, jumps 10%) on 8 weeks: running once...")
+    stl = stl_jumps_fit(eight)
+    share = m8 / stl
+    print(f"STL: {stl:.1f} s")
+    print(
+        f"explain / STL: {share:.4f}  (bar: at most 0.25) " + ("PASS" if share <= 0.25 else "FAIL")
+    )
+
+
+if __name__ == "__main__":
+    main()
