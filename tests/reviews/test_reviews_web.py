@@ -259,3 +259,13 @@ def test_delete(client, csrf, review, session) -> None:
 def test_post_without_token_is_refused(client, review) -> None:
     response = client.post(f"/reviews/{review.id}/autosave", data=FORM)
     assert response.status_code == 400
+
+
+def test_unticking_the_exclusion_box_switches_it_off(client, csrf, review, session) -> None:
+    form = {k: v for k, v in FORM.items() if k != "exclude_from_baselines"}
+    form[reviews.CHECKBOX_SHOWN] = "1"  # what the browser sends for an unticked box
+    assert post(client, f"/reviews/{review.id}/edit", csrf, **form).status_code == 302
+    session.rollback()
+    session.expire_all()
+    assert session.get(Review, review.id).exclude_from_baselines is False
+    assert "kept in later baselines" in client.get(f"/reviews/{review.id}").text

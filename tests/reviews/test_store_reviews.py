@@ -53,6 +53,8 @@ def test_form_times_follow_the_given_zone(session) -> None:
 def test_unchecked_box_turns_exclusion_off(session) -> None:
     form = good_form()
     del form["exclude_from_baselines"]
+    assert reviews.create_review(session, form).exclude_from_baselines is True  # not shown
+    form[reviews.CHECKBOX_SHOWN] = "1"
     assert reviews.create_review(session, form).exclude_from_baselines is False
 
 

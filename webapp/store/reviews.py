@@ -41,6 +41,7 @@ REVIEW_FIELDS = (
     "page_id",
     *TEXT_FIELDS,
 )
+CHECKBOX_SHOWN = "exclude_from_baselines_shown"
 TITLE_MAX = 300
 SEVERITY_MAX = 20
 OWNER_MAX = 200
@@ -103,9 +104,9 @@ def clean_review(
 ) -> tuple[dict[str, Any], dict[str, str]]:
     """Check review fields; return (valid values, errors by field).
 
-    With ``partial`` only the fields present in ``data`` are checked (the form's
-    checkbox is then read as off when absent only if ``title`` is present, as a full form
-    always sends the title).
+    With ``partial`` only the fields present in ``data`` are checked. The baseline switch
+    is on unless it is given as off, or a form that showed it (``CHECKBOX_SHOWN``) sent
+    it unticked.
     """
     values: dict[str, Any] = {}
     errors: dict[str, str] = {}
@@ -150,8 +151,12 @@ def clean_review(
         if missing and "incident_end" not in errors:
             errors["status"] = "A final review needs the incident's start and end."
             values.pop("status")
-    if present("exclude_from_baselines") or (partial and "title" in data):
-        values["exclude_from_baselines"] = _flag(data.get("exclude_from_baselines"))
+    if "exclude_from_baselines" in data:
+        values["exclude_from_baselines"] = _flag(data["exclude_from_baselines"])
+    elif CHECKBOX_SHOWN in data:  # a form whose box was left unticked sends no value
+        values["exclude_from_baselines"] = False
+    elif not partial:
+        values["exclude_from_baselines"] = True
     if present("page_id"):
         raw = str(data.get("page_id") or "").strip()
         if not raw:
