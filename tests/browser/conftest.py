@@ -89,6 +89,18 @@ def screenshot(request):
     return take
 
 
+@pytest.fixture
+def keyboard_reaches():
+    """``keyboard_reaches(tab, selector)``: Tab until that element has the focus."""
+    return tab_until
+
+
+@pytest.fixture
+def unlabelled():
+    """``unlabelled(tab)``: the visible form controls that have no accessible name."""
+    return unlabelled_controls
+
+
 def tab_until(tab, selector: str, limit: int = 60) -> bool:
     """Press Tab until the element matching ``selector`` has the focus."""
     for _ in range(limit):

@@ -7,8 +7,6 @@ from __future__ import annotations
 
 import pytest
 
-from tests.browser.conftest import tab_until, unlabelled_controls
-
 pytestmark = [pytest.mark.browser, pytest.mark.slow]
 
 SERIES = "checkout.latency_p95{host=api-4}"
@@ -31,9 +29,9 @@ def band_upper(tab) -> list[float]:
     )
 
 
-def import_through_page(tab, live_server, demo_csv, screenshot) -> None:
+def import_through_page(tab, live_server, demo_csv, screenshot, unlabelled) -> None:
     tab.goto(live_server.at("/imports"))
-    assert unlabelled_controls(tab) == []
+    assert unlabelled(tab) == []
     tab.set_input_files("#files", str(demo_csv))
     tab.click("button:text('Import')")
     tab.wait_for_selector("#import-results h2:has-text('imported as #')")
@@ -42,9 +40,9 @@ def import_through_page(tab, live_server, demo_csv, screenshot) -> None:
     screenshot(tab, "1-imported")
 
 
-def test_import_explain_tolerance_save_reopen(live_server, page, screenshot, demo_csv):
+def test_import_explain_tolerance_save_reopen(live_server, page, screenshot, demo_csv, unlabelled):
     tab = page
-    import_through_page(tab, live_server, demo_csv, screenshot)
+    import_through_page(tab, live_server, demo_csv, screenshot, unlabelled)
 
     tab.goto(live_server.at("/series"))
     tab.wait_for_selector("svg.sparkline path")
@@ -57,7 +55,7 @@ def test_import_explain_tolerance_save_reopen(live_server, page, screenshot, dem
     tab.click("button:text('Explain this window')")
     tab.wait_for_url("**start=2026-11-29T22*")
     tab.wait_for_selector(".panel-band .js-plotly-plot")
-    assert unlabelled_controls(tab) == []
+    assert unlabelled(tab) == []
     screenshot(tab, "3-explain")
     before = band_upper(tab)
 
@@ -91,14 +89,16 @@ def test_import_explain_tolerance_save_reopen(live_server, page, screenshot, dem
     assert tab.locator("h1").inner_text() == "Latency on api-4, night of 29 November"
 
 
-def test_keyboard_reaches_the_explain_controls(live_server, page, screenshot, demo_csv):
+def test_keyboard_reaches_the_explain_controls(
+    live_server, page, screenshot, demo_csv, unlabelled, keyboard_reaches
+):
     tab = page
-    import_through_page(tab, live_server, demo_csv, screenshot)
+    import_through_page(tab, live_server, demo_csv, screenshot, unlabelled)
     tab.goto(live_server.at("/explain?series=1"))
     tab.wait_for_selector(".panel-band .js-plotly-plot")
     tab.focus("body")
-    assert tab_until(tab, "#tolerance"), "Tab must reach the tolerance slider"
-    assert tab_until(tab, "#weeks"), "Tab must reach the history picker"
+    assert keyboard_reaches(tab, "#tolerance"), "Tab must reach the tolerance slider"
+    assert keyboard_reaches(tab, "#weeks"), "Tab must reach the history picker"
     tab.keyboard.press("ArrowUp")  # 6 weeks -> 5 weeks from the keyboard
     tab.wait_for_url("**weeks=5*")
     outline = tab.evaluate("() => getComputedStyle(document.activeElement).outlineStyle")
