@@ -123,8 +123,13 @@ def app_session(app):
     s.close()
 
 
-def real_explanation(session, series: Series, window=WINDOW) -> Explanation:
+@pytest.fixture
+def make_real_explanation(session) -> Callable[..., Explanation]:
     """An explanation computed by the analysis core on synthetic data and saved by the store."""
+    return lambda series, window=WINDOW: _real_explanation(session, series, window)
+
+
+def _real_explanation(session, series: Series, window) -> Explanation:
     from webapp.analysis import explain, past_weeks_overlay
     from webapp.store import explanations
     from webapp.store.models import Point
@@ -132,7 +137,7 @@ def real_explanation(session, series: Series, window=WINDOW) -> Explanation:
     history = pd.Timedelta(weeks=2)
     index = pd.date_range(window[0] - history, window[1], freq="5min", tz="UTC")
     rng = np.random.default_rng(5)
-    minutes = index.hour * 60 + index.minute
+    minutes = (index.hour * 60 + index.minute).to_numpy()
     values = 200 + 40 * np.sin(2 * np.pi * minutes / 1440) + rng.normal(0, 3, len(index))
     values[(index >= window[0]) & (index < window[0] + pd.Timedelta("1h"))] += 150
     points = pd.Series(values, index)

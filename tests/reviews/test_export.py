@@ -1,0 +1,120 @@
+"""Export of a review to Markdown (figures as PNG files beside it) and to one HTML file."""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import plotly
+import pytest
+
+from webapp.store import reviews
+from webapp.web.export import ExportError, export_review
+
+PAYLOAD = '<script>alert("from the summary")</script><img src=x onerror=alert(2)>'
+
+
+@pytest.fixture
+def full_review(session, make_series, make_explanation, make_real_explanation):
+    """A review with two attachments: one computed by the analysis core (band and overlay
+    figures), one synthetic frame without an overlay (band figure only)."""
+    series = make_series("checkout.latency_p95{host=api-3}")
+    computed = make_real_explanation(series)
+    synthetic = make_explanation(make_series("checkout.errors{host=api-3}"), title="errors")
+    review = reviews.create_review(
+        session,
+        {
+            "title": "Checkout | latency",
+            "incident_start": "2026-11-30T14:00",
+            "incident_end": "2026-11-30T16:00",
+            "summary": f"Latency **tripled**. {PAYLOAD}",
+            "root_cause": "A cold cache.",
+        },
+    )
+    reviews.attach_explanation(session, review, computed.id, caption="p95 against its band")
+    reviews.attach_explanation(session, review, synthetic.id, caption="errors | rate")
+    reviews.timeline_entry_from_fact(session, review, synthetic, "first_outside")
+    reviews.add_timeline_entry(session, review, "2026-11-30 14:05", "Paged | on-call")
+    reviews.add_action_item(session, review, {"text": "Warm the cache", "owner": "Dana"})
+    reviews.set_verdict(session, review, "tune", parameters={"threshold": 650.0}, rationale="r")
+    session.commit()
+    return review
+
+
+@pytest.mark.slow  # plotly's image export starts a headless browser: about ten seconds
+def test_markdown_names_every_figure_and_each_exists(session, full_review, tmp_path) -> None:
+    out = tmp_path / "share" / "review.md"
+    files = export_review(session, full_review.id, "md", out)
+    assert files[0] == out
+    text = out.read_text(encoding="utf-8")
+    named = re.findall(r"!\[[^\]]*\]\(([^)]+)\)", text)
+    assert len(named) == 3  # band + overlay, then band
+    for path in named:
+        figure = out.parent / path
+        assert figure.is_file(), path
+        assert figure.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+        assert figure.stat().st_size > 10_000
+    assert sorted(out.parent / p for p in named) == sorted(files[1:])
+    assert "### 1. p95 against its band" in text and "### 2. errors \\| rate" in text
+    assert "| engine version | `test-1` |" in text
+    assert "| tolerance | `3.0` |" in text
+    assert "Paged \\| on-call" in text and "First outside" in text
+    assert "| 1 | Warm the cache | Dana |" in text
+    assert "**Tune**" in text and "threshold: `650.0`" in text
+    assert "Retiring an alert can hide a real failure" in text
+
+
+def test_html_is_one_self_contained_file(session, full_review, tmp_path) -> None:
+    out = tmp_path / "review.html"
+    files = export_review(session, full_review.id, "html", out)
+    assert files == [out]
+    text = out.read_text(encoding="utf-8")
+    assert "plotly.js v" in text  # the library itself, inlined
+    assert text.count(f"plotly.js v{plotly_js_version()}") >= 1
+    assert re.search(r"<script[^>]+src=", text) is None
+    assert re.search(r"<link[^>]+href=", text) is None
+    for div in ("figure-1-band", "figure-1-overlay", "figure-2-band"):
+        assert f'id="{div}"' in text
+    assert text.count('class="plotly-graph-div"') == 3
+    assert "<strong>tripled</strong>" in text
+    assert PAYLOAD not in text
+    assert "&lt;script&gt;alert(" in text  # shown as text, never run
+    assert re.search(r"<[a-z][^>]*\sonerror", text.split("<main>")[1]) is None
+    assert "test-1" in text and "tolerance" in text
+    assert "Retiring an alert can hide a real failure" in text
+    assert out.stat().st_size > 3_000_000  # plotly.js alone is several megabytes
+
+
+def plotly_js_version() -> str:
+    head = (Path(plotly.__file__).parent / "package_data" / "plotly.min.js").read_text()[:200]
+    return re.search(r"plotly\.js v([\d.]+)", head).group(1)
+
+
+def test_a_directory_target_gets_a_file_name(session, full_review, tmp_path) -> None:
+    files = export_review(session, full_review.id, "html", tmp_path)
+    assert files == [tmp_path / f"review-{full_review.id}.html"]
+
+
+def test_review_without_evidence_exports_markdown_alone(session, tmp_path) -> None:
+    review = reviews.create_review(session, {"title": "Quiet night"})
+    session.commit()
+    files = export_review(session, review.id, "md", tmp_path / "quiet.md")
+    assert files == [tmp_path / "quiet.md"]
+    assert "_No explanations attached._" in files[0].read_text()
+
+
+@pytest.mark.parametrize(
+    ("review_id", "fmt", "message"),
+    [(999, "md", "no review #999"), (1, "pdf", "unknown export format 'pdf'")],
+)
+def test_bad_requests_say_what_is_wrong(session, tmp_path, review_id, fmt, message) -> None:
+    reviews.create_review(session, {"title": "t"})
+    with pytest.raises(ExportError, match=message):
+        export_review(session, review_id, fmt, tmp_path / "x")
+
+
+def test_download_routes(client, session, full_review) -> None:
+    html = client.get(f"/reviews/{full_review.id}/export.html")
+    assert html.status_code == 200 and html.mimetype == "text/html"
+    assert "attachment" in html.headers["Content-Disposition"]
+    assert client.get(f"/reviews/{full_review.id}/export.pdf").status_code == 404
