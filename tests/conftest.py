@@ -70,10 +70,7 @@ def demo_db_url(tmp_path_factory: pytest.TempPathFactory) -> str:
 
     Tests must not write to it; use ``demo_app`` / ``demo_client`` for a private copy.
     """
-    try:
-        from webapp.demo import build_demo
-    except ImportError:
-        pytest.skip("webapp.demo.build_demo is not in the tree yet")
+    from webapp.demo import build_demo
     from webapp.store.seed import load_demo
 
     path = tmp_path_factory.mktemp("demo") / "demo.sqlite"

@@ -106,12 +106,6 @@ def upgrade() -> None:
         sa.Column("value", sa.Float(), nullable=False),
         sa.Column("import_id", sa.Integer(), nullable=True),
         sa.ForeignKeyConstraint(
-            ["import_id"],
-            ["imports.id"],
-            name=op.f("fk_points_import_id_imports"),
-            ondelete="SET NULL",
-        ),
-        sa.ForeignKeyConstraint(
             ["series_id"],
             ["series.id"],
             name=op.f("fk_points_series_id_series"),

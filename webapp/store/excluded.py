@@ -13,7 +13,8 @@ import pandas as pd
 from sqlalchemy import or_, select
 from sqlalchemy.orm import Session
 
-from webapp.store.models import ExcludedPeriod, Explanation, Page, Review, ReviewExplanation
+from webapp.store import reviews
+from webapp.store.models import ExcludedPeriod
 from webapp.store.times import timestamp, utc
 
 Span = tuple[pd.Timestamp, pd.Timestamp]
@@ -60,22 +61,13 @@ def periods_for(session: Session, series_id: int) -> list[Span]:
 
 
 def _review_spans(session: Session, series_id: int) -> list[Span]:
-    by_page = select(Page.id).where(Page.series_id == series_id)
-    by_attachment = (
-        select(ReviewExplanation.review_id)
-        .join(Explanation, Explanation.id == ReviewExplanation.explanation_id)
-        .where(Explanation.series_id == series_id)
-    )
-    reviews = session.scalars(
-        select(Review)
-        .where(Review.exclude_from_baselines.is_(True))
-        .where(Review.incident_start.is_not(None), Review.incident_end.is_not(None))
-        .where(or_(Review.page_id.in_(by_page), Review.id.in_(by_attachment)))
-    )
     return [
         (timestamp(r.incident_start), timestamp(r.incident_end))
-        for r in reviews
-        if r.incident_end > r.incident_start
+        for r in reviews.reviews_for_series(session, series_id)
+        if r.exclude_from_baselines
+        and r.incident_start is not None
+        and r.incident_end is not None
+        and r.incident_end > r.incident_start
     ]
 
 

@@ -151,11 +151,14 @@ def _record(session: Session, parsed: ParsedImport, duplicate_of: int | None) ->
     series_ids = ids[keys_codes] if len(keys) else np.empty(0, dtype=np.int64)
     ts = table["ts_utc"].to_numpy(dtype=np.int64)
     values = table["value"].to_numpy(dtype=np.float64)
-    order = np.lexsort((ts, series_ids))
+    series_ids, ts, values = _sorted_last_wins(series_ids, ts, values)
 
     existing = [int(series[k].id) for k in keys if k not in created]
     before = sum(_point_counts(session, existing).values())
-    _write_points(session, imp.id, series_ids[order], ts[order], values[order])
+    fresh = np.isin(series_ids, [series[k].id for k in created])
+    _write_points(session, imp.id, series_ids[fresh], ts[fresh], values[fresh], upsert=False)
+    keep = ~fresh
+    _write_points(session, imp.id, series_ids[keep], ts[keep], values[keep], upsert=True)
     stats.refresh(session, list(series.values()))
     inserted = sum(s.point_count for s in series.values()) - before
 
@@ -165,9 +168,9 @@ def _record(session: Session, parsed: ParsedImport, duplicate_of: int | None) ->
         format=parsed.format,
         sha256=parsed.sha256,
         duplicate_of=duplicate_of,
-        points=len(table),
+        points=len(ts),
         inserted=inserted,
-        updated=len(table) - inserted,
+        updated=len(ts) - inserted,
         series_created=len(created),
         series_keys=keys,
         first_ts=from_ms(ts.min()) if len(ts) else None,
@@ -222,25 +225,48 @@ def _point_counts(session: Session, series_ids: Sequence[int]) -> dict[int, int]
     return counts
 
 
-def _upsert_sql(paramstyle: str) -> str:
+def _sorted_last_wins(
+    series_ids: np.ndarray, ts: np.ndarray, values: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Points in (series, ts) order, the last of any repeated pair kept (importers already
+    resolve repeats; this keeps the store's key safe whatever hands it a table)."""
+    order = np.lexsort((ts, series_ids))  # stable: repeats keep their file order
+    series_ids, ts, values = series_ids[order], ts[order], values[order]
+    last = np.ones(len(ts), dtype=bool)
+    last[:-1] = (series_ids[1:] != series_ids[:-1]) | (ts[1:] != ts[:-1])
+    return series_ids[last], ts[last], values[last]
+
+
+def _points_sql(paramstyle: str, *, upsert: bool) -> str:
     marks = {"qmark": "?", "format": "%s", "pyformat": "%s"}
     if paramstyle not in marks:
         raise NotImplementedError(f"bulk import needs a qmark or format driver, not {paramstyle}")
     p = marks[paramstyle]
-    return (
-        f"INSERT INTO points (series_id, ts, value, import_id) VALUES ({p}, {p}, {p}, {p}) "
-        "ON CONFLICT (series_id, ts) DO UPDATE "
-        "SET value = excluded.value, import_id = excluded.import_id"
-    )
+    sql = f"INSERT INTO points (series_id, ts, value, import_id) VALUES ({p}, {p}, {p}, {p})"
+    if upsert:
+        sql += (
+            " ON CONFLICT (series_id, ts) DO UPDATE"
+            " SET value = excluded.value, import_id = excluded.import_id"
+        )
+    return sql
 
 
 def _write_points(
-    session: Session, import_id: int, series_ids: np.ndarray, ts: np.ndarray, values: np.ndarray
+    session: Session,
+    import_id: int,
+    series_ids: np.ndarray,
+    ts: np.ndarray,
+    values: np.ndarray,
+    *,
+    upsert: bool,
 ) -> None:
-    """Upsert the points in batches through the DB-API ``executemany`` of the session's
-    own connection, so they share its transaction without building ORM objects."""
+    """Write points in batches through the DB-API ``executemany`` of the session's own
+    connection, so they share its transaction without building ORM objects. Points of
+    series created by this import cannot exist yet and skip the upsert clause."""
+    if not len(ts):
+        return
     connection = session.connection()
-    sql = _upsert_sql(connection.dialect.paramstyle)
+    sql = _points_sql(connection.dialect.paramstyle, upsert=upsert)
     cursor = connection.connection.cursor()
     try:
         for batch in _batches(import_id, series_ids, ts, values):

@@ -123,7 +123,9 @@ class Point(Base):
     )
     ts: Mapped[int] = mapped_column(BigInteger, primary_key=True)
     value: Mapped[float] = mapped_column(Float)
-    import_id: Mapped[int | None] = mapped_column(ForeignKey("imports.id", ondelete="SET NULL"))
+    # No foreign key: deleting an import removes the points it owns first, and skipping the
+    # per-row parent lookup keeps bulk imports fast.
+    import_id: Mapped[int | None] = mapped_column(Integer)
 
 
 class AlertRule(Base):

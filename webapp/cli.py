@@ -1,0 +1,339 @@
+"""The ``whyfired`` command: a thin adapter that opens the store and builds the app.
+
+Every command names the database it uses first. The URL comes from ``--db``, else
+``WHYFIRED_DATABASE_URL``, else the SQLite file in the user's data directory (the demo
+keeps its own file there instead, rebuilt on every run).
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Any
+
+import click
+import platformdirs
+from sqlalchemy import Engine, func, select
+from sqlalchemy.engine import make_url
+from sqlalchemy.exc import SQLAlchemyError
+
+from webapp import settings
+from webapp.imports import FORMATS, ImportRejected, parse_file
+from webapp.store import db
+from webapp.store.imports import record_import
+
+MAX_PROBLEMS_SHOWN = 20
+
+
+def _setting_help(name: str) -> str:
+    return next(s.help for s in settings.SETTINGS if s.name == name)
+
+
+db_option = click.option(
+    "--db", "db_url", metavar="URL", default=None, help=_setting_help("DATABASE_URL")
+)
+host_option = click.option("--host", default="127.0.0.1", show_default=True, help="Address.")
+port_option = click.option("--port", default=5000, show_default=True, type=int, help="Port.")
+
+
+def describe(url: str) -> str:
+    """Where a database lives, for people: a SQLite file's path, else the URL (no password)."""
+    parsed = make_url(url)
+    if parsed.get_backend_name() == "sqlite":
+        if parsed.database in (None, "", ":memory:"):
+            return "SQLite in memory (nothing is kept)"
+        return str(Path(parsed.database).expanduser().resolve())
+    return parsed.render_as_string(hide_password=True)
+
+
+def _announce(url: str) -> str:
+    click.echo(f"Database: {describe(url)}")
+    return url
+
+
+@contextmanager
+def _database_errors(url: str) -> Iterator[None]:
+    """Turn a database failure into one readable line instead of a traceback."""
+    try:
+        yield
+    except SQLAlchemyError as err:
+        reason = getattr(err, "orig", None) or err
+        raise click.ClickException(
+            f"could not use the database at {describe(url)}: {reason}"
+        ) from None
+
+
+def _open(url: str) -> Engine:
+    engine = db.make_engine(url)
+    db.upgrade(engine)
+    return engine
+
+
+def _max_bytes() -> int:
+    megabytes = os.environ.get("WHYFIRED_MAX_IMPORT_MB") or settings.defaults()["MAX_IMPORT_MB"]
+    try:
+        return int(float(megabytes) * 1024 * 1024)
+    except ValueError:
+        raise click.ClickException(
+            f"WHYFIRED_MAX_IMPORT_MB must be a number of megabytes, got {megabytes!r}"
+        ) from None
+
+
+def _serve(url: str, host: str, port: int) -> None:
+    from werkzeug.serving import run_simple
+
+    from webapp import create_app
+
+    with _database_errors(url):
+        app = create_app({"DATABASE_URL": url})
+    click.echo(f"whyfired is at http://{host}:{port}/ (press Ctrl+C to stop)")
+    try:
+        run_simple(host, port, app, threaded=True)
+    except OSError as err:
+        raise click.ClickException(
+            f"cannot listen on {host}:{port} ({err.strerror or err}); choose another --port"
+        ) from None
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"]})
+def cli() -> None:
+    """whyfired: explain why a page fired, replay its alert rule, write the review."""
+
+
+@cli.command()
+@host_option
+@port_option
+@db_option
+def serve(host: str, port: int, db_url: str | None) -> None:
+    """Serve the app on this machine."""
+    _serve(_announce(settings.database_url(db_url)), host, port)
+
+
+@cli.command("import")
+@click.argument("files", nargs=-1, required=True, type=click.Path(path_type=Path))
+@click.option(
+    "--format",
+    "format_",
+    type=click.Choice(FORMATS),
+    default=None,
+    help="The files' format; detected from each file when left out.",
+)
+@click.option(
+    "--tz",
+    default=None,
+    metavar="ZONE",
+    help="Time zone of timestamps written without an offset (IANA name); UTC by default.",
+)
+@db_option
+@click.pass_context
+def import_files(
+    ctx: click.Context,
+    files: tuple[Path, ...],
+    format_: str | None,
+    tz: str | None,
+    db_url: str | None,
+) -> None:
+    """Import metric files. Each file is stored whole or not at all."""
+    url = _announce(settings.database_url(db_url))
+    max_bytes = _max_bytes()
+    rejected = 0
+    with _database_errors(url):
+        engine = _open(url)
+        try:
+            for path in files:
+                rejected += not _import_one(engine, path, format_, tz, max_bytes)
+        finally:
+            engine.dispose()
+    if rejected:
+        click.echo(f"{rejected} of {len(files)} file(s) rejected; nothing from them was stored.")
+        ctx.exit(1)
+
+
+def _import_one(
+    engine: Engine, path: Path, format_: str | None, tz: str | None, limit: int
+) -> bool:
+    if not path.is_file():
+        what = "is a folder, not a file" if path.is_dir() else "does not exist"
+        click.echo(f"{path}: {what}; nothing stored.", err=True)
+        return False
+    try:
+        parsed = parse_file(path, format=format_, tz=tz, max_bytes=limit)
+    except ImportRejected as rejection:
+        _report_rejection(path, rejection)
+        return False
+    except OSError as err:
+        click.echo(f"{path}: cannot be read ({err.strerror or err}); nothing stored.", err=True)
+        return False
+    with db.session_scope(engine) as session:
+        summary = record_import(session, parsed)
+    for line in summary.lines():
+        click.echo(line)
+    return True
+
+
+def _report_rejection(path: Path, rejection: ImportRejected) -> None:
+    problems = rejection.problems
+    click.echo(f"{path}: rejected, nothing stored:", err=True)
+    for problem in problems[:MAX_PROBLEMS_SHOWN]:
+        click.echo(f"  - {problem}", err=True)
+    if len(problems) > MAX_PROBLEMS_SHOWN:
+        click.echo(f"  ... and {len(problems) - MAX_PROBLEMS_SHOWN} more problems", err=True)
+
+
+def demo_database_url() -> str:
+    """The demo's own SQLite file, beside the default database."""
+    folder = Path(platformdirs.user_data_dir("whyfired", appauthor=False))
+    return f"sqlite:///{folder / 'demo.sqlite'}"
+
+
+def _stored_rows(engine: Engine) -> dict[str, int]:
+    from webapp.store.models import AlertRule, Import, Page, Review, Series
+
+    with db.session_scope(engine) as session:
+        counts = {
+            name: session.scalar(select(func.count()).select_from(model))
+            for name, model in (
+                ("imports", Import),
+                ("series", Series),
+                ("alert rules", AlertRule),
+                ("pages", Page),
+                ("reviews", Review),
+            )
+        }
+    return {name: n for name, n in counts.items() if n}
+
+
+def _remove_sqlite_file(url: str) -> None:
+    database = make_url(url).database
+    if database and database != ":memory:":
+        for suffix in ("", "-wal", "-shm"):
+            Path(f"{database}{suffix}").unlink(missing_ok=True)
+
+
+def _prepare_demo_target(url: str, own_file: bool, replace: bool) -> Engine:
+    if own_file:
+        _remove_sqlite_file(url)
+        return _open(url)
+    engine = _open(url)
+    held = _stored_rows(engine)
+    if held and not replace:
+        engine.dispose()
+        listing = ", ".join(f"{n:,} {name}" for name, n in held.items())
+        raise click.ClickException(
+            f"{describe(url)} already holds data ({listing}). Use --replace to empty it first, "
+            "or leave out --db (and WHYFIRED_DATABASE_URL) to use the demo's own file."
+        )
+    if held:
+        click.echo("Emptying it first (--replace).")
+        db.downgrade(engine, "base")
+        db.upgrade(engine)
+    return engine
+
+
+@cli.command()
+@click.option("--no-serve", is_flag=True, help="Load the demo and stop, without serving it.")
+@click.option("--replace", is_flag=True, help="Empty a database named by --db that holds data.")
+@click.option("--seed", default=7, show_default=True, type=int, help="Seed of the generator.")
+@host_option
+@port_option
+@click.option(
+    "--db",
+    "db_url",
+    metavar="URL",
+    default=None,
+    help="Load the demo into this database; by default into the demo's own SQLite file in "
+    "the user's data directory, rebuilt on every run.",
+)
+def demo(
+    no_serve: bool, replace: bool, seed: int, host: str, port: int, db_url: str | None
+) -> None:
+    """Load the invented demo scenario into a fresh database and serve it."""
+    from webapp.demo import build_demo
+    from webapp.store.seed import load_demo
+
+    chosen = db_url or os.environ.get("WHYFIRED_DATABASE_URL")
+    url = _announce(chosen or demo_database_url())
+    with _database_errors(url):
+        engine = _prepare_demo_target(url, own_file=chosen is None, replace=replace)
+        try:
+            click.echo(f"Building the demo scenario (seed {seed}) ...")
+            scenario = build_demo(seed=seed)
+            with db.session_scope(engine) as session:
+                counts = load_demo(session, scenario)
+        finally:
+            engine.dispose()
+    click.echo(
+        "Loaded: " + ", ".join(f"{n:,} {name.replace('_', ' ')}" for name, n in counts.items())
+    )
+    if not no_serve:
+        _serve(url, host, port)
+
+
+@cli.group("db")
+def db_group() -> None:
+    """Manage the database schema."""
+
+
+@db_group.command("upgrade")
+@db_option
+def db_upgrade(db_url: str | None) -> None:
+    """Bring the database schema to the latest revision."""
+    url = _announce(settings.database_url(db_url))
+    with _database_errors(url):
+        engine = _open(url)
+        try:
+            revision = db.current_revision(engine)
+        finally:
+            engine.dispose()
+    click.echo(f"Schema at revision {revision} (the latest).")
+
+
+@cli.group("export")
+def export_group() -> None:
+    """Write things out to share."""
+
+
+@export_group.command("review")
+@click.argument("review_id", type=int)
+@click.option(
+    "--format",
+    "fmt",
+    type=click.Choice(["md", "html"]),
+    default="md",
+    show_default=True,
+    help="Markdown, or one self-contained HTML file.",
+)
+@click.option(
+    "-o", "--output", "out_path", required=True, type=click.Path(path_type=Path), help="Path."
+)
+@db_option
+def export_review_cmd(review_id: int, fmt: str, out_path: Path, db_url: str | None) -> None:
+    """Export one review."""
+    from webapp import create_app
+    from webapp.store.models import Review
+    from webapp.web.export import ExportError, export_review
+
+    url = _announce(settings.database_url(db_url))
+    with _database_errors(url):
+        app = create_app({"DATABASE_URL": url})
+        try:
+            with app.app_context():
+                session = db.get_session()
+                if session.get(Review, review_id) is None:
+                    raise click.ClickException(f"there is no review #{review_id} in this database")
+                written = export_review(session, review_id, fmt, out_path)
+        except ExportError as err:
+            raise click.ClickException(str(err)) from None
+        except OSError as err:
+            raise click.ClickException(f"cannot write {out_path}: {err.strerror or err}") from None
+        finally:
+            db.get_engine(app).dispose()
+    for path in written:
+        click.echo(f"Wrote {path}")
+
+
+def main(args: Any = None) -> None:
+    """The console script ``whyfired``."""
+    cli.main(args=args, prog_name="whyfired")
