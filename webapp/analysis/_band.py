@@ -8,7 +8,9 @@ This is the API for anything that needs "fit on this history, forecast on that g
 
 or in one call from raw points, `expected_band(history, grid_index, tolerance=3.0)`.
 
-The scale is the robust standard deviation (MAD x 1.4826) of the in-sample residual. It may
+The scale is the robust standard deviation (MAD x 1.4826) of the hold-out residual (each
+cycle scored against the seasonal pattern of the other cycles, see `Decomposition`), i.e. of
+the error a forecast makes, not of the smaller in-sample residual. It may
 vary with the hour of day (quieter nights): each wall-clock hour gets its own robust scale,
 shrunk toward the overall one with the weight of `HOURLY_PRIOR_SAMPLES` samples, so thin
 hours stay near the overall scale. The hourly profile is used only when it differs clearly:
@@ -109,7 +111,10 @@ def fit_baseline(
         candidates = [Candidate(p, "given", kept=True, reason="given") for p in chosen]
     fitted = decomposition.components(baseline.index)
     residual = baseline - fitted["trend"] - fitted["seasonal"]
-    scale = fit_scale(residual.to_numpy(), baseline.index, tz)
+    holdout = decomposition.holdout
+    if not np.isfinite(holdout).any():
+        holdout = residual.to_numpy()
+    scale = fit_scale(holdout, baseline.index, tz)
     return BaselineFit(decomposition, scale, candidates, residual)
 
 

@@ -10,13 +10,16 @@ periods, Bandara, Hyndman & Bergmeir 2021) and swaps each smoother for a robust,
 
 * Seasonal, one component per period, shortest first (as MSTL): the detrended series is
   averaged per cell (cycle x phase bin, the cycle counted on the wall clock), then the
-  value of each phase bin is the median of that bin across `seasonal_span` neighbouring
-  cycles (7, STL's default seasonal span). The median across cycles is what makes a past
-  spike or a whole bad day barely move the pattern: one cycle in seven cannot drag it. Phase
-  bins are widened to whole steps so that a cycle has at most `MAX_BINS` of them (a week of
-  1-minute data uses 10-minute bins), which pools samples and keeps the work linear. Bins
-  finer than a quarter of an hour get a light [1, 2, 1] / 4 smoothing across phase: sampling
-  noise otherwise passes straight into the band. Each cycle's pattern is centred (mean 0).
+  value of each phase bin is the median of that bin across neighbouring cycles: 7 (STL's
+  default seasonal span), or four weeks' worth for short periods (28 days for the daily
+  cycle), at most 28. The median across cycles is what makes a past spike or a whole bad
+  day barely move the pattern: one cycle in seven cannot drag it. Phase bins are widened
+  to whole steps so that a cycle has at most `MAX_BINS` of them (a day of 1-minute data uses
+  2-minute bins), or `NESTED_MAX_BINS` for a period fitted beside a shorter one (the weekly
+  cycle then only carries how days differ: 30-minute bins); this pools samples and keeps
+  the work linear. Bins finer than a quarter of an hour get a light [1, 2, 1] / 4 smoothing
+  across phase: sampling noise otherwise passes straight into the band. Each cycle's
+  pattern is centred (mean 0).
 * Trend: the deseasonalised series is reduced to medians over short bins (a 168th of the
   longest period), then smoothed with robust lowess (statsmodels; bisquare weights, 3
   robustness iterations) over STL's default trend span, 1.5 p / (1 - 1.5 / seasonal_span).
@@ -29,7 +32,7 @@ periods, Bandara, Hyndman & Bergmeir 2021) and swaps each smoother for a robust,
 
 Everything is evaluated through `Decomposition.components(index)`, for the history it was
 fitted on or for any later grid: the seasonal of a later cycle is the median of the last
-`seasonal_span` cycles, the trend stays at its last level. That is the forecast the band
+cycles of its span, the trend stays at its last level. That is the forecast the band
 uses inside the window. The cost is a few bincounts, sorts of (cycles x bins x span) arrays
 and one lowess over at most a few thousand points: linear in the length of history.
 """
@@ -40,7 +43,6 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
-from numpy.lib.stride_tricks import sliding_window_view
 from statsmodels.nonparametric.smoothers_lowess import lowess
 
 from ._clock import wall_clock_ns
@@ -48,6 +50,9 @@ from ._clock import wall_clock_ns
 MAX_BINS = 1008
 SMOOTH_BELOW = pd.Timedelta("15min")
 SEASONAL_SPAN = 7
+SPAN_TIME = pd.Timedelta(weeks=4)
+MAX_SPAN = 28
+NESTED_MAX_BINS = 336
 TREND_BINS_PER_PERIOD = 168
 PASSES = 2
 LOWESS_DELTA_PER_SPAN = 40
@@ -82,11 +87,14 @@ class PhaseLayout:
     centre_ns: int  # where, inside a bin, its samples sit on average
     first_cycle: int
     n_cycles: int
+    nested: bool  # fitted beside a shorter period
 
     @classmethod
-    def fit(cls, period: pd.Timedelta, step: pd.Timedelta, wall: np.ndarray) -> PhaseLayout:
+    def fit(
+        cls, period: pd.Timedelta, step: pd.Timedelta, wall: np.ndarray, nested: bool = False
+    ) -> PhaseLayout:
         per_cycle = max(1, round(period / step))
-        factor = int(np.ceil(per_cycle / MAX_BINS))
+        factor = int(np.ceil(per_cycle / (NESTED_MAX_BINS if nested else MAX_BINS)))
         bin_ns = factor * step.value
         n_bins = int(np.ceil(period.value / bin_ns))
         cycles = wall // period.value
@@ -98,6 +106,7 @@ class PhaseLayout:
             centre_ns=int(np.mean(inside)) if inside.size else 0,
             first_cycle=int(cycles.min()) if cycles.size else 0,
             n_cycles=int(cycles.max() - cycles.min() + 1) if cycles.size else 1,
+            nested=nested,
         )
 
     def cells(self, wall: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -129,15 +138,34 @@ class PhaseLayout:
         return (1 - frac) * table[rows, left] + frac * table[rows, right]
 
 
-def seasonal_table(cells: np.ndarray, layout: PhaseLayout, span: int) -> np.ndarray:
-    """Per-cycle seasonal pattern: median across `span` neighbouring cycles, gap-filled
-    across phase, lightly smoothed when bins are fine, centred per cycle."""
-    n = cells.shape[0]
-    if n <= span:
-        table = np.repeat(nanmedian_last_axis(cells.T)[None, :], n, axis=0)
-    else:
-        windows = nanmedian_last_axis(sliding_window_view(cells, span, axis=0))
-        table = windows[np.clip(np.arange(n) - span // 2, 0, n - span)]
+def span_in_cycles(period: pd.Timedelta) -> int:
+    """Cycles each seasonal value is the median of: STL's default of 7, widened to four
+    weeks for short periods (a daily shape is better known from 28 days than from 7), at
+    most 28."""
+    return int(min(MAX_SPAN, max(SEASONAL_SPAN, round(SPAN_TIME / period))))
+
+
+def cycle_windows(n: int, span: int) -> np.ndarray:
+    """(n, k) row numbers of the k = min(n, span) cycles around each cycle, shifted inwards at
+    the ends so that the last cycles use the last k (the ones a forecast continues)."""
+    k = min(n, span)
+    lo = np.clip(np.arange(n) - k // 2, 0, n - k)
+    return lo[:, None] + np.arange(k)[None, :]
+
+
+def leave_own_out(windows: np.ndarray) -> np.ndarray | None:
+    """The same windows without each cycle's own row; None when a window has one row."""
+    n, k = windows.shape
+    if k < 2:
+        return None
+    return windows[windows != np.arange(n)[:, None]].reshape(n, k - 1)
+
+
+def seasonal_table(cells: np.ndarray, layout: PhaseLayout, rows: np.ndarray) -> np.ndarray:
+    """Per-cycle seasonal pattern: for each cycle, the median of each phase bin across the
+    cycles in `rows`; gap-filled across phase, lightly smoothed when bins are fine, and
+    centred per cycle."""
+    table = nanmedian_last_axis(cells[rows].transpose(0, 2, 1))
     table = fill_across_phase(table)
     if layout.bin_ns < SMOOTH_BELOW.value and layout.n_bins >= 3:
         table = 0.25 * np.roll(table, 1, axis=1) + 0.5 * table + 0.25 * np.roll(table, -1, axis=1)
@@ -186,7 +214,12 @@ def fit_trend(values: np.ndarray, t_ns: np.ndarray, bin_ns: int, span_ns: float)
 
 @dataclass(frozen=True)
 class Decomposition:
-    """A fitted decomposition; `components(index)` evaluates it on any UTC grid."""
+    """A fitted decomposition; `components(index)` evaluates it on any UTC grid.
+
+    `holdout` is the residual on the fitted grid with each cycle's seasonal value taken from
+    the other cycles only: what a forecast of that cycle would have missed. The band's scale
+    is measured on it, because the in-sample residual is smaller than the forecast error
+    (each median partly fits the very sample it is compared with)."""
 
     periods: list[pd.Timedelta]
     tz: str
@@ -194,6 +227,7 @@ class Decomposition:
     tables: list[np.ndarray]
     trend_x: np.ndarray
     trend_y: np.ndarray
+    holdout: np.ndarray
 
     def components(self, index: pd.DatetimeIndex) -> pd.DataFrame:
         """Columns: trend, seasonal_<label> per period, seasonal (their sum)."""
@@ -210,11 +244,7 @@ class Decomposition:
 
 
 def decompose(
-    baseline: pd.Series,
-    periods: list[pd.Timedelta],
-    *,
-    tz: str = "UTC",
-    seasonal_span: int = SEASONAL_SPAN,
+    baseline: pd.Series, periods: list[pd.Timedelta], *, tz: str = "UTC"
 ) -> Decomposition:
     """Fit trend and one seasonal per period on a regular-grid baseline (NaN = unusable)."""
     index = baseline.index
@@ -225,20 +255,36 @@ def decompose(
     periods = sorted(periods)
     longest = max(periods) if periods else pd.Timedelta(days=1)
     bin_ns = max(step.value, (longest.value // TREND_BINS_PER_PERIOD) // step.value * step.value)
-    span_ns = trend_span(periods, index[-1] - index[0] + step, seasonal_span).value
-    layouts = [PhaseLayout.fit(p, step, wall) for p in periods]
+    span_ns = trend_span(periods, index[-1] - index[0] + step, SEASONAL_SPAN).value
+    layouts = [PhaseLayout.fit(p, step, wall, nested=i > 0) for i, p in enumerate(periods)]
+    windows = [
+        cycle_windows(lay.n_cycles, span_in_cycles(p))
+        for p, lay in zip(periods, layouts, strict=True)
+    ]
     seasonals = [np.zeros(len(y)) for _ in periods]
     tables = [np.zeros((1, layout.n_bins)) for layout in layouts]
+    cells = [np.zeros((1, layout.n_bins)) for layout in layouts]
     trend = initial_trend(y, t_ns, bin_ns, longest.value)
     for _ in range(PASSES if periods else 1):
         for i, layout in enumerate(layouts):
-            others = sum((s for j, s in enumerate(seasonals) if j != i), np.zeros(len(y)))
-            cells = layout.cell_means(y - trend - others, wall)
-            tables[i] = seasonal_table(cells, layout, seasonal_span)
+            cells[i] = layout.cell_means(y - trend - others(seasonals, i, len(y)), wall)
+            tables[i] = seasonal_table(cells[i], layout, windows[i])
             seasonals[i] = layout.evaluate(tables[i], wall)
-        trend_x, trend_y = fit_trend(y - sum(seasonals, np.zeros(len(y))), t_ns, bin_ns, span_ns)
+        trend_x, trend_y = fit_trend(y - others(seasonals, -1, len(y)), t_ns, bin_ns, span_ns)
         trend = np.interp(t_ns, trend_x, trend_y)
-    return Decomposition(periods, tz, layouts, tables, trend_x, trend_y)
+    holdout = y - trend
+    for i, layout in enumerate(layouts):
+        rows = leave_own_out(windows[i])
+        if rows is None:
+            holdout = np.full(len(y), np.nan)
+            break
+        holdout = holdout - layout.evaluate(seasonal_table(cells[i], layout, rows), wall)
+    return Decomposition(periods, tz, layouts, tables, trend_x, trend_y, holdout)
+
+
+def others(seasonals: list[np.ndarray], skip: int, n: int) -> np.ndarray:
+    """Sum of the seasonal components except number `skip` (-1: all of them)."""
+    return sum((s for j, s in enumerate(seasonals) if j != skip), np.zeros(n))
 
 
 def initial_trend(y: np.ndarray, t_ns: np.ndarray, bin_ns: int, window_ns: int) -> np.ndarray:

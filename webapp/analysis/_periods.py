@@ -161,7 +161,8 @@ def strength(dec: Decomposition, baseline: pd.Series, which: int) -> float:
     parity = np.arange(cells.shape[0]) % 2
     if parity.max() == 0:
         return 0.0
-    profiles = [seasonal_table(cells[parity == k], layout, span=cells.shape[0])[0] for k in (0, 1)]
+    rows = np.arange(cells.shape[0])
+    profiles = [seasonal_table(cells, layout, rows[parity == k][None, :])[0] for k in (0, 1)]
     crossed = np.stack([profiles[1 - k] for k in parity])
     residual = remainder - layout.evaluate(crossed, wall)
     total = robust_scale(remainder) ** 2
