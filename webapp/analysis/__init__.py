@@ -16,7 +16,7 @@ from ._replay import BandRule, ThresholdRule, replay, rule_from_fields
 from ._report import ReplayReport, replay_report
 from ._robust import robust_scale
 from ._verdict import VerdictDraft, draft_verdict
-from ._whatif import sweep_grid, whatif_sweep
+from ._whatif import band_sweep, sweep_grid, whatif_sweep
 
 __all__ = [
     "ENGINE_VERSION",
@@ -29,6 +29,7 @@ __all__ = [
     "regularize",
     "robust_scale",
     "BandRule",
+    "band_sweep",
     "ReplayReport",
     "ThresholdRule",
     "VerdictDraft",

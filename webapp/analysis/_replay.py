@@ -279,6 +279,7 @@ def _firings_frame(times: pd.DatetimeIndex, starts: np.ndarray, ends: np.ndarray
 
 
 PERIOD_REFRESH = pd.Timedelta(days=7)
+PERIOD_GROWTH = 1.25
 
 
 def _local_days(times: pd.DatetimeIndex, tz: str) -> list[tuple[pd.Timestamp, pd.Timestamp]]:
@@ -291,28 +292,30 @@ def _local_days(times: pd.DatetimeIndex, tz: str) -> list[tuple[pd.Timestamp, pd
     return days
 
 
-def band_limits(
+def band_centre(
     times: pd.DatetimeIndex,
     step: pd.Timedelta,
     series: pd.Series,
     rule: BandRule,
     exclude: Iterable = (),
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Lower and upper band edge per evaluation (NaN on days without enough history).
+    """Expected value and band scale per evaluation (NaN on days without enough history);
+    the band at tolerance ``k`` is ``expected -/+ k * scale``.
 
     Each day's band is fitted on the ``rule.history`` before that day only. Choosing the
-    seasonal periods is the costly part of a fit, so they are chosen once every
-    ``PERIOD_REFRESH`` (on the history before the first day of that stretch) and kept for
-    the days after it; the decomposition and the scale are refitted every day. Neither
+    seasonal periods is the costly part of a fit, so they are chosen again only after
+    ``PERIOD_REFRESH`` or once the history reaches ``PERIOD_GROWTH`` times as far back as at
+    the last choice (a short history grows into longer cycles), each time on the history
+    before that day; the decomposition and the scale are refitted every day. Neither
     ever sees the day itself or anything later. ``exclude`` spans are left out of every
     day's baseline (they may still fire).
     """
     exclude = list(exclude)
     clean = _clean(series)
-    lower = np.full(len(times), np.nan)
-    upper = np.full(len(times), np.nan)
+    expected = np.full(len(times), np.nan)
+    scale = np.full(len(times), np.nan)
     periods: list[pd.Timedelta] | None = None
-    chosen_at = None
+    chosen_at, chosen_reach = None, pd.Timedelta(0)
     for day_start, day_end in _local_days(times, rule.tz):
         if day_start - clean.index[0] < rule.min_history:
             continue
@@ -320,10 +323,15 @@ def band_limits(
         history = clean[(clean.index >= day_start - rule.history) & (clean.index < day_start)]
         if lo == hi or len(history) < 2:
             continue
-        if chosen_at is None or day_start - chosen_at >= PERIOD_REFRESH:
+        reach = day_start - history.index[0]
+        if (
+            chosen_at is None
+            or day_start - chosen_at >= PERIOD_REFRESH
+            or reach >= PERIOD_GROWTH * chosen_reach
+        ):
             baseline = mask_excluded(regularize(history, step), exclude)
             fit = fit_baseline(baseline, tz=rule.tz)
-            periods, chosen_at = fit.periods, day_start
+            periods, chosen_at, chosen_reach = fit.periods, day_start, reach
             band = fit.band(times[lo:hi], rule.tolerance)
         else:
             band = expected_band(
@@ -334,27 +342,36 @@ def band_limits(
                 exclude=exclude,
                 periods=periods,
             )
-        lower[lo:hi] = band["lower"].to_numpy(dtype=float)
-        upper[lo:hi] = band["upper"].to_numpy(dtype=float)
-    return lower, upper
+        expected[lo:hi] = band["expected"].to_numpy(dtype=float)
+        scale[lo:hi] = band["band_scale"].to_numpy(dtype=float)
+    return expected, scale
 
 
-def evaluate(
-    series: pd.Series, rule: Rule, exclude: Iterable = ()
-) -> tuple[pd.DatetimeIndex, np.ndarray, pd.Timedelta]:
-    """(grid times, condition per evaluation, step) for any rule; ``exclude`` (spans left
-    out of baselines) matters only to band rules.
+@dataclass(frozen=True)
+class BandGrid:
+    """A band rule's evaluation grid from its first banded day: values, expected, scale."""
 
-    For a band rule the grid starts at the first day that has a band: the days before it
-    could not have fired, and counting them would understate pages per week.
-    """
-    if not isinstance(rule, ThresholdRule | BandRule):
-        raise ValueError(f"replay needs a ThresholdRule or a BandRule, got {type(rule).__name__}")
+    times: pd.DatetimeIndex
+    values: np.ndarray
+    expected: np.ndarray
+    scale: np.ndarray
+    step: pd.Timedelta
+
+    def condition(self, tolerance: float, direction: str) -> np.ndarray:
+        """Outside the band at ``tolerance`` per evaluation; no data or no band is false."""
+        with np.errstate(invalid="ignore"):
+            above = self.values > self.expected + tolerance * self.scale
+            below = self.values < self.expected - tolerance * self.scale
+        return {"above": above, "below": below, "both": above | below}[direction]
+
+
+def band_grid(series: pd.Series, rule: BandRule, exclude: Iterable = ()) -> BandGrid:
+    """The grid a band rule is evaluated on. It starts at the first day that has a band:
+    the days before it could not have fired, and counting them would understate pages
+    per week. Raises ValueError when no day has enough history."""
     times, values, step = evaluation_grid(series, rule.step)
-    if isinstance(rule, ThresholdRule):
-        return times, rule.condition(values), step
-    lower, upper = band_limits(times, step, series, rule, exclude)
-    banded = np.flatnonzero(np.isfinite(lower) & np.isfinite(upper))
+    expected, scale = band_centre(times, step, series, rule, exclude)
+    banded = np.flatnonzero(np.isfinite(expected) & np.isfinite(scale))
     if banded.size == 0:
         raise ValueError(
             f"a band rule needs at least {_format_duration(rule.min_history)} of data before "
@@ -362,11 +379,21 @@ def evaluate(
             f"{_format_duration(times[-1] - times[0] + step)}"
         )
     first = int(banded[0])
-    with np.errstate(invalid="ignore"):
-        above = values[first:] > upper[first:]
-        below = values[first:] < lower[first:]
-    condition = {"above": above, "below": below, "both": above | below}[rule.direction]
-    return times[first:], condition, step
+    return BandGrid(times[first:], values[first:], expected[first:], scale[first:], step)
+
+
+def evaluate(
+    series: pd.Series, rule: Rule, exclude: Iterable = ()
+) -> tuple[pd.DatetimeIndex, np.ndarray, pd.Timedelta]:
+    """(grid times, condition per evaluation, step) for any rule; ``exclude`` (spans left
+    out of baselines) matters only to band rules (see ``band_grid``)."""
+    if isinstance(rule, ThresholdRule):
+        times, values, step = evaluation_grid(series, rule.step)
+        return times, rule.condition(values), step
+    if isinstance(rule, BandRule):
+        grid = band_grid(series, rule, exclude)
+        return grid.times, grid.condition(rule.tolerance, rule.direction), grid.step
+    raise ValueError(f"replay needs a ThresholdRule or a BandRule, got {type(rule).__name__}")
 
 
 def replay(series: pd.Series, rule: Rule, exclude: Iterable = ()) -> pd.DataFrame:

@@ -1,6 +1,7 @@
 """A drafted verdict on an alert rule: keep, tune (with new parameters) or retire.
 
-The draft is built from a replay report and, for threshold rules, a what-if sweep:
+The draft is built from a replay report and a what-if sweep (thresholds, or for a band rule
+tolerances, by pending periods):
 - *tune* when some setting in the sweep catches every incident the current rule caught
   with fewer firings (the setting with the fewest pages wins; ties go to the shorter median
   delay, then to the setting closest to the current one). "Fewer" means at least one page
@@ -85,21 +86,45 @@ def rule_parameters(rule: Rule) -> dict[str, Any]:
     return {"kind": "band", "direction": rule.direction, "tolerance": rule.tolerance, **common}
 
 
-def _best_setting(
-    report: ReplayReport, sweep: pd.DataFrame, rule: ThresholdRule
-) -> pd.Series | None:
+def _knob(rule: Rule) -> tuple[str, float]:
+    """The swept setting's column and its current value: threshold, or band tolerance."""
+    if isinstance(rule, ThresholdRule):
+        return "threshold", rule.threshold
+    return "tolerance", float(rule.tolerance)
+
+
+def _best_setting(report: ReplayReport, sweep: pd.DataFrame, rule: Rule) -> pd.Series | None:
+    column, current = _knob(rule)
+    if column not in sweep.columns:
+        raise ValueError(f"the sweep has no {column!r} column: it was made for another rule kind")
     needed = set(report.caught)
     keeps_all = sweep["caught"].map(lambda got: needed.issubset(got))
     candidates = sweep[keeps_all]
     if candidates.empty:
         return None
-    closeness = (candidates["threshold"] - rule.threshold).abs() / max(abs(rule.threshold), 1e-12)
+    closeness = (candidates[column] - current).abs() / max(abs(current), 1e-12)
     closeness += (candidates["pending"] - rule.for_).abs() / pd.Timedelta(hours=1)
     ranked = candidates.assign(
         _delay=candidates["median_delay"].fillna(pd.Timedelta.max),
         _close=closeness,
     ).sort_values(["pages_per_week", "_delay", "_close"], kind="stable")
     return ranked.iloc[0]
+
+
+def _overlap_words(inside: int, outside: int) -> str:
+    if outside == 0:
+        return (
+            "it overlapped a recorded incident"
+            if inside == 1
+            else (f"all {inside} overlapped a recorded incident")
+        )
+    if inside == 0:
+        return (
+            "it overlapped no recorded incident"
+            if outside == 1
+            else ("none of them overlapped a recorded incident")
+        )
+    return f"{inside} overlapped a recorded incident and {outside} did not"
 
 
 def _facts(report: ReplayReport) -> list[str]:
@@ -111,7 +136,7 @@ def _facts(report: ReplayReport) -> list[str]:
     if report.n_firings:
         out.append(
             f"The median firing lasted {_duration(report.median_duration)}; "
-            f"{report.inside} overlapped a recorded incident and {report.outside} did not."
+            f"{_overlap_words(report.inside, report.outside)}."
         )
     if report.flapping:
         out.append(
@@ -138,8 +163,9 @@ def _facts(report: ReplayReport) -> list[str]:
 
 
 def draft_verdict(report: ReplayReport, sweep: pd.DataFrame | None, rule: Rule) -> VerdictDraft:
-    """Draft keep / tune / retire for ``rule`` from its replay ``report`` and what-if ``sweep``
-    (None, or ignored, for band rules). See the module docstring for the decision."""
+    """Draft keep / tune / retire for ``rule`` from its replay ``report`` and its what-if
+    ``sweep`` (``whatif_sweep`` for a threshold rule, ``band_sweep`` for a band rule; None
+    drafts without a tuning suggestion). See the module docstring for the decision."""
     if not isinstance(rule, ThresholdRule | BandRule):
         raise ValueError(
             f"draft_verdict needs a ThresholdRule or a BandRule, got {type(rule).__name__}"
@@ -149,7 +175,7 @@ def draft_verdict(report: ReplayReport, sweep: pd.DataFrame | None, rule: Rule) 
     suggestion: Literal["keep", "tune", "retire"] = "keep"
     parameters = current
     best = None
-    if isinstance(rule, ThresholdRule) and sweep is not None and len(sweep):
+    if sweep is not None and len(sweep):
         best = _best_setting(report, sweep, rule)
     if report.n_firings and not report.caught and report.outside >= RETIRE_MIN_FALSE:
         suggestion, parameters = "retire", {}
@@ -161,13 +187,14 @@ def draft_verdict(report: ReplayReport, sweep: pd.DataFrame | None, rule: Rule) 
         best is not None and report.caught and _saves_enough(report.n_firings, int(best["firings"]))
     ):
         suggestion = "tune"
+        column, _ = _knob(rule)
         parameters = {
             **current,
-            "threshold": float(best["threshold"]),
+            column: float(best[column]),
             "pending_seconds": int(best["pending"].total_seconds()),
         }
         sentences.append(
-            f"With threshold {best['threshold']:g} and a pending period of "
+            f"With {column} {best[column]:g} and a pending period of "
             f"{_format_duration(best['pending'])}, it would have fired "
             f"{_plural(int(best['firings']), 'time')} ({best['pages_per_week']:.1f} per week) "
             f"and still caught every incident the current rule caught "
