@@ -1,0 +1,74 @@
+"""A real wheel, installed into a fresh virtual environment, serves pages.
+
+``templates/``, ``static/`` and ``migrations/`` live at the top of the repository; the
+wheel must carry them inside the package, or an installed whyfired cannot start.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+import textwrap
+import zipfile
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[1]
+
+CHECK = textwrap.dedent(
+    """
+    import sys
+    from pathlib import Path
+
+    import webapp
+    from webapp import create_app, resource_dir
+
+    prefix = Path(sys.prefix).resolve()
+    package = Path(webapp.__file__).resolve().parent
+    assert prefix in package.parents, f"webapp imported from {package}, not the venv"
+    for name in ("templates", "static", "migrations"):
+        assert resource_dir(name) == package / name, f"{name} not shipped in the wheel"
+
+    app = create_app({"TESTING": True, "DATABASE_URL": "sqlite:///" + sys.argv[1]})
+    client = app.test_client()
+    page = client.get("/")
+    assert page.status_code == 200, page.status_code
+    assert b"<html" in page.data.lower()
+    css = client.get("/static/whyfired.css")
+    assert css.status_code == 200 and len(css.data) > 100, css.status_code
+    print("served", len(page.data), "bytes of HTML")
+    """
+)
+
+
+def run(*args: str | Path, cwd: Path) -> subprocess.CompletedProcess[str]:
+    result = subprocess.run(
+        [str(a) for a in args], cwd=cwd, capture_output=True, text=True, timeout=180
+    )
+    assert result.returncode == 0, f"{args} failed:\n{result.stdout}\n{result.stderr}"
+    return result
+
+
+@pytest.mark.slow
+def test_an_installed_wheel_ships_templates_static_and_migrations(tmp_path):
+    dist = tmp_path / "dist"
+    run(
+        sys.executable, "-m", "build", "--wheel", "--no-isolation", "--outdir", dist, ROOT, cwd=ROOT
+    )
+    (wheel,) = dist.glob("whyfired-*.whl")
+    names = zipfile.ZipFile(wheel).namelist()
+    for shipped in ("webapp/templates/base.html", "webapp/migrations/env.py"):
+        assert shipped in names, f"{shipped} missing from {wheel.name}"
+
+    venv = tmp_path / "venv"
+    run(sys.executable, "-m", "venv", "--system-site-packages", venv, cwd=tmp_path)
+    python = venv / "bin" / "python"
+    run(python, "-m", "pip", "install", "--no-deps", "--no-index", "--quiet", wheel, cwd=tmp_path)
+
+    elsewhere = tmp_path / "elsewhere"  # not the checkout, so only the wheel can be imported
+    elsewhere.mkdir()
+    served = run(python, "-c", CHECK, tmp_path / "store.sqlite", cwd=elsewhere)
+    assert "served" in served.stdout
+    helped = run(venv / "bin" / "whyfired", "--help", cwd=elsewhere)
+    assert "import" in helped.stdout and "demo" in helped.stdout
