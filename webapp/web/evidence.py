@@ -63,21 +63,38 @@ def figure_json(fig: go.Figure) -> Markup:
     return Markup(text.replace("&", "\\u0026").replace("<", "\\u003c").replace(">", "\\u003e"))
 
 
-_cache: OrderedDict[tuple, Evidence] = OrderedDict()
-_cache_lock = threading.Lock()
+class _Recent:
+    """A small least-recently-used cache shared by the requests of one process."""
+
+    def __init__(self, size: int):
+        self.size = size
+        self.items: OrderedDict[tuple, Any] = OrderedDict()
+        self.lock = threading.Lock()
+
+    def get(self, key: tuple, build: Callable[[], Any]) -> Any:
+        with self.lock:
+            if key in self.items:
+                self.items.move_to_end(key)
+                return self.items[key]
+        value = build()
+        with self.lock:
+            self.items[key] = value
+            while len(self.items) > self.size:
+                self.items.popitem(last=False)
+        return value
+
+    def clear(self) -> None:
+        with self.lock:
+            self.items.clear()
 
 
-def _cached(key: tuple, build: Callable[[], Evidence]) -> Evidence:
-    with _cache_lock:
-        if key in _cache:
-            _cache.move_to_end(key)
-            return _cache[key]
-    evidence = build()
-    with _cache_lock:
-        _cache[key] = evidence
-        while len(_cache) > CACHE_SIZE:
-            _cache.popitem(last=False)
-    return evidence
+_explanations = _Recent(CACHE_SIZE)
+_points = _Recent(2)  # moving a control re-explains without reading the points again
+
+
+def clear_caches() -> None:
+    _explanations.clear()
+    _points.clear()
 
 
 def data_version(session: Session, series: Any) -> tuple:
@@ -86,6 +103,7 @@ def data_version(session: Session, series: Any) -> tuple:
 
     ids = [row.id for row in store_imports.list_imports(session)]
     return (
+        session.get_bind().url.render_as_string(hide_password=True),
         getattr(series, "point_count", None),
         getattr(series, "first_ts", None),
         getattr(series, "last_ts", None),
@@ -97,18 +115,25 @@ def data_version(session: Session, series: Any) -> tuple:
 def live_evidence(
     session: Session, series: Any, query: ExplainQuery, stored_exclusions: Sequence[Span]
 ) -> Evidence:
-    exclude = tuple(query.exclude) + tuple(stored_exclusions)
-    key = (series.id, data_version(session, series), query, exclude)
-    return _cached(key, lambda: _compute(session, series, query, list(exclude)))
-
-
-def _compute(session: Session, series: Any, query: ExplainQuery, exclude: list[Span]) -> Evidence:
-    from webapp.analysis import explain, past_weeks_overlay
     from webapp.store import series as store_series
 
+    exclude = tuple(query.exclude) + tuple(stored_exclusions)
+    version = data_version(session, series)
+    start, end = query.window[0] - query.history, query.window[1]
+    values = _points.get(
+        (series.id, version, start, end),
+        lambda: store_series.read_series(session, series.id, start, end),
+    )
+    return _explanations.get(
+        (series.id, version, query, exclude),
+        lambda: _compute(series, values, query, list(exclude)),
+    )
+
+
+def _compute(series: Any, values: pd.Series, query: ExplainQuery, exclude: list[Span]) -> Evidence:
+    from webapp.analysis import explain, past_weeks_overlay
+
     evidence = Evidence(series_key=series.key, unit=series.unit, tz=query.tz)
-    start, end = query.window
-    values = store_series.read_series(session, series.id, start - query.history, end)
     try:
         exp = explain(
             values,

@@ -9,6 +9,7 @@ Jinja environment, so the CLI can call it without a running app.
 from __future__ import annotations
 
 import datetime as dt
+import json
 import os
 import re
 from dataclasses import dataclass, field
@@ -63,10 +64,12 @@ class Evidence:
 
 
 def evidence_figures(session: Session, attachment: ReviewExplanation, tz: str) -> list:
-    """The frozen figures of one attachment, drawn from the stored frame and overlay."""
+    """The frozen figures of one attachment, drawn from the stored frame and overlay, on
+    the time zone the explanation was made in (``tz`` when it names none)."""
     from webapp.store import explanations
 
     row = attachment.explanation
+    tz = (row.parameters or {}).get("tz") or tz  # drawn on the clock it was explained in
     series = session.get(Series, row.series_id) if row.series_id else None
     unit = series.unit if series else None
     frame = explanations.load_frame(row)
@@ -104,11 +107,12 @@ def reproduction(row: Any) -> dict[str, Any]:
     out: dict[str, Any] = {
         "explanation": f"#{row.id}",
         "series": row.series_key,
-        "window": window,
         "engine version": row.engine_version,
     }
     for name, value in sorted((row.parameters or {}).items()):
-        out[name] = value if isinstance(value, str | int | float) else repr(value)
+        scalar = value is None or isinstance(value, str | int | float)
+        out[name] = value if scalar else json.dumps(value)
+    out["window"] = window  # the stored window, in words, over the parameters' copy
     return out
 
 

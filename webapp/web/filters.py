@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+import re
 from functools import cache
 from typing import Any
 from zoneinfo import ZoneInfo, available_timezones
@@ -77,14 +78,24 @@ def percent(value: Any) -> str:
     return f"{100 * float(value):.0f}%"
 
 
-def fact_value(value: Any) -> str:
-    """A fact from ``exp.facts`` (numbers, times, lists) as one short string."""
+ISO_TIME = re.compile(r"^\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}(:\d{2}(\.\d+)?)?([+-]\d{2}:\d{2}|Z)$")
+
+
+def fact_value(value: Any, tz: str = "UTC", name: str = "") -> str:
+    """A fact from ``exp.facts`` (numbers, times, lists) as one short string; times in
+    ``tz``, and a count of seconds (a name ending ``_seconds``) as a duration."""
     if isinstance(value, list | tuple):
-        return ", ".join(fact_value(v) for v in value) or "—"
+        return ", ".join(fact_value(v, tz) for v in value) or "—"
     if isinstance(value, dict):
-        return "; ".join(f"{k}: {fact_value(v)}" for k, v in value.items()) or "—"
-    if isinstance(value, dt.datetime | pd.Timestamp):
-        return local_time(value, with_zone=True)
+        return "; ".join(f"{k}: {fact_value(v, tz)}" for k, v in value.items()) or "—"
+    if isinstance(value, dt.datetime | pd.Timestamp) or (
+        isinstance(value, str) and ISO_TIME.match(value)
+    ):
+        return local_time(value, tz, with_zone=True)
+    if name.endswith("_seconds") and isinstance(value, int | float) and not isinstance(value, bool):
+        return duration(value)
+    if value is None or value == "":
+        return "—"
     return number(value)
 
 
