@@ -85,7 +85,7 @@ def test_edit_saves(client, csrf, review, session) -> None:
 def test_edit_form_has_autosave_wired(client, review) -> None:
     text = client.get(f"/reviews/{review.id}/edit").text
     assert f'hx-post="/reviews/{review.id}/autosave"' in text
-    assert 'hx-trigger="keyup changed delay:2s, change delay:2s"' in text
+    assert 'hx-trigger="keyup changed delay:2s, paste delay:2s, change delay:2s"' in text
 
 
 def test_autosave_stores_the_draft(client, csrf, review, session) -> None:
