@@ -31,13 +31,14 @@ from __future__ import annotations
 import hashlib
 import os
 import tempfile
+from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from webapp.analysis import ThresholdRule, replay
+from webapp.analysis import replay, rule_from_fields
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports.keys import parse_series_key, series_key
 
@@ -255,49 +256,43 @@ def _parsed(times: pd.DatetimeIndex, data: dict[str, np.ndarray], seed: int) -> 
     )
 
 
-def _rules() -> list[tuple[dict, ThresholdRule]]:
-    latency = ThresholdRule(above=800.0, for_=pd.Timedelta(minutes=5), step=STEP)
-    queue = ThresholdRule(above=150.0, for_=pd.Timedelta(minutes=10), step=STEP)
+def _rules() -> list[dict]:
+    """The two alert rules as stored alert-rule fields (``series_key`` names the series)."""
     common = {"kind": "threshold", "direction": "above", "tolerance": None, "step_seconds": 60}
     return [
-        (
-            {
-                **common,
-                "name": "Checkout p95 latency high on api-4",
-                "series_key": LATENCY_RULE_KEY,
-                "metric": "checkout.latency_p95",
-                "label_filter": {"host": "api-4"},
-                "threshold": 800.0,
-                "pending_seconds": 300,
-                "description": "Riders wait at the reader when checkout p95 passes 800 ms; "
-                "api-4 also serves the payment callbacks.",
-            },
-            latency,
-        ),
-        (
-            {
-                **common,
-                "name": "Payment queue backing up on api-1",
-                "series_key": QUEUE_RULE_KEY,
-                "metric": "payment.queue_depth",
-                "label_filter": {"host": "api-1"},
-                "threshold": 150.0,
-                "pending_seconds": 600,
-                "description": "Meant to catch a stuck payment worker before riders notice.",
-            },
-            queue,
-        ),
+        {
+            **common,
+            "name": "Checkout p95 latency high on api-4",
+            "series_key": LATENCY_RULE_KEY,
+            "metric": "checkout.latency_p95",
+            "label_filter": {"host": "api-4"},
+            "threshold": 800.0,
+            "pending_seconds": 300,
+            "description": "Riders wait at the reader when checkout p95 passes 800 ms; "
+            "api-4 also serves the payment callbacks.",
+        },
+        {
+            **common,
+            "name": "Payment queue backing up on api-1",
+            "series_key": QUEUE_RULE_KEY,
+            "metric": "payment.queue_depth",
+            "label_filter": {"host": "api-1"},
+            "threshold": 150.0,
+            "pending_seconds": 600,
+            "description": "Meant to catch a stuck payment worker before riders notice.",
+        },
     ]
 
 
-def _pages(demo_series, rules: list[tuple[dict, ThresholdRule]]) -> list[dict]:
+def _pages(demo_series: Callable[[str], pd.Series], rules: list[dict]) -> list[dict]:
+    """One page per firing of each rule replayed over its series."""
     notes = {
         LATENCY_RULE_KEY: "Acknowledged by the on-call engineer.",
         QUEUE_RULE_KEY: "Weekly fare-settlement batch; acknowledged, no action taken.",
     }
     pages = []
-    for fields, rule in rules:
-        key = fields["series_key"]
+    for fields in rules:
+        key, rule = fields["series_key"], rule_from_fields(fields)
         for start, end in replay(demo_series(key), rule).itertuples(index=False):
             pages.append(
                 {
@@ -375,7 +370,7 @@ def build_demo(seed: int = 7) -> Demo:
     ]
     return Demo(
         parsed=parsed,
-        rules=[fields for fields, _ in rules],
+        rules=rules,
         pages=_pages(demo_series, rules),
         incidents=_incidents(),
         excluded=excluded,
