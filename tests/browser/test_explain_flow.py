@@ -25,7 +25,7 @@ def demo_csv(tmp_path_factory):
 def band_upper(tab) -> list[float]:
     """The upper edge of the expected band as plotted (trace 1 of the band figure)."""
     return tab.evaluate(
-        """() => Array.from(document.querySelector('.panel-band .js-plotly-plot').data[1].y)"""
+        """() => Array.from(document.querySelector('.panel-band .js-plotly-plot')._fullData[1].y)"""
     )
 
 
@@ -65,7 +65,7 @@ def test_import_explain_tolerance_save_reopen(live_server, page, screenshot, dem
             tab.keyboard.press("ArrowRight")
     tab.wait_for_function(
         "before => { const el = document.querySelector('.panel-band .js-plotly-plot');"
-        " return el && Array.from(el.data[1].y).join() !== before.join(); }",
+        " return el && el._fullData && Array.from(el._fullData[1].y).join() !== before.join(); }",
         arg=before,
     )
     after = band_upper(tab)

@@ -98,7 +98,7 @@ def page_context() -> dict[str, Any]:
 
     examples_dir = resource_dir("static") / "examples"
     examples = (
-        sorted(p.name for p in examples_dir.glob("*") if p.is_file())
+        sorted(p.name for p in examples_dir.glob("*") if p.is_file() and accepted_type(p.name))
         if examples_dir.is_dir()
         else []
     )
