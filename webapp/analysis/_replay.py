@@ -80,7 +80,11 @@ class ThresholdRule:
         if (self.above is None) == (self.below is None):
             raise ValueError("a threshold rule needs exactly one of 'above' and 'below'")
         limit = self.above if self.above is not None else self.below
-        if not isinstance(limit, int | float) or not math.isfinite(limit):
+        if (
+            isinstance(limit, bool)
+            or not isinstance(limit, int | float)
+            or not math.isfinite(limit)
+        ):
             raise ValueError(f"the threshold must be a finite number, got {limit!r}")
         _check_timing(self, self.for_, self.step)
 
@@ -225,7 +229,9 @@ def evaluation_grid(
                 "the series has a single sample: give the rule an evaluation step to replay it"
             )
         step = infer_step(clean.index)
-    step = pd.Timedelta(step)
+    step = _as_timedelta(step, "the evaluation step")
+    if step <= pd.Timedelta(0):
+        raise ValueError(f"the evaluation step must be positive, got {step}")
     step_ns = int(step.value)
     ns = clean.index.as_unit("ns").asi8
     bucket = -(-ns // step_ns)
@@ -265,17 +271,19 @@ def fire_indices(
     return run_starts[keep] + k, run_ends[keep]
 
 
+def firing_times(
+    times: pd.DatetimeIndex, starts: np.ndarray, ends: np.ndarray
+) -> tuple[pd.DatetimeIndex, pd.DatetimeIndex]:
+    """Start and end timestamps of firings given as grid indices; an end index past the grid
+    (still firing when the data ends) becomes NaT."""
+    last = len(times) - 1
+    end_times = times[np.minimum(ends, last)].where(ends <= last)
+    return times[starts], end_times
+
+
 def _firings_frame(times: pd.DatetimeIndex, starts: np.ndarray, ends: np.ndarray) -> pd.DataFrame:
-    n = len(times)
-    end_times = pd.DatetimeIndex(
-        [times[i] if i < n else pd.NaT for i in ends] if len(ends) else [], tz="UTC"
-    ).as_unit("ns")
-    return pd.DataFrame(
-        {
-            "start": pd.DatetimeIndex(times[starts]).as_unit("ns"),
-            "end": end_times,
-        }
-    )
+    start_times, end_times = firing_times(times, starts, ends)
+    return pd.DataFrame({"start": start_times, "end": end_times})
 
 
 PERIOD_REFRESH = pd.Timedelta(days=7)

@@ -23,7 +23,14 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from webapp.analysis._replay import Rule, evaluate, fire_indices, pending_samples, runs
+from webapp.analysis._replay import (
+    Rule,
+    evaluate,
+    fire_indices,
+    firing_times,
+    pending_samples,
+    runs,
+)
 
 DEFAULT_LEAD = pd.Timedelta(minutes=15)
 DEFAULT_FLAP_GAP = pd.Timedelta(hours=1)
@@ -214,7 +221,7 @@ def replay_report(
     data_end_ns = int(grid_ns[-1]) + step_ns
     start_ns = grid_ns[first_idx]
     ongoing = end_idx >= len(times)
-    stop_ns = np.where(ongoing, data_end_ns, grid_ns[np.minimum(end_idx, len(times) - 1)])
+    stop_ns = int(grid_ns[0]) + end_idx.astype(np.int64) * step_ns  # the data's end if ongoing
 
     inc_start, inc_end = _bounds_ns(windows)
     incident_of = np.full(start_ns.size, -1)
@@ -224,10 +231,11 @@ def replay_report(
     caught, first = catches(start_ns, inc_start, inc_end, lead)
 
     durations = pd.to_timedelta(stop_ns - start_ns, unit="ns")
+    start_times, end_times = firing_times(times, first_idx, end_idx)
     firings = pd.DataFrame(
         {
-            "start": pd.DatetimeIndex(start_ns, tz="UTC").as_unit("ns"),
-            "end": pd.Series(pd.DatetimeIndex(stop_ns, tz="UTC").as_unit("ns")).where(~ongoing),
+            "start": start_times,
+            "end": end_times,
             "duration": durations,
             "ongoing": ongoing,
             "incident": pd.array([i if i >= 0 else None for i in incident_of], dtype="Int64"),
