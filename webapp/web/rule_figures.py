@@ -58,6 +58,11 @@ def replay_figure(
         )
     )
     end_of_data = series.index[-1] if len(series) else None
+    top = float(np.nanmax(values)) * 1.06 if len(series) else 1.0
+    _marks(fig, pd.DatetimeIndex(firings["start"]), top, tz, "firing starts", "triangle-down",
+           palette.OUT_OF_BAND)  # fmt: skip
+    starts = pd.DatetimeIndex([start for start, _ in incidents])
+    _marks(fig, starts, top * 1.05, tz, "incident starts", "square", palette.BLUE)
     for row in firings.head(MAX_SHADES).itertuples(index=False):
         stop = row.end if not pd.isna(row.end) else end_of_data
         fig.add_vrect(
@@ -82,9 +87,26 @@ def replay_figure(
         fig.add_hline(
             y=threshold, line={"color": palette.OUT_OF_BAND, "dash": "dash", "width": 1.4}
         )
-    _layout(fig, 340, f"time ({tz}); firings shaded vermillion, incidents blue", unit or "value")
+    _layout(fig, 340, f"time ({tz}); firings and incidents shaded", unit or "value")
     fig.update_xaxes(type="date")
     return fig
+
+
+def _marks(
+    fig: go.Figure, at: pd.DatetimeIndex, y: float, tz: str, name: str, symbol: str, colour: str
+) -> None:
+    """Markers along the top edge, so short firings stay visible over weeks of history."""
+    if len(at):
+        fig.add_trace(
+            go.Scatter(
+                x=wall_clock(at.tz_convert("UTC"), tz),
+                y=np.full(len(at), y),
+                mode="markers",
+                name=name,
+                marker={"symbol": symbol, "size": 10, "color": colour},
+                hovertemplate=f"{name}: %{{x|%Y-%m-%d %H:%M}}<extra></extra>",
+            )
+        )
 
 
 def sweep_figure(
@@ -129,10 +151,17 @@ def sweep_figure(
                     f"pending {_short(row['pending'])}<extra></extra>",
                 )
             )
-    _layout(fig, 380, "pages per week", "incidents caught")
+    _layout(fig, 380, "pages per week (double-click to see every setting)", "incidents caught")
     fig.update_yaxes(rangemode="tozero", dtick=1)
-    fig.update_xaxes(rangemode="tozero")
+    fig.update_xaxes(range=[0, _pages_range(sweep, current, drafted)])
     return fig
+
+
+def _pages_range(sweep: pd.DataFrame, *points: tuple[float, pd.Timedelta] | None) -> float:
+    """Open on the settings near the current rule: the rarely paging ones are the choices."""
+    near = [float(row["pages_per_week"]) for p in points if (row := _row(sweep, p)) is not None]
+    limit = max([2.0, *(4 * v for v in near)])
+    return min(limit, float(sweep["pages_per_week"].max()) * 1.05 or limit)
 
 
 def _row(sweep: pd.DataFrame, point: tuple[float, pd.Timedelta] | None) -> pd.Series | None:
