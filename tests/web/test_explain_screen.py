@@ -229,3 +229,27 @@ def test_keep_exclusion_stores_it_for_every_baseline(client, csrf, stored, windo
     assert "exclude=" not in response.headers["Location"]
     body = client.get(response.headers["Location"]).get_data(as_text=True)
     assert "Stored for this series" in body and "2026-11-20 00:00" in body
+
+
+def test_saved_explanation_links_back_to_a_live_explain_with_its_parameters(
+    client, csrf, stored, window
+):
+    form = {
+        "csrf_token": csrf,
+        "series": stored,
+        "start": window[0].isoformat(),
+        "end": window[1].isoformat(),
+        "tolerance": "4.5",
+        "weeks": "2",
+        "exclude": "2026-11-20T00:00:00+00:00/2026-11-21T00:00:00+00:00",
+    }
+    saved = client.get(client.post("/explain/save", data=form).headers["Location"])
+    body = saved.get_data(as_text=True)
+    link = re.search(r'href="(/explain\?[^"]+)"[^>]*>Explain again', body).group(1)
+    from html import unescape
+    from urllib.parse import parse_qs, urlparse
+
+    args = parse_qs(urlparse(unescape(link)).query)
+    assert args["tolerance"] == ["4.5"] and args["weeks"] == ["2"]
+    assert args["exclude"] == ["2026-11-20T00:00:00+00:00/2026-11-21T00:00:00+00:00"]
+    assert client.get(unescape(link)).status_code == 200

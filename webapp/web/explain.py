@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 from dataclasses import replace
 from typing import Any
 
@@ -217,7 +218,8 @@ def frozen(row: Any) -> ev.Evidence:
 def saved_list() -> str:
     from webapp.store import explanations
 
-    rows = explanations.list_explanations(db.get_session())
+    series_id = parse_int(request.args.get("series"), "series number")
+    rows = explanations.list_explanations(db.get_session(), series_id=series_id)
     return render("explain/saved_list.html", "explain/saved_list.html", rows=rows)
 
 
@@ -229,10 +231,34 @@ def saved(explanation_id: int) -> str:
         "explain/saved.html",
         "explain/saved.html",
         row=row,
+        again=again_args(row, evidence.tz),
         evidence=evidence,
         panels=ev.build_panels(evidence),
         fine=lambda name: url_for("explain.saved_figure", explanation_id=row.id, name=name),
     )
+
+
+def again_args(row: Any, tz: str) -> dict[str, Any] | None:
+    """The live Explain query closest to a saved explanation's parameters."""
+    if row.series_id is None:
+        return None
+    params = row.parameters or {}
+    args: dict[str, Any] = {
+        "series": row.series_id,
+        "start": row.window_start.isoformat(),
+        "end": row.window_end.isoformat(),
+        "tz": tz,
+    }
+    if params.get("tolerance") is not None:
+        args["tolerance"] = params["tolerance"]
+    with contextlib.suppress(KeyError, ValueError, TypeError):
+        weeks = float(params["history_seconds"]) / (7 * 86400)
+        args["weeks"] = max(1, min(8, round(weeks)))
+    with contextlib.suppress(KeyError, ValueError, TypeError):
+        args["exclude"] = [f"{start}/{end}" for start, end in params["exclude"]]
+    if row.page_id is not None:
+        args["page"] = row.page_id
+    return args
 
 
 @bp.get("/explanations/<int:explanation_id>/figure/<name>")
