@@ -171,3 +171,28 @@ def test_list_imports_is_newest_first(engine, make_parsed):
     ids = [record(engine, make_parsed(["m"], [i], [1.0], f"{i}.csv")).import_id for i in range(3)]
     with db.session_scope(engine) as s:
         assert [i.id for i in store_imports.list_imports(s)] == ids[::-1]
+
+
+def test_figures_kept_on_series_rows_match_a_recount(engine, make_parsed):
+    from webapp.store import stats
+
+    record(engine, make_parsed(["a"] * 3 + ["b"] * 2, [0, MIN, 3 * MIN, 0, 5 * MIN], range(5)))
+    record(engine, make_parsed(["a", "c"], [10 * MIN, 0], [1.0, 2.0], "more.csv"))
+    with db.session_scope(engine) as s:
+        kept = [
+            (r.key, r.point_count, r.first_ts, r.last_ts, r.step_ms)
+            for r in s.scalars(select(Series).order_by(Series.key))
+        ]
+        stats.refresh(s, list(s.scalars(select(Series))))
+        recounted = [
+            (r.key, r.point_count, r.first_ts, r.last_ts, r.step_ms)
+            for r in s.scalars(select(Series).order_by(Series.key))
+        ]
+    assert kept == recounted
+    assert kept[0] == ("a", 4, 0, 10 * MIN, 2 * MIN)  # spacings 1, 2 and 7 minutes
+
+
+def test_repeated_pairs_in_a_table_keep_the_last_value(engine, make_parsed):
+    summary = record(engine, make_parsed(["m", "m", "m"], [0, 0, MIN], [1.0, 2.0, 3.0]))
+    assert (summary.points, summary.inserted) == (2, 2)
+    assert [v for _sid, _ts, v, _imp in snapshot(engine)["points"]] == [2.0, 3.0]

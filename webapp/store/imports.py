@@ -18,7 +18,6 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Iterator, Sequence
 from dataclasses import asdict, dataclass, field
-from itertools import repeat
 from typing import Any
 
 import numpy as np
@@ -29,7 +28,7 @@ from sqlalchemy.orm import Session
 from webapp.imports._types import ParsedImport
 from webapp.imports.keys import parse_series_key
 from webapp.store import stats
-from webapp.store._sql import chunks
+from webapp.store._sql import chunks, placeholder
 from webapp.store.models import (
     AlertRule,
     ExcludedPeriod,
@@ -159,7 +158,8 @@ def _record(session: Session, parsed: ParsedImport, duplicate_of: int | None) ->
     _write_points(session, imp.id, series_ids[fresh], ts[fresh], values[fresh], upsert=False)
     keep = ~fresh
     _write_points(session, imp.id, series_ids[keep], ts[keep], values[keep], upsert=True)
-    stats.refresh(session, list(series.values()))
+    stats.refresh(session, [series[k] for k in keys if k not in created])
+    stats.set_from_points({series[k].id: series[k] for k in created}, series_ids[fresh], ts[fresh])
     inserted = sum(s.point_count for s in series.values()) - before
 
     summary = ImportSummary(
@@ -237,12 +237,14 @@ def _sorted_last_wins(
     return series_ids[last], ts[last], values[last]
 
 
-def _points_sql(paramstyle: str, *, upsert: bool) -> str:
-    marks = {"qmark": "?", "format": "%s", "pyformat": "%s"}
-    if paramstyle not in marks:
-        raise NotImplementedError(f"bulk import needs a qmark or format driver, not {paramstyle}")
-    p = marks[paramstyle]
-    sql = f"INSERT INTO points (series_id, ts, value, import_id) VALUES ({p}, {p}, {p}, {p})"
+def _points_sql(paramstyle: str, import_id: int, *, upsert: bool) -> str:
+    """The bulk statement; the import id is written into it (one integer we made), which
+    saves binding it on every row."""
+    p = placeholder(paramstyle)
+    sql = (
+        "INSERT INTO points (series_id, ts, value, import_id) "
+        f"VALUES ({p}, {p}, {p}, {int(import_id)})"
+    )
     if upsert:
         sql += (
             " ON CONFLICT (series_id, ts) DO UPDATE"
@@ -266,30 +268,29 @@ def _write_points(
     if not len(ts):
         return
     connection = session.connection()
-    sql = _points_sql(connection.dialect.paramstyle, upsert=upsert)
+    sql = _points_sql(connection.dialect.paramstyle, import_id, upsert=upsert)
     cursor = connection.connection.cursor()
     try:
-        for batch in _batches(import_id, series_ids, ts, values):
+        for batch in _batches(series_ids, ts, values):
             _write_batch(cursor, sql, batch)
     finally:
         cursor.close()
 
 
 def _batches(
-    import_id: int, series_ids: np.ndarray, ts: np.ndarray, values: np.ndarray
-) -> Iterator[Iterable[tuple[int, int, float, int]]]:
+    series_ids: np.ndarray, ts: np.ndarray, values: np.ndarray
+) -> Iterator[Iterable[tuple[int, int, float]]]:
     for start in range(0, len(ts), BATCH_ROWS):
         stop = start + BATCH_ROWS
         yield zip(
             series_ids[start:stop].tolist(),
             ts[start:stop].tolist(),
             values[start:stop].tolist(),
-            repeat(import_id),
-            strict=False,
+            strict=True,
         )
 
 
-def _write_batch(cursor: Any, sql: str, rows: Iterable[tuple[int, int, float, int]]) -> None:
+def _write_batch(cursor: Any, sql: str, rows: Iterable[tuple[int, int, float]]) -> None:
     cursor.executemany(sql, rows)
 
 

@@ -11,7 +11,7 @@ import pandas as pd
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from webapp.store._sql import chunks
+from webapp.store._sql import chunks, placeholder
 from webapp.store.models import Point, Series
 from webapp.store.times import from_ms, to_ms
 
@@ -91,15 +91,26 @@ def read_series(session: Session, series_id: int, start: Any = None, end: Any = 
     """The points of one series between ``start`` and ``end`` (both inclusive, either open).
 
     Returns float64 values on a sorted ``datetime64[ns, UTC]`` index named ``ts``; the
-    Series is named by the series key. Raises LookupError for an unknown id.
+    Series is named by the series key. Raises LookupError for an unknown id. Reads through
+    the driver's cursor: a few weeks of 1-minute data are tens of thousands of rows.
     """
     row = _require(session, series_id)
-    stmt = select(Point.ts, Point.value).where(Point.series_id == series_id).order_by(Point.ts)
+    connection = session.connection()
+    p = placeholder(connection.dialect.paramstyle)
+    sql = f"SELECT ts, value FROM points WHERE series_id = {p}"
+    params: list[int] = [series_id]
     if start is not None:
-        stmt = stmt.where(Point.ts >= to_ms(start))
+        sql += f" AND ts >= {p}"
+        params.append(to_ms(start))
     if end is not None:
-        stmt = stmt.where(Point.ts <= to_ms(end))
-    rows = session.execute(stmt).all()
+        sql += f" AND ts <= {p}"
+        params.append(to_ms(end))
+    cursor = connection.connection.cursor()
+    try:
+        cursor.execute(sql + " ORDER BY ts", params)
+        rows = cursor.fetchall()
+    finally:
+        cursor.close()
     ts = np.fromiter((r[0] for r in rows), dtype=np.int64, count=len(rows))
     values = np.fromiter((r[1] for r in rows), dtype=np.float64, count=len(rows))
     index = pd.DatetimeIndex(ts.astype("datetime64[ms]").astype("datetime64[ns]"), name="ts")
