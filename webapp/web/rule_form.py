@@ -1,0 +1,143 @@
+"""The alert-rule form: typed text to stored alert-rule fields, one message per field."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from typing import Any
+
+import pandas as pd
+from sqlalchemy.orm import Session
+
+from webapp.store import series as store_series
+from webapp.store.models import AlertRule
+
+KINDS = ("threshold", "band")
+DIRECTIONS = {"threshold": ("above", "below"), "band": ("both", "above", "below")}
+
+
+class RuleFormInvalid(ValueError):
+    def __init__(self, errors: Mapping[str, str]) -> None:
+        self.errors = dict(errors)
+        super().__init__("; ".join(self.errors.values()))
+
+
+def parse_duration(text: str, field: str, errors: dict[str, str], *, optional: bool) -> int | None:
+    """Seconds from ``10min``, ``90s``, ``1h`` or a bare number of seconds."""
+    text = (text or "").strip()
+    if not text:
+        if not optional:
+            return 0
+        return None
+    try:
+        delta = pd.Timedelta(float(text), unit="s") if _is_number(text) else pd.Timedelta(text)
+    except (ValueError, TypeError):
+        errors[field] = f"{text!r} is not a duration; write e.g. 10min, 90s or 1h."
+        return None
+    if pd.isna(delta) or delta < pd.Timedelta(0) or (optional and delta == pd.Timedelta(0)):
+        errors[field] = "Give a duration above zero." if optional else "It cannot be negative."
+        return None
+    return int(delta.total_seconds())
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
+
+
+def parse_labels(text: str, errors: dict[str, str]) -> dict[str, str]:
+    labels = {}
+    for part in (text or "").split(","):
+        if not part.strip():
+            continue
+        name, sep, value = part.partition("=")
+        if not sep or not name.strip():
+            errors["label_filter"] = f"{part.strip()!r} should read name=value, e.g. host=api-3."
+            return {}
+        labels[name.strip()] = value.strip().strip('"')
+    return labels
+
+
+def parse_rule_form(session: Session, form: Mapping[str, str]) -> dict[str, Any]:
+    """The alert-rule fields from the form; raises RuleFormInvalid with one message per field."""
+    errors: dict[str, str] = {}
+    kind = form.get("kind", "threshold")
+    if kind not in KINDS:
+        errors["kind"] = "Choose a threshold rule or a band rule."
+        kind = "threshold"
+    fields: dict[str, Any] = {
+        "name": form.get("name", "").strip(),
+        "kind": kind,
+        "description": form.get("description", "").strip(),
+        "direction": form.get("direction", DIRECTIONS[kind][0]),
+    }
+    if not fields["name"]:
+        errors["name"] = "Give the rule a name people will recognise from the page."
+    if fields["direction"] not in DIRECTIONS[kind]:
+        errors["direction"] = f"A {kind} rule fires {' or '.join(DIRECTIONS[kind])}."
+    fields.update(_target(session, form, errors))
+    for name in ("threshold", "tolerance"):
+        raw = form.get(name, "").strip()
+        needed = (kind == "threshold") == (name == "threshold")
+        if not needed:
+            fields[name] = None
+        elif not _is_number(raw) or not pd.notna(float(raw)) or abs(float(raw)) == float("inf"):
+            errors[name] = (
+                f"Give the {name} as a number, e.g. {'500' if name == 'threshold' else '3'}."
+            )
+        elif name == "tolerance" and float(raw) <= 0:
+            errors[name] = "The tolerance is a number of robust standard deviations above 0."
+        else:
+            fields[name] = float(raw)
+    fields["pending_seconds"] = parse_duration(
+        form.get("pending", ""), "pending", errors, optional=False
+    )
+    fields["step_seconds"] = parse_duration(form.get("step", ""), "step", errors, optional=True)
+    if errors:
+        raise RuleFormInvalid(errors)
+    return fields
+
+
+def _target(session: Session, form: Mapping[str, str], errors: dict[str, str]) -> dict[str, Any]:
+    """Either one series, or a metric with a label filter."""
+    if form.get("target", "series") == "series":
+        raw = form.get("series_id", "").strip()
+        if not raw.isdigit() or store_series.get_series(session, int(raw)) is None:
+            errors["series_id"] = "Pick one of the stored series."
+            return {}
+        return {"series_id": int(raw), "metric": None, "label_filter": {}}
+    metric = form.get("metric", "").strip()
+    if not metric:
+        errors["metric"] = "Name the metric, e.g. checkout.latency_p95."
+    return {
+        "series_id": None,
+        "metric": metric,
+        "label_filter": parse_labels(form.get("label_filter", ""), errors),
+    }
+
+
+def rule_form_values(rule: AlertRule | None) -> dict[str, str]:
+    if rule is None:
+        return {
+            "kind": "threshold",
+            "direction": "above",
+            "target": "series",
+            "pending": "0",
+            "tolerance": "3",
+        }
+    return {
+        "name": rule.name,
+        "kind": rule.kind,
+        "direction": rule.direction,
+        "target": "series" if rule.series_id else "metric",
+        "series_id": str(rule.series_id or ""),
+        "metric": rule.metric or "",
+        "label_filter": ", ".join(f"{k}={v}" for k, v in (rule.label_filter or {}).items()),
+        "threshold": "" if rule.threshold is None else f"{rule.threshold:g}",
+        "tolerance": "" if rule.tolerance is None else f"{rule.tolerance:g}",
+        "pending": f"{rule.pending_seconds}s",
+        "step": f"{rule.step_seconds}s" if rule.step_seconds else "",
+        "description": rule.description or "",
+    }

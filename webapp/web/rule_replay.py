@@ -1,0 +1,118 @@
+"""Replaying a stored alert rule over all of one series' history, with the what-if sweep
+and the verdict draft, ready for the Alert rules page."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+import pandas as pd
+from sqlalchemy.orm import Session
+
+from webapp.analysis import (
+    ThresholdRule,
+    draft_verdict,
+    replay_report,
+    rule_from_fields,
+    sweep_grid,
+    whatif_sweep,
+)
+from webapp.store import reviews as store_reviews
+from webapp.store import rules as store_rules
+from webapp.store import series as store_series
+from webapp.store.models import AlertRule
+from webapp.web import rule_figures
+from webapp.web.export import figure_div
+
+TZ = "UTC"
+
+
+def matching_series(session: Session, rule: AlertRule) -> list[store_series.SeriesInfo]:
+    """The stored series a rule watches: its own, or every series of its metric whose labels
+    include the filter."""
+    everything = store_series.list_series(session)
+    if rule.series_id:
+        return [s for s in everything if s.id == rule.series_id]
+    wanted = (rule.label_filter or {}).items()
+    return [s for s in everything if s.metric == rule.metric and wanted <= s.labels.items()]
+
+
+def rule_text(rule: AlertRule) -> str:
+    try:
+        return rule_from_fields(_fields(rule)).text
+    except ValueError as err:
+        return f"incomplete rule: {err}"
+
+
+def _fields(rule: AlertRule) -> dict[str, Any]:
+    return {name: getattr(rule, name) for name in store_rules.FIELDS} | {"tz": TZ}
+
+
+def firing_rows(firings: pd.DataFrame, limit: int = 500) -> list[dict[str, Any]]:
+    """The first ``limit`` firings as plain values for the table (incidents numbered from 1)."""
+    return [
+        {
+            "start": row.start,
+            "end": None if row.ongoing else row.end,
+            "duration": row.duration,
+            "incident": None if pd.isna(row.incident) else int(row.incident) + 1,
+        }
+        for row in firings.head(limit).itertuples(index=False)
+    ]
+
+
+@dataclass
+class Replay:
+    """Everything the replay page shows for one rule on one series."""
+
+    series: store_series.SeriesInfo
+    rule: Any
+    report: Any
+    incidents: list[tuple[pd.Timestamp, pd.Timestamp]]
+    sweep: pd.DataFrame | None
+    draft: Any
+    figures: dict[str, str]
+
+
+def run_replay(session: Session, rule: AlertRule, info: store_series.SeriesInfo) -> Replay:
+    """Replay ``rule`` over all of one series' history against the incidents of its reviews.
+
+    Raises ValueError with a readable message when the rule or the data cannot be replayed."""
+    analysed = rule_from_fields(_fields(rule))
+    values = store_series.read_series(session, info.id).dropna()
+    if values.empty:
+        raise ValueError(f"{info.key} has no stored points to replay over")
+    incidents = store_reviews.incident_windows(session, info.id)
+    report = replay_report(values, analysed, incidents)
+    sweep = None
+    if isinstance(analysed, ThresholdRule):
+        thresholds, pendings = sweep_grid(values, analysed)
+        sweep = whatif_sweep(
+            values,
+            thresholds,
+            pendings,
+            incidents,
+            direction=analysed.direction,
+            step=analysed.step,
+        )
+    draft = draft_verdict(report, sweep, analysed)
+    threshold = analysed.threshold if isinstance(analysed, ThresholdRule) else None
+    figs = {
+        "replay": figure_div(
+            rule_figures.replay_figure(values, report.firings, incidents, threshold, info.unit, TZ),
+            "replay-figure",
+            False,
+        )
+    }
+    if sweep is not None:
+        current = (analysed.threshold, analysed.for_)
+        drafted = None
+        if draft.suggestion == "tune":
+            drafted = (
+                draft.parameters["threshold"],
+                pd.Timedelta(seconds=draft.parameters["pending_seconds"]),
+            )
+        figs["sweep"] = figure_div(
+            rule_figures.sweep_figure(sweep, current, drafted), "sweep-figure", False
+        )
+    return Replay(info, analysed, report, incidents, sweep, draft, figs)
