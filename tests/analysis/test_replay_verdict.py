@@ -121,3 +121,25 @@ def test_draft_verdict_refuses_what_is_not_a_rule():
     report = replay_report(NOISY, ThresholdRule(above=10), INCIDENTS)
     with pytest.raises(ValueError, match="ThresholdRule or a BandRule"):
         draft_verdict(report, None, "above 10")
+
+
+def test_without_recorded_incidents_the_draft_does_not_retire():
+    blips_only = fortnight(*BLIPS)
+    rule = ThresholdRule(above=10)
+    report = replay_report(blips_only, rule, [])
+    sweep = whatif_sweep(blips_only, [10, 20], SWEEP_PENDINGS, [])
+    verdict = draft_verdict(report, sweep, rule)
+    assert (report.n_firings, verdict.suggestion) == (DAYS, "keep")
+    assert "No incident is recorded within these weeks" in verdict.rationale
+    assert "cannot tell which firings were real" in verdict.rationale
+
+
+def test_a_missed_incident_names_the_quietest_setting_that_catches_it():
+    # above 150 misses the incident (value 100). One page catches it at (10, 5 min), (50, 0)
+    # and (50, 5 min); the tie goes to no delay, then to the threshold closer to 150: 50, 0.
+    report, verdict = draft(NOISY, ThresholdRule(above=150), thresholds=(10, 50, 150))
+    assert report.missed == [0]
+    assert (
+        "Of the what-if settings that catch the most incidents, the quietest (threshold 50, "
+        "pending period 0s) catches 1 of the 1 recorded incidents at 0.5 pages per week."
+    ) in verdict.rationale

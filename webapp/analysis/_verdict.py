@@ -6,10 +6,13 @@ tolerances, by pending periods):
   with fewer firings (the setting with the fewest pages wins; ties go to the shorter median
   delay, then to the setting closest to the current one). "Fewer" means at least one page
   less and at least ``TUNE_MIN_SAVING`` of them.
-- *retire* when the rule caught no recorded incident and paged for nothing at least
-  ``RETIRE_MIN_FALSE`` times.
+- *retire* when the rule caught none of the incidents recorded within the replayed data
+  and paged for nothing at least ``RETIRE_MIN_FALSE`` times. With no incident recorded in
+  those weeks the replay cannot tell real firings from noise, so it never drafts retire.
 - *keep* otherwise (it catches what it should at the least noise the sweep found, or it is
   quiet, or there is too little to judge).
+When the rule missed incidents, the rationale also names the quietest setting in the sweep
+that catches the most of them, and its pages per week.
 The rationale is plain sentences built from the numbers. It always ends by saying that the
 tool only drafts, that retiring an alert can hide a real failure, and that the service owner
 and the team's own paging policy decide.
@@ -93,15 +96,10 @@ def _knob(rule: Rule) -> tuple[str, float]:
     return "tolerance", float(rule.tolerance)
 
 
-def _best_setting(report: ReplayReport, sweep: pd.DataFrame, rule: Rule) -> pd.Series | None:
+def _quietest(candidates: pd.DataFrame, rule: Rule) -> pd.Series:
+    """The setting with the fewest pages; ties go to the shorter median delay, then to the
+    setting closest to the current one."""
     column, current = _knob(rule)
-    if column not in sweep.columns:
-        raise ValueError(f"the sweep has no {column!r} column: it was made for another rule kind")
-    needed = set(report.caught)
-    keeps_all = sweep["caught"].map(lambda got: needed.issubset(got))
-    candidates = sweep[keeps_all]
-    if candidates.empty:
-        return None
     closeness = (candidates[column] - current).abs() / max(abs(current), 1e-12)
     closeness += (candidates["pending"] - rule.for_).abs() / pd.Timedelta(hours=1)
     ranked = candidates.assign(
@@ -109,6 +107,16 @@ def _best_setting(report: ReplayReport, sweep: pd.DataFrame, rule: Rule) -> pd.S
         _close=closeness,
     ).sort_values(["pages_per_week", "_delay", "_close"], kind="stable")
     return ranked.iloc[0]
+
+
+def _best_setting(report: ReplayReport, sweep: pd.DataFrame, rule: Rule) -> pd.Series | None:
+    """The quietest setting that still catches every incident the current rule caught."""
+    column, _ = _knob(rule)
+    if column not in sweep.columns:
+        raise ValueError(f"the sweep has no {column!r} column: it was made for another rule kind")
+    needed = set(report.caught)
+    candidates = sweep[sweep["caught"].map(lambda got: needed.issubset(got))]
+    return None if candidates.empty else _quietest(candidates, rule)
 
 
 def _overlap_words(inside: int, outside: int) -> str:
@@ -177,7 +185,8 @@ def draft_verdict(report: ReplayReport, sweep: pd.DataFrame | None, rule: Rule) 
     best = None
     if sweep is not None and len(sweep):
         best = _best_setting(report, sweep, rule)
-    if report.n_firings and not report.caught and report.outside >= RETIRE_MIN_FALSE:
+    recorded = any(i["in_range"] for i in report.incidents)
+    if recorded and not report.caught and report.outside >= RETIRE_MIN_FALSE:
         suggestion, parameters = "retire", {}
         sentences.append(
             "None of its firings matched a recorded incident, so every page it sent woke "
@@ -208,8 +217,16 @@ def draft_verdict(report: ReplayReport, sweep: pd.DataFrame | None, rule: Rule) 
         )
     elif not report.n_firings:
         sentences.append("A rule that never fired cost the team no pages in these weeks.")
+    elif not recorded:
+        sentences.append(
+            "No incident is recorded within these weeks, so the replay cannot tell which "
+            "firings were real: record the incidents (their reviews) and replay again "
+            "before deciding."
+        )
     else:
         sentences.append("It fired too rarely to judge from these weeks alone.")
+    if sweep is not None and len(sweep) and report.missed:
+        sentences.extend(_catches_more(report, sweep, rule))
     sentences.append(OWNER_DECIDES)
     return VerdictDraft(
         suggestion=suggestion,
@@ -217,6 +234,22 @@ def draft_verdict(report: ReplayReport, sweep: pd.DataFrame | None, rule: Rule) 
         rationale=" ".join(sentences),
         sentences=sentences,
     )
+
+
+def _catches_more(report: ReplayReport, sweep: pd.DataFrame, rule: Rule) -> list[str]:
+    """A sentence on the quietest of the settings that catch the most incidents."""
+    column, _ = _knob(rule)
+    more = sweep[sweep["incidents_caught"] > len(report.caught)]
+    if more.empty:
+        return ["No setting in the what-if sweep would have caught the incidents it missed."]
+    best = _quietest(more[more["incidents_caught"] == more["incidents_caught"].max()], rule)
+    in_range = sum(1 for i in report.incidents if i["in_range"])
+    return [
+        f"Of the what-if settings that catch the most incidents, the quietest ({column} "
+        f"{best[column]:g}, pending period {_format_duration(best['pending'])}) catches "
+        f"{best['incidents_caught']} of the {in_range} recorded incidents at "
+        f"{best['pages_per_week']:.1f} pages per week."
+    ]
 
 
 def _saves_enough(current: int, proposed: int) -> bool:
