@@ -7,7 +7,7 @@ from webapp.imports import ImportRejected, parse_bytes
 EXAMPLES = Path(__file__).resolve().parents[2] / "static" / "examples"
 
 
-@pytest.fixture
+@pytest.fixture(scope="session")
 def examples() -> Path:
     return EXAMPLES
 
@@ -25,13 +25,13 @@ def _points(parsed) -> dict[tuple[str, int], float]:
     return dict(zip(keys, table["value"].tolist(), strict=True))
 
 
-@pytest.fixture
+@pytest.fixture(scope="session")
 def rejected():
     """Parse bytes that must be refused; returns the problems as the user reads them."""
     return _rejected
 
 
-@pytest.fixture
+@pytest.fixture(scope="session")
 def points():
     """A ParsedImport's points as {(series_key, ts_utc): value}."""
     return _points

@@ -35,6 +35,12 @@ class Header:
     delimiter: str
 
 
+def sniff_delimiter(header: str) -> str:
+    """The delimiter that splits the header into the most fields, quotes respected
+    (commas win ties)."""
+    return max(DELIMITERS, key=lambda d: len(next(csv.reader([header], delimiter=d))))
+
+
 def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
     """The first line: column names, the delimiter, and which columns play which role."""
     body = without_bom(data)
@@ -46,9 +52,8 @@ def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
         reject_bad_encoding(body, log)
     if not text.strip():
         log.reject("line 1 is empty; expected a header row naming the columns", line=1)
-    delimiter = max(DELIMITERS, key=text.count)
-    names = next(csv.reader([text], delimiter=delimiter))
-    names = [name.strip() for name in names]
+    delimiter = sniff_delimiter(text)
+    names = [name.strip() for name in next(csv.reader([text], delimiter=delimiter))]
     if len(names) < 2:
         log.reject(
             "expected a header row with at least a timestamp and a value column, "

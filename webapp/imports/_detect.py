@@ -2,9 +2,10 @@
 
 from __future__ import annotations
 
+import csv
 import re
 
-from webapp.imports._csv import DELIMITERS, looks_like_data
+from webapp.imports._csv import looks_like_data, sniff_delimiter
 from webapp.imports._long import METRIC_NAMES, TIMESTAMP_NAMES, VALUE_NAMES
 from webapp.imports._problems import ProblemLog
 from webapp.imports._text import without_bom
@@ -79,13 +80,13 @@ def _json_kind(head: str) -> str:
 
 def _csv_kind(head: str, file_name: str) -> str:
     first = head.splitlines()[0]
-    delimiter = max(DELIMITERS, key=first.count)
-    if first.count(delimiter) == 0:
+    delimiter = sniff_delimiter(first)
+    if delimiter not in first:
         raise UnknownFormat(
             "not CSV (no commas, semicolons or tabs on line 1), JSON, OpenMetrics text "
             f"or Parquet; line 1 reads {first[:80]!r}"
         )
-    fields = [n.strip().strip('"') for n in first.split(delimiter)]
+    fields = [n.strip() for n in next(csv.reader([first], delimiter=delimiter))]
     if looks_like_data(fields):
         raise UnknownFormat(
             "line 1 holds data, not a header; expected a CSV header row naming the columns, "
