@@ -253,3 +253,12 @@ def test_saved_explanation_links_back_to_a_live_explain_with_its_parameters(
     assert args["tolerance"] == ["4.5"] and args["weeks"] == ["2"]
     assert args["exclude"] == ["2026-11-20T00:00:00+00:00/2026-11-21T00:00:00+00:00"]
     assert client.get(unescape(link)).status_code == 200
+
+
+def test_window_without_data_says_where_the_data_is(client, stored):
+    response = client.get(f"/explain?series={stored}&start=2025-01-01T00:00&end=2025-01-02T00:00")
+    assert response.status_code == 200
+    body = response.get_data(as_text=True)
+    assert "has no data from 2024-11-20 00:00 to 2025-01-02 00:00 UTC" in body
+    assert "Its data runs from 2026-11-09 18:00" in body
+    assert body.count("Nothing to draw") == 3  # the figures point at the reason, once each

@@ -134,6 +134,9 @@ def _compute(series: Any, values: pd.Series, query: ExplainQuery, exclude: list[
     from webapp.analysis import explain, past_weeks_overlay
 
     evidence = Evidence(series_key=series.key, unit=series.unit, tz=query.tz)
+    if values.dropna().empty:
+        evidence.errors["explain"] = no_data_message(series, query)
+        return evidence
     try:
         exp = explain(
             values,
@@ -161,6 +164,22 @@ def _compute(series: Any, values: pd.Series, query: ExplainQuery, exclude: list[
     except ValueError as error:
         evidence.errors["overlay"] = str(error)
     return evidence
+
+
+def no_data_message(series: Any, query: ExplainQuery) -> str:
+    from webapp.web.filters import local_time
+
+    start, end = query.window[0] - query.history, query.window[1]
+    message = (
+        f"{series.key} has no data from {local_time(start, query.tz)} to "
+        f"{local_time(end, query.tz, True)} (the window and its {query.weeks} weeks of history)."
+    )
+    if series.first_ts is not None and series.last_ts is not None:
+        message += (
+            f" Its data runs from {local_time(series.first_ts, query.tz)} to "
+            f"{local_time(series.last_ts, query.tz, True)}; choose a window inside that."
+        )
+    return message
 
 
 def frozen_evidence(row: Any, unit: str | None) -> Evidence:
@@ -194,7 +213,7 @@ def build_figure(evidence: Evidence, name: str, view: Span | None = None) -> go.
     """One panel's figure; raises ValueError when the evidence has nothing for it."""
     frame = evidence.frame
     if frame is None:
-        raise ValueError(evidence.errors.get("explain", "No explanation to draw."))
+        raise ValueError("Nothing to draw: the reason is given at the top of the page.")
     if view is not None:
         margin = (view[1] - view[0]) * 0.05
         frame = frame[(frame.index >= view[0] - margin) & (frame.index <= view[1] + margin)]
