@@ -37,19 +37,23 @@ def test_calls_with_nights_and_weekends_missing_gives_one_day(calls):
     # 5-minute steps, from 3 March 2003); the gaps must not hide the daily cycle.
     regular = regularize(calls)
     assert regular.isna().mean() > 0.5  # nights and weekends are gaps on this clock
-    dec, candidates = select_periods(regular.iloc[-20 * 2016 :], "UTC")
-    assert DAY in kept(candidates)
-    assert all(p == DAY or p >= DAY for p in kept(candidates))
+    last_day = calls.index[-169:]
+    exp = explain(calls, window=(last_day[0], last_day[-1]), history="20W")
+    assert exp.step == pd.Timedelta("5min")
+    assert DAY in exp.periods and exp.periods[0] / exp.step == 288
+    assert exp.facts["gap_count"] >= 99  # each weeknight and each weekend
 
 
 def test_co2_gives_the_annual_cycle(co2):
     # Source: statsmodels.datasets.co2, weekly; the annual cycle is 365.25 / 7 = 52.18 weeks
     # (REFERENCES.md). A whole number of weekly steps: 52.
-    dec, candidates = select_periods(regularize(co2), "UTC")
-    (period,) = kept(candidates)
+    end = co2.index[-1]
+    exp = explain(co2, window=(end - 4 * WEEK, end), history=pd.Timedelta(days=365 * 40))
+    assert exp.step == WEEK
+    (period,) = exp.periods
     assert abs(period / WEEK - 52.18) <= 1
-    day, week = (c for c in candidates if c.source != "autocorrelation")
-    assert "fewer than 4 samples" in day.reason and "fewer than 4 samples" in week.reason
+    day, week = (c for c in exp.candidates if c["source"] != "autocorrelation")
+    assert "fewer than 4 samples" in day["reason"] and "fewer than 4 samples" in week["reason"]
 
 
 def test_pure_noise_keeps_no_period():

@@ -109,8 +109,7 @@ def fit_baseline(
         chosen = sorted(pd.Timedelta(p) for p in periods)
         decomposition = decompose(baseline, chosen, tz=tz)
         candidates = [Candidate(p, "given", kept=True, reason="given") for p in chosen]
-    fitted = decomposition.components(baseline.index)
-    residual = baseline - fitted["trend"] - fitted["seasonal"]
+    residual = baseline - decomposition.fitted
     holdout = decomposition.holdout
     if not np.isfinite(holdout).any():
         holdout = residual.to_numpy()

@@ -44,13 +44,15 @@ def hour_of_day(index: pd.DatetimeIndex, tz: str) -> np.ndarray:
     return (wall_clock_ns(index, tz) % DAY_NS // HOUR_NS).astype(np.int64)
 
 
-def same_wall_clock_weeks_ago(index: pd.DatetimeIndex, weeks: int, tz: str) -> pd.DatetimeIndex:
-    """UTC instants showing the same wall-clock time `weeks` weeks earlier.
+def same_wall_clock_weeks_ago(index: pd.DatetimeIndex, weeks, tz: str) -> pd.DatetimeIndex:
+    """UTC instants showing the same wall-clock time `weeks` weeks earlier (`weeks` may be an
+    array as long as `index`).
 
     A wall-clock time that did not exist (the hour skipped in spring) gives NaT; one that
     existed twice (autumn) takes its first occurrence.
     """
-    local = index.tz_convert(tz).tz_localize(None) - pd.Timedelta(weeks=weeks)
+    local = index.tz_convert(tz).tz_localize(None) - pd.to_timedelta(np.asarray(weeks) * 7, "D")
+    local = pd.DatetimeIndex(local)
     if tz == "UTC":
         return local.tz_localize("UTC")
     first = np.ones(len(local), dtype=bool)

@@ -55,6 +55,7 @@ MAX_SPAN = 28
 NESTED_MAX_BINS = 336
 TREND_BINS_PER_PERIOD = 168
 PASSES = 2
+CHUNK_VALUES = 1 << 17
 LOWESS_DELTA_PER_SPAN = 40
 
 
@@ -109,33 +110,47 @@ class PhaseLayout:
             nested=nested,
         )
 
-    def cells(self, wall: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Row (cycle, clipped to the fitted cycles) and phase bin of each timestamp."""
+    def place(self, wall: np.ndarray) -> Placement:
+        """Where each timestamp falls: its cell, and its neighbouring bin centres."""
         rows = np.clip(wall // self.period_ns - self.first_cycle, 0, self.n_cycles - 1)
-        bins = np.minimum((wall % self.period_ns) // self.bin_ns, self.n_bins - 1)
-        return rows, bins
-
-    def cell_means(self, values: np.ndarray, wall: np.ndarray) -> np.ndarray:
-        """(n_cycles, n_bins) mean of the valid values in each cell, NaN where empty."""
-        rows, bins = self.cells(wall)
-        ok = np.isfinite(values)
-        code = rows[ok] * self.n_bins + bins[ok]
-        size = self.n_cycles * self.n_bins
-        sums = np.bincount(code, weights=values[ok], minlength=size)
-        counts = np.bincount(code, minlength=size)
-        with np.errstate(invalid="ignore", divide="ignore"):
-            means = sums / counts
-        return means.reshape(self.n_cycles, self.n_bins)
-
-    def evaluate(self, table: np.ndarray, wall: np.ndarray) -> np.ndarray:
-        """Seasonal value at each timestamp: linear between bin centres, circular."""
-        rows = np.clip(wall // self.period_ns - self.first_cycle, 0, table.shape[0] - 1)
-        pos = ((wall % self.period_ns) - self.centre_ns) / self.bin_ns
+        phase = wall % self.period_ns
+        bins = np.minimum(phase // self.bin_ns, self.n_bins - 1)
+        pos = (phase - self.centre_ns) / self.bin_ns
         left = np.floor(pos).astype(np.int64)
         frac = pos - left
-        left %= self.n_bins
-        right = (left + 1) % self.n_bins
-        return (1 - frac) * table[rows, left] + frac * table[rows, right]
+        base = rows * self.n_bins
+        return Placement(
+            cell=base + bins,
+            left=base + left % self.n_bins,
+            right=base + (left + 1) % self.n_bins,
+            frac=frac,
+            shape=(self.n_cycles, self.n_bins),
+        )
+
+
+@dataclass(frozen=True)
+class Placement:
+    """Flat indices into a (cycles x bins) table for a set of timestamps."""
+
+    cell: np.ndarray
+    left: np.ndarray
+    right: np.ndarray
+    frac: np.ndarray
+    shape: tuple[int, int]
+
+    def cell_means(self, values: np.ndarray) -> np.ndarray:
+        """(cycles, bins) mean of the valid values in each cell, NaN where empty."""
+        ok = np.isfinite(values)
+        size = self.shape[0] * self.shape[1]
+        sums = np.bincount(self.cell[ok], weights=values[ok], minlength=size)
+        counts = np.bincount(self.cell[ok], minlength=size)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return (sums / counts).reshape(self.shape)
+
+    def evaluate(self, table: np.ndarray) -> np.ndarray:
+        """Seasonal value at each timestamp: linear between bin centres, circular."""
+        flat = table.ravel()
+        return (1 - self.frac) * flat[self.left] + self.frac * flat[self.right]
 
 
 def span_in_cycles(period: pd.Timedelta) -> int:
@@ -165,7 +180,11 @@ def seasonal_table(cells: np.ndarray, layout: PhaseLayout, rows: np.ndarray) -> 
     """Per-cycle seasonal pattern: for each cycle, the median of each phase bin across the
     cycles in `rows`; gap-filled across phase, lightly smoothed when bins are fine, and
     centred per cycle."""
-    table = nanmedian_last_axis(cells[rows].transpose(0, 2, 1))
+    table = np.empty((rows.shape[0], cells.shape[1]))
+    chunk = max(1, CHUNK_VALUES // (rows.shape[1] * cells.shape[1]))
+    for start in range(0, rows.shape[0], chunk):  # in chunks that stay in the CPU cache
+        block = cells[rows[start : start + chunk]].transpose(0, 2, 1)
+        table[start : start + chunk] = nanmedian_last_axis(block)
     table = fill_across_phase(table)
     if layout.bin_ns < SMOOTH_BELOW.value and layout.n_bins >= 3:
         table = 0.25 * np.roll(table, 1, axis=1) + 0.5 * table + 0.25 * np.roll(table, -1, axis=1)
@@ -227,6 +246,9 @@ class Decomposition:
     tables: list[np.ndarray]
     trend_x: np.ndarray
     trend_y: np.ndarray
+    fitted_trend: np.ndarray  # on the fitted grid
+    fitted_seasonals: list[np.ndarray]  # on the fitted grid, one per period
+    placements: list[Placement]  # of the fitted grid
     holdout: np.ndarray
 
     def components(self, index: pd.DatetimeIndex) -> pd.DataFrame:
@@ -236,11 +258,16 @@ class Decomposition:
         out = {"trend": np.interp(t_ns, self.trend_x, self.trend_y)}
         total = np.zeros(len(index))
         for period, layout, table in zip(self.periods, self.layouts, self.tables, strict=True):
-            part = layout.evaluate(table, wall)
+            part = layout.place(wall).evaluate(table)
             out["seasonal_" + period_label(period)] = part
             total = total + part
         out["seasonal"] = total
         return pd.DataFrame(out, index=index)
+
+    @property
+    def fitted(self) -> np.ndarray:
+        """Trend plus seasonals on the fitted grid."""
+        return self.fitted_trend + others(self.fitted_seasonals, -1, len(self.fitted_trend))
 
 
 def decompose(
@@ -261,25 +288,28 @@ def decompose(
         cycle_windows(lay.n_cycles, span_in_cycles(p))
         for p, lay in zip(periods, layouts, strict=True)
     ]
+    placements = [layout.place(wall) for layout in layouts]
     seasonals = [np.zeros(len(y)) for _ in periods]
     tables = [np.zeros((1, layout.n_bins)) for layout in layouts]
     cells = [np.zeros((1, layout.n_bins)) for layout in layouts]
     trend = initial_trend(y, t_ns, bin_ns, longest.value)
     for _ in range(PASSES if periods else 1):
-        for i, layout in enumerate(layouts):
-            cells[i] = layout.cell_means(y - trend - others(seasonals, i, len(y)), wall)
+        for i, (layout, place) in enumerate(zip(layouts, placements, strict=True)):
+            cells[i] = place.cell_means(y - trend - others(seasonals, i, len(y)))
             tables[i] = seasonal_table(cells[i], layout, windows[i])
-            seasonals[i] = layout.evaluate(tables[i], wall)
+            seasonals[i] = place.evaluate(tables[i])
         trend_x, trend_y = fit_trend(y - others(seasonals, -1, len(y)), t_ns, bin_ns, span_ns)
         trend = np.interp(t_ns, trend_x, trend_y)
     holdout = y - trend
-    for i, layout in enumerate(layouts):
+    for i, (layout, place) in enumerate(zip(layouts, placements, strict=True)):
         rows = leave_own_out(windows[i])
         if rows is None:
             holdout = np.full(len(y), np.nan)
             break
-        holdout = holdout - layout.evaluate(seasonal_table(cells[i], layout, rows), wall)
-    return Decomposition(periods, tz, layouts, tables, trend_x, trend_y, holdout)
+        holdout = holdout - place.evaluate(seasonal_table(cells[i], layout, rows))
+    return Decomposition(
+        periods, tz, layouts, tables, trend_x, trend_y, trend, seasonals, placements, holdout
+    )
 
 
 def others(seasonals: list[np.ndarray], skip: int, n: int) -> np.ndarray:

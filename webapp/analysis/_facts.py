@@ -32,6 +32,7 @@ import numpy as np
 import pandas as pd
 
 from ._clock import same_wall_clock_weeks_ago
+from ._robust import quiet_nan_warnings
 
 HIGH_HISTORY = pd.Timedelta(weeks=2)
 MEDIUM_HISTORY = pd.Timedelta(days=2)
@@ -139,15 +140,16 @@ def same_hour_facts(
     here = in_window["value"][(in_window.index >= start) & (in_window.index < end)]
     value = float(here.max())
     weeks = int((frame.index[-1] - frame.index[0]) / pd.Timedelta(weeks=1))
-    index = pd.DatetimeIndex([start.tz_convert("UTC")])
-    past = []
-    for k in range(1, weeks + 1):
-        then = same_wall_clock_weeks_ago(index, k, tz)[0]
-        if pd.isna(then):
-            continue
-        chunk = baseline[(baseline.index >= then) & (baseline.index < then + length)]
-        if chunk.notna().any():
-            past.append(float(chunk.max()))
+    ks = np.arange(1, weeks + 1)
+    repeated = pd.DatetimeIndex(np.full(weeks, start.value, dtype=np.int64), tz="UTC")
+    starts = same_wall_clock_weeks_ago(repeated, ks, tz)
+    starts = starts[starts.notna()]
+    lo = baseline.index.searchsorted(starts)
+    hi = baseline.index.searchsorted(starts + length)
+    values = baseline.to_numpy()
+    with quiet_nan_warnings():
+        past = [float(np.nanmax(values[a:b])) for a, b in zip(lo, hi, strict=True) if b > a]
+    past = [p for p in past if np.isfinite(p)]
     out.update(
         same_hour_start=iso(start.tz_convert("UTC")),
         same_hour_end=iso(end.tz_convert("UTC")),

@@ -150,21 +150,19 @@ def is_harmonic(period: pd.Timedelta, of: pd.Timedelta) -> bool:
 
 def strength(dec: Decomposition, baseline: pd.Series, which: int) -> float:
     """Out-of-cycle seasonal strength of component `which` (see the module docstring)."""
-    index = baseline.index
     y = baseline.to_numpy(dtype=float)
-    parts = dec.components(index)
-    layout = dec.layouts[which]
-    label = "seasonal_" + period_label(dec.periods[which])
-    remainder = y - parts["trend"].to_numpy() - (parts["seasonal"] - parts[label]).to_numpy()
-    wall = wall_clock_ns(index, dec.tz)
-    cells = layout.cell_means(remainder, wall)
+    part = dec.fitted_seasonals[which]
+    remainder = y - dec.fitted + part
+    place = dec.placements[which]
+    cells = place.cell_means(remainder)
     parity = np.arange(cells.shape[0]) % 2
     if parity.max() == 0:
         return 0.0
+    layout = dec.layouts[which]
     rows = np.arange(cells.shape[0])
     profiles = [seasonal_table(cells, layout, rows[parity == k][None, :])[0] for k in (0, 1)]
     crossed = np.stack([profiles[1 - k] for k in parity])
-    residual = remainder - layout.evaluate(crossed, wall)
+    residual = remainder - place.evaluate(crossed)
     total = robust_scale(remainder) ** 2
     if not np.isfinite(total) or total == 0:
         return 0.0

@@ -25,19 +25,13 @@ def robust_scale(values: ArrayLike) -> float:
 
 
 def grouped_robust_scale(values: np.ndarray, groups: np.ndarray, n_groups: int):
-    """Robust standard deviation and count per integer group label in [0, n_groups)."""
+    """`band_scale_estimate` and count of the valid values per group label in [0, n_groups)."""
     ok = np.isfinite(values)
     v, g = values[ok], groups[ok]
     scales = np.full(n_groups, np.nan)
-    counts = np.bincount(g, minlength=n_groups)
-    if v.size == 0:
-        return scales, counts
-    order = np.lexsort((v, g))
-    v, g = v[order], g[order]
-    starts = np.searchsorted(g, np.arange(n_groups), side="left")
-    ends = np.searchsorted(g, np.arange(n_groups), side="right")
-    for k in np.flatnonzero(ends > starts):
-        scales[k] = band_scale_estimate(v[starts[k] : ends[k]])
+    counts = np.bincount(g, minlength=n_groups)[:n_groups]
+    for k in np.flatnonzero(counts):
+        scales[k] = band_scale_estimate(v[g == k])
     return scales, counts
 
 
