@@ -491,6 +491,21 @@ def set_verdict(
     return review
 
 
+def record_verdict(
+    session: Session, review: Review, form: Mapping[str, str], alert_rule_id: int | None = None
+) -> Review:
+    """The verdict as a form sends it: ``verdict``, ``verdict_parameters`` (``name: value``
+    lines) and ``verdict_rationale``."""
+    return set_verdict(
+        session,
+        review,
+        form.get("verdict"),
+        parameters=parse_parameters(form.get("verdict_parameters", "")),
+        rationale=form.get("verdict_rationale", ""),
+        alert_rule_id=alert_rule_id,
+    )
+
+
 # -- incidents per series -----------------------------------------------------------------
 
 

@@ -327,13 +327,8 @@ def verdict(review_id: int) -> Any:
 
     def change(session: Any, review: Review) -> None:
         rule_id = f.get("alert_rule_id", "").strip()
-        store.set_verdict(
-            session,
-            review,
-            f.get("verdict"),
-            parameters=store.parse_parameters(f.get("verdict_parameters", "")),
-            rationale=f.get("verdict_rationale", ""),
-            alert_rule_id=_int(rule_id, "alert_rule_id") if rule_id else None,
+        store.record_verdict(
+            session, review, f, _int(rule_id, "alert_rule_id") if rule_id else None
         )
 
     return _change(review_id, "verdict", "verdict", change, "Verdict recorded.")

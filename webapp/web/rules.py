@@ -169,14 +169,7 @@ def carry_verdict(rule_id: int) -> Any:
     try:
         if review is None:
             raise ReviewInvalid({"review_id": "Pick the review that records this verdict."})
-        store_reviews.set_verdict(
-            session,
-            review,
-            f.get("verdict"),
-            parameters=store_reviews.parse_parameters(f.get("verdict_parameters", "")),
-            rationale=f.get("verdict_rationale", ""),
-            alert_rule_id=rule.id,
-        )
+        store_reviews.record_verdict(session, review, f, rule.id)
     except ReviewInvalid as err:
         session.rollback()
         return _show(load_rule(rule_id), f, err.errors)
