@@ -81,6 +81,10 @@ def test_the_collector_outages_are_gaps(demo):
     assert ((api3.index >= inside[0]) & (api3.index < inside[1])).sum() == (
         inside[1] - inside[0]
     ) / step
+    warnings = [str(p) for p in demo.parsed.problems]
+    assert all(p.severity == "warning" for p in demo.parsed.problems)
+    assert any("2026-11-11 09:20 to 10:05 UTC" in w and "any series" in w for w in warnings)
+    assert any("2026-10-29 03:10 to 03:25 UTC" in w and "api-2" in w for w in warnings)
     missing = demo.parsed.rows_read - len(demo.parsed.table)
     assert demo.parsed.gap_count == missing == 19 * 45 + 3 * 15
 

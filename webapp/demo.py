@@ -39,7 +39,7 @@ import numpy as np
 import pandas as pd
 
 from webapp.analysis import replay, rule_from_fields
-from webapp.imports._types import ParsedImport, SeriesMeta
+from webapp.imports._types import ParsedImport, Problem, SeriesMeta
 from webapp.imports.keys import parse_series_key, series_key
 
 SERVICE = "Harbourline Transit checkout"
@@ -242,8 +242,9 @@ def _parsed(times: pd.DatetimeIndex, data: dict[str, np.ndarray], seed: int) -> 
         metric, labels = parse_series_key(key)
         series[key] = SeriesMeta(metric=metric, labels=labels, unit=UNITS[metric])
     rows = len(times) * len(data)
+    file_name = f"demo: {SERVICE}, six weeks of 1-minute data (seed {seed})"
     return ParsedImport(
-        file_name=f"demo: {SERVICE}, six weeks of 1-minute data (seed {seed})",
+        file_name=file_name,
         format="demo",
         sha256=digest.hexdigest(),
         size_bytes=int(table.memory_usage(deep=False).sum()),
@@ -253,7 +254,16 @@ def _parsed(times: pd.DatetimeIndex, data: dict[str, np.ndarray], seed: int) -> 
         naive_tz="UTC",
         rows_read=rows,
         gap_count=rows - len(table),
+        problems=[
+            Problem(file_name, f"no samples {_span_text(span)} on {where}", severity="warning")
+            for span, where in ((OUTAGE_ALL, "any series"), (OUTAGE_API2, "the api-2 series"))
+        ],
     )
+
+
+def _span_text(span: tuple[pd.Timestamp, pd.Timestamp]) -> str:
+    start, end = span
+    return f"from {start:%Y-%m-%d %H:%M} to {end:%H:%M} UTC (collector outage)"
 
 
 def _rules() -> list[dict]:
