@@ -37,9 +37,8 @@ class LiveServer:
         return self.url + path
 
 
-@pytest.fixture
-def live_server(app) -> Iterator[LiveServer]:
-    """The test app (``app`` from tests/conftest.py) on a free port of 127.0.0.1."""
+def serve(app) -> Iterator[LiveServer]:
+    """Serve ``app`` on a free port of 127.0.0.1 from a thread until the generator closes."""
     server = make_server("127.0.0.1", 0, app, threaded=True)
     thread = threading.Thread(target=server.serve_forever, name="whyfired-live", daemon=True)
     thread.start()
@@ -48,6 +47,18 @@ def live_server(app) -> Iterator[LiveServer]:
     finally:
         server.shutdown()
         thread.join(timeout=5)
+
+
+@pytest.fixture
+def live_server(app) -> Iterator[LiveServer]:
+    """The test app (``app`` from tests/conftest.py, an empty store) on 127.0.0.1."""
+    yield from serve(app)
+
+
+@pytest.fixture
+def demo_live_server(demo_app) -> Iterator[LiveServer]:
+    """A private copy of the demo store (``demo_app`` from tests/conftest.py) on 127.0.0.1."""
+    yield from serve(demo_app)
 
 
 @pytest.fixture(scope="session")
