@@ -4,7 +4,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from webapp.analysis import ENGINE_VERSION, explain
+from webapp.analysis import ENGINE_VERSION, expected_band, explain
 
 WEEK = pd.Timedelta(weeks=1)
 DOCUMENTED_FACTS = {
@@ -250,7 +250,7 @@ def test_count_metrics_can_be_summed(make_service_series):
     ("kwargs", "message"),
     [
         ({"window": ("2026-02-01", "2026-01-01")}, "must start before it ends"),
-        ({"window": "2026-02-01"}, "must be a .start, end. pair"),
+        ({"window": "2026-02-01"}, r"the window must be a \(start, end\) pair"),
         ({"tz": "Mars/Olympus"}, "unknown time zone"),
         ({"tolerance": 0}, "positive number"),
         ({"tolerance": "wide"}, "must be a number"),
@@ -278,3 +278,20 @@ def test_bad_parameters_get_clear_messages(make_service_series, kwargs, message)
 def test_empty_or_all_missing_series_is_refused(series):
     with pytest.raises(ValueError, match="no values"):
         explain(series, window=("2026-01-01", "2026-01-02"))
+
+
+def test_expected_band_is_the_band_explain_draws(incident):
+    # The lower-level "fit on this history, forecast on that grid" gives the same band.
+    series, _, window = incident
+    exp = explain(series, window=window, history="42D")
+    grid = exp.frame.index[exp.frame["in_window"]]
+    direct = expected_band(series, grid, history_length="42D")
+    inside = exp.frame.loc[grid]
+    for col in ("expected", "lower", "upper", "band_scale"):
+        np.testing.assert_allclose(direct[col], inside[col])
+
+
+def test_expected_band_without_history_is_nan(incident):
+    series, _, _ = incident
+    grid = pd.date_range(series.index[0] - pd.Timedelta("1D"), periods=12, freq="5min")
+    assert expected_band(series, grid)["expected"].isna().all()

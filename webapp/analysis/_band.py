@@ -27,15 +27,17 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from ._clock import DAY_NS, HOUR_NS, wall_clock_ns
+from ._checks import check_exclude, check_history, check_tolerance
+from ._clock import DAY_NS, HOUR_NS, check_tz, wall_clock_ns
 from ._decompose import Decomposition, decompose
-from ._grid import Agg, regularize, to_utc
+from ._grid import Agg, as_utc_series, infer_step, regularize, to_utc
 from ._periods import Candidate, select_periods
 from ._robust import band_scale_estimate, grouped_robust_scale
 
 HOURLY_PRIOR_SAMPLES = 50
 HOURLY_MIN_RATIO = 1.25
 HOURLY_NOISE_Z = 5.0
+EMPTY_BAND_COLUMNS = ("trend", "seasonal", "expected", "band_scale", "lower", "upper")
 
 
 @dataclass(frozen=True)
@@ -117,11 +119,18 @@ def fit_baseline(
     return BaselineFit(decomposition, scale, candidates, residual)
 
 
+def excluded_mask(index: pd.DatetimeIndex, spans: Iterable) -> np.ndarray:
+    """True inside every excluded (start, end) span, both ends included."""
+    mask = np.zeros(len(index), dtype=bool)
+    for start, end in spans:
+        mask |= (index >= to_utc(start)) & (index <= to_utc(end))
+    return mask
+
+
 def mask_excluded(regular: pd.Series, exclude: Iterable) -> pd.Series:
     """A copy with NaN inside every excluded (start, end) span, both ends included."""
     out = regular.copy()
-    for start, end in exclude:
-        out[(out.index >= to_utc(start)) & (out.index <= to_utc(end))] = np.nan
+    out[excluded_mask(out.index, exclude)] = np.nan
     return out
 
 
@@ -134,11 +143,27 @@ def expected_band(
     exclude: Iterable = (),
     agg: Agg = "mean",
     periods: Iterable[pd.Timedelta] | None = None,
+    history_length: pd.Timedelta | str | None = None,
 ) -> pd.DataFrame:
-    """The band on `grid` fitted on the points of `history` that come before grid[0]."""
+    """The band on `grid`, fitted on the points of `history` before grid[0] (only the last
+    `history_length` of them when given). The band is NaN when no point qualifies.
+
+    Columns: trend, seasonal_<label>..., seasonal, expected, band_scale, lower, upper.
+    """
+    tz = check_tz(tz)
+    tolerance = check_tolerance(tolerance)
     grid = pd.DatetimeIndex(grid)
-    grid = grid.tz_localize("UTC") if grid.tz is None else grid.tz_convert("UTC")
-    step = grid[1] - grid[0] if len(grid) > 1 else None
-    regular = regularize(history[history.index < grid[0]], step, agg=agg)
-    fit = fit_baseline(mask_excluded(regular, exclude), tz=tz, periods=periods)
+    grid = (grid.tz_localize("UTC") if grid.tz is None else grid.tz_convert("UTC")).as_unit("ns")
+    if len(grid) == 0:
+        raise ValueError("the grid to draw the band on is empty")
+    clean = as_utc_series(history)
+    step = grid[1] - grid[0] if len(grid) > 1 else infer_step(clean.index)
+    first = clean.index[0] if history_length is None else grid[0] - check_history(history_length)
+    before = clean[(clean.index < grid[0]) & (clean.index >= first)]
+    if before.notna().sum() == 0:
+        return pd.DataFrame(np.nan, index=grid, columns=list(EMPTY_BAND_COLUMNS))
+    regular = regularize(before, step, agg=agg, start=first, end=grid[0] - step)
+    if len(regular) < 2:
+        return pd.DataFrame(np.nan, index=grid, columns=list(EMPTY_BAND_COLUMNS))
+    fit = fit_baseline(mask_excluded(regular, check_exclude(exclude)), tz=tz, periods=periods)
     return fit.band(grid, tolerance)

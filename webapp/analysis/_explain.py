@@ -15,7 +15,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from ._band import BaselineFit, fit_baseline
+from ._band import BaselineFit, excluded_mask, fit_baseline
+from ._checks import check_exclude, check_history, check_tolerance, check_window
 from ._clock import check_tz
 from ._decompose import period_label
 from ._facts import (
@@ -25,8 +26,7 @@ from ._facts import (
     point_facts,
     same_hour_facts,
 )
-from ._grid import Agg, as_utc_series, find_gaps, infer_step, regularize, to_utc
-from ._overlay import check_window
+from ._grid import Agg, as_utc_series, find_gaps, infer_step, regularize
 from ._sentences import sentences
 
 ENGINE_VERSION = "1.0.0"
@@ -86,8 +86,8 @@ def explain(
     )
     if len(regular) < 2:
         raise ValueError(
-            f"the window and history span less than two grid steps of "
-            f"{infer_step_text(regular)}: widen the window or the history"
+            f"the window and history hold fewer than two steps of {margin}: "
+            "widen the window or the history"
         )
     grid_step = regular.index[1] - regular.index[0]
     frame = pd.DataFrame({"value": regular.to_numpy()}, index=regular.index)
@@ -218,48 +218,3 @@ def build_facts(
     facts["confidence"] = level
     facts["confidence_reasons"] = reasons
     return facts
-
-
-def excluded_mask(index: pd.DatetimeIndex, spans: list) -> np.ndarray:
-    mask = np.zeros(len(index), dtype=bool)
-    for s, e in spans:
-        mask |= (index >= s) & (index <= e)
-    return mask
-
-
-def check_history(history) -> pd.Timedelta:
-    try:
-        value = pd.Timedelta(history)
-    except (TypeError, ValueError):
-        raise ValueError(f"history must be a duration such as '6W', got {history!r}") from None
-    if value is pd.NaT or value < pd.Timedelta(0):
-        raise ValueError(f"history must be a duration of zero or more, got {history!r}")
-    return value
-
-
-def check_tolerance(tolerance) -> float:
-    try:
-        value = float(tolerance)
-    except (TypeError, ValueError):
-        raise ValueError(f"tolerance must be a number, got {tolerance!r}") from None
-    if not np.isfinite(value) or value <= 0:
-        raise ValueError(f"tolerance must be a positive number of sds, got {tolerance!r}")
-    return value
-
-
-def check_exclude(exclude) -> list[tuple[pd.Timestamp, pd.Timestamp]]:
-    spans = []
-    for i, span in enumerate(exclude or (), start=1):
-        try:
-            s, e = span
-        except (TypeError, ValueError):
-            raise ValueError(f"excluded period {i} must be a (start, end) pair") from None
-        s, e = to_utc(s), to_utc(e)
-        if s >= e:
-            raise ValueError(f"excluded period {i} must start before it ends: {s} >= {e}")
-        spans.append((s, e))
-    return spans
-
-
-def infer_step_text(regular: pd.Series) -> str:
-    return "the inferred step" if len(regular) else "any step"

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from ._checks import check_window
 from ._clock import check_tz, same_wall_clock_weeks_ago
 from ._grid import Agg, regularize, to_utc
 from ._robust import quiet_nan_warnings
@@ -50,15 +51,3 @@ def past_weeks_overlay(
         out["min"] = np.nanmin(past, axis=1)
         out["max"] = np.nanmax(past, axis=1)
     return out
-
-
-def check_window(window) -> tuple[pd.Timestamp, pd.Timestamp]:
-    """(start, end) as UTC timestamps; start must come before end."""
-    try:
-        start, end = window
-    except (TypeError, ValueError):
-        raise ValueError(f"window must be a (start, end) pair, got {window!r}") from None
-    start, end = to_utc(start), to_utc(end)
-    if start >= end:
-        raise ValueError(f"the window must start before it ends: {start} >= {end}")
-    return start, end
