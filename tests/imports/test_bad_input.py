@@ -238,3 +238,21 @@ def test_parquet_problems_name_the_row(rejected):
 def test_corrupt_parquet(rejected):
     problems = rejected(b"PAR1" + b"\x00" * 40, name="p.parquet")
     assert problems[0].startswith("p.parquet: not a readable Parquet file")
+
+
+def test_json_lines_problems_name_the_line(rejected):
+    text = (
+        '{"timestamp": 1796025600, "metric": "m", "value": 1}\n'
+        '{"timestamp": 1796025660, "metric": "m", "value": 2}\n'
+        '{"timestamp": "later", "metric": "m", "value": 3}\n'
+    )
+    assert rejected(text, name="r.jsonl") == [
+        "r.jsonl, line 3, column 'timestamp': 'later' is not a timestamp; "
+        "this column holds epoch seconds"
+    ]
+
+
+def test_missing_file_is_a_problem_not_a_traceback(tmp_path):
+    with pytest.raises(ImportRejected) as caught:
+        parse_file(tmp_path / "gone.csv")
+    assert str(caught.value.problems[0]).startswith("gone.csv: cannot read the file")

@@ -93,3 +93,16 @@ def test_table_columns_and_types():
     assert str(table["ts_utc"].dtype) == "int64"
     assert str(table["value"].dtype) == "float64"
     assert table["series_key"].tolist() == ["checkout.requests{host=api-1}"]
+
+
+def test_json_lines_are_records(points):
+    text = (
+        b'{"timestamp": "2026-11-30T08:00:00Z", "metric": "checkout.requests", '
+        b'"labels": {"host": "api-1"}, "value": 1450}\n'
+        b'{"timestamp": "2026-11-30T08:01:00Z", "metric": "checkout.requests", '
+        b'"labels": {"host": "api-1"}, "value": null}\n'
+    )
+    parsed = parse_bytes(text, "r.jsonl")
+    assert parsed.format == "json-records"
+    assert parsed.gap_count == 1
+    assert points(parsed) == {("checkout.requests{host=api-1}", 1796025600000): 1450.0}

@@ -1,4 +1,4 @@
-"""JSON in two shapes.
+"""JSON in two shapes, as one document or as JSON Lines (one object per line).
 
 Records: ``[{"timestamp": ..., "metric": ..., "labels": {...}, "value": ...}, ...]``.
 Series: ``{"metric": ..., "labels": {...}, "unit": ..., "points": [[ts, value], ...]}`` or a
@@ -45,9 +45,7 @@ def _elements(text: str, log: ProblemLog, lines: _Lines) -> list[tuple[Any, int]
     pos = _WS.match(text, 0).end()
     try:
         if text.startswith("{", pos):
-            obj, end = decoder.raw_decode(text, pos)
-            _expect_end(text, end, log, lines)
-            return [(obj, pos)]
+            return _object_sequence(text, pos, decoder, log, lines)
         if not text.startswith("[", pos):
             log.reject("expected a JSON array or object", line=int(lines(np.array([pos]))[0]))
         items: list[tuple[Any, int]] = []
@@ -72,6 +70,23 @@ def _elements(text: str, log: ProblemLog, lines: _Lines) -> list[tuple[Any, int]
     except json.JSONDecodeError as exc:
         log.reject(f"not valid JSON: {exc.msg} (character {exc.colno})", line=exc.lineno)
     raise AssertionError("unreachable")
+
+
+def _object_sequence(
+    text: str, pos: int, decoder: json.JSONDecoder, log: ProblemLog, lines: _Lines
+) -> list[tuple[Any, int]]:
+    """One object, or objects one after another (JSON Lines)."""
+    items = []
+    while pos < len(text):
+        if not text.startswith("{", pos):
+            log.reject(
+                "unexpected content after the end of the JSON value",
+                line=int(lines(np.array([pos]))[0]),
+            )
+        obj, end = decoder.raw_decode(text, pos)
+        items.append((obj, pos))
+        pos = _WS.match(text, end).end()
+    return items
 
 
 def _expect_end(text: str, end: int, log: ProblemLog, lines: _Lines) -> None:

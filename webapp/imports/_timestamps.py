@@ -161,7 +161,8 @@ def _parse_text(
     line_of: LineMap,
     unit: str | None,
 ) -> Timestamps:
-    """Text cells: all numbers means epoch; otherwise ISO 8601, aware and naive apart."""
+    """Text cells: epoch numbers when most cells are numbers (or a unit is imposed),
+    otherwise ISO 8601; the cells of the other form are reported."""
     stripped = pc.utf8_trim_whitespace(values)
     for number_type in (pa.int64(), pa.float64()):
         try:
@@ -169,56 +170,68 @@ def _parse_text(
         except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
             continue
         return _parse_epoch(numbers, missing, column, log, line_of, unit)
-    if unit is not None:
-        bad_numbers = _not_numbers(stripped) & ~missing
+    text = pd.Series(stripped.to_pandas(), dtype=object)
+    numeric = pd.to_numeric(text, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan)
+    is_number = ~np.isnan(numeric)
+    if unit is not None or is_number.sum() > (~missing & ~is_number).sum():
+        words = ~missing & ~is_number
+        parsed = _parse_epoch(
+            pa.array(numeric, mask=~is_number), missing | words, column, log, line_of, unit
+        )
         log.rows(
-            bad_numbers,
+            words,
             column,
-            lambda r: f"{values[r].as_py()!r} is not a number of epoch {unit}",
+            lambda r: f"{text.iloc[r]!r} is not a timestamp; this column holds {parsed.unit}",
             line_of,
         )
-        return Timestamps(np.zeros(len(values), np.int64), missing | bad_numbers, unit)
-    stripped = pc.replace_substring_regex(stripped, pattern="z$", replacement="Z")
-    text = pd.Series(stripped.to_pandas(), dtype="str")
-    aware = text.str.contains(_OFFSET_AT_END, regex=True, na=False).to_numpy(dtype=bool)
-    ms = np.zeros(len(text), dtype=np.int64)
-    bad = missing.copy()
-    if aware.any():
-        parsed = pd.to_datetime(text[aware], format="ISO8601", utc=True, errors="coerce")
-        ms[aware] = _to_ms(parsed)
-        bad[aware] = parsed.isna().to_numpy()
-    naive = ~aware & ~missing
-    if naive.any():
-        parsed = pd.to_datetime(text[naive], format="ISO8601", errors="coerce")
-        failed = parsed.isna().to_numpy()
-        local_ms, local_bad = _localize(parsed, tz, column, log, line_of, np.flatnonzero(naive))
-        ms[naive] = local_ms
-        bad[naive] = failed | local_bad
-        unparsed = np.zeros(len(text), dtype=bool)
-        unparsed[np.flatnonzero(naive)[failed]] = True
-    else:
-        unparsed = np.zeros(len(text), dtype=bool)
-    if aware.any():
-        unparsed |= aware & bad
-    if unparsed.any():
-        log.rows(unparsed, column, lambda r: _why_not_iso(text.iloc[r]), line_of)
-    return Timestamps(ms, bad, ISO)
-
-
-def _why_not_iso(cell: str) -> str:
-    try:
-        float(cell)
-    except ValueError:
-        return f"{cell!r} is not a timestamp; {EXPECTED}"
-    return (
-        f"{cell!r} is an epoch number, but other rows of this column are ISO 8601 text; "
-        "use one form of timestamp throughout the file"
+        return parsed
+    return _parse_iso(
+        text.str.replace(r"z$", "Z", regex=True), missing, is_number, tz, column, log, line_of
     )
 
 
-def _not_numbers(values: pa.Array) -> np.ndarray:
-    numbers = pd.to_numeric(pd.Series(values.to_pandas()), errors="coerce")
-    return numbers.isna().to_numpy()
+def _parse_iso(
+    text: pd.Series,
+    missing: np.ndarray,
+    is_number: np.ndarray,
+    tz: str | None,
+    column: str,
+    log: ProblemLog,
+    line_of: LineMap,
+) -> Timestamps:
+    """ISO 8601 text; times with an offset and naive times (read in ``tz``) apart."""
+    aware = text.str.contains(_OFFSET_AT_END, regex=True, na=False).to_numpy(dtype=bool)
+    ms = np.zeros(len(text), dtype=np.int64)
+    unparsed = np.zeros(len(text), dtype=bool)
+    local_bad = np.zeros(len(text), dtype=bool)
+    if aware.any():
+        parsed = pd.to_datetime(text[aware], format="ISO8601", utc=True, errors="coerce")
+        ms[aware] = _to_ms(parsed)
+        unparsed[aware] = parsed.isna().to_numpy()
+    naive = ~aware & ~missing
+    if naive.any():
+        parsed = pd.to_datetime(text[naive], format="ISO8601", errors="coerce")
+        rows = np.flatnonzero(naive)
+        ms[naive], local_bad[naive] = _localize(parsed, tz, column, log, line_of, rows)
+        unparsed[rows[parsed.isna().to_numpy()]] = True
+    local_bad &= ~unparsed
+    mixed = unparsed & is_number
+    log.rows(
+        unparsed & ~mixed,
+        column,
+        lambda r: f"{text.iloc[r]!r} is not a timestamp; {EXPECTED}",
+        line_of,
+    )
+    log.rows(
+        mixed,
+        column,
+        lambda r: (
+            f"{text.iloc[r]!r} is an epoch number, but other rows of "
+            "this column are ISO 8601 text; use one form of timestamp throughout the file"
+        ),
+        line_of,
+    )
+    return Timestamps(ms, missing | unparsed | local_bad, ISO)
 
 
 def _to_ms(parsed: pd.Series | pd.DatetimeIndex) -> np.ndarray:
