@@ -116,11 +116,38 @@ def reproduction(row: Any) -> dict[str, Any]:
     return out
 
 
+def header_lines(review: Review, page: Page | None, rule: AlertRule | None) -> list[tuple]:
+    """The review's particulars as (label, text, code) rows; ``code`` is shown as code."""
+    rows: list[tuple[str, str, str]] = [("Status", review.status, "")]
+    if review.severity:
+        rows.append(("Severity", review.severity, ""))
+    window = "not recorded"
+    if review.incident_start and review.incident_end:
+        length = filters.duration(review.incident_end - review.incident_start)
+        start, end = (
+            filters.local_time(review.incident_start),
+            filters.local_time(review.incident_end),
+        )
+        window = f"{start} to {end} UTC ({length})"
+    rows.append(("Incident", window, ""))
+    if page is not None:
+        text = f"#{page.id} fired {filters.local_time(page.fired_at)} UTC"
+        if page.resolved_at:
+            text += f", resolved {filters.local_time(page.resolved_at)} UTC"
+        rows.append(("Page", text, page.rule_text or ""))
+    if rule is not None:
+        rows.append(("Alert rule", rule.name, ""))
+    kept = "left out of" if review.exclude_from_baselines else "kept in"
+    rows.append(("Baselines", f"the incident window is {kept} later baselines of its series", ""))
+    return rows
+
+
 def review_context(session: Session, review: Review, tz: str = "UTC") -> dict[str, Any]:
     page = session.get(Page, review.page_id) if review.page_id else None
     rule = session.get(AlertRule, review.alert_rule_id) if review.alert_rule_id else None
     return {
         "review": review,
+        "header": header_lines(review, page, rule),
         "page": page,
         "rule": rule,
         "sections": [(label, getattr(review, name)) for name, label in SECTIONS],
