@@ -3,9 +3,12 @@
 from __future__ import annotations
 
 from collections.abc import Iterator, Sequence
-from typing import TypeVar
+from typing import Any, TypeVar
+
+from sqlalchemy.orm import Session
 
 T = TypeVar("T")
+M = TypeVar("M")
 
 IN_CHUNK = 500  # values per SQL ``IN (...)``, well under every backend's parameter limit
 
@@ -22,3 +25,16 @@ def placeholder(paramstyle: str) -> str:
     if paramstyle not in marks:
         raise NotImplementedError(f"the store needs a qmark or format driver, not {paramstyle}")
     return marks[paramstyle]
+
+
+def require(session: Session, model: type[M], row_id: int, what: str) -> M:
+    """The row of ``model`` with ``row_id``; LookupError naming ``what`` when there is none."""
+    row = session.get(model, row_id)
+    if row is None:
+        raise LookupError(f"there is no {what} #{row_id}")
+    return row
+
+
+def delete_by_id(session: Session, model: type[Any], row_id: int, what: str) -> None:
+    session.delete(require(session, model, row_id, what))
+    session.flush()

@@ -14,6 +14,7 @@ from sqlalchemy import or_, select
 from sqlalchemy.orm import Session
 
 from webapp.store import reviews
+from webapp.store._sql import delete_by_id
 from webapp.store.models import ExcludedPeriod
 from webapp.store.times import timestamp, utc
 
@@ -46,11 +47,7 @@ def list_excluded(session: Session, series_id: int | None = None) -> list[Exclud
 
 
 def delete_excluded(session: Session, excluded_id: int) -> None:
-    row = session.get(ExcludedPeriod, excluded_id)
-    if row is None:
-        raise LookupError(f"there is no excluded period #{excluded_id}")
-    session.delete(row)
-    session.flush()
+    delete_by_id(session, ExcludedPeriod, excluded_id, "excluded period")
 
 
 def periods_for(session: Session, series_id: int) -> list[Span]:

@@ -18,6 +18,7 @@ import pyarrow.parquet as pq
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from webapp.store._sql import delete_by_id, require
 from webapp.store.models import Explanation, Series
 from webapp.store.times import utc
 
@@ -71,9 +72,7 @@ def save_explanation(
     page_id: int | None = None,
 ) -> Explanation:
     """Freeze ``exp`` (a ``webapp.analysis.Explanation``) for one stored series."""
-    series = session.get(Series, series_id)
-    if series is None:
-        raise LookupError(f"there is no series #{series_id}")
+    series = require(session, Series, series_id, "series")
     start, end = exp.window
     row = Explanation(
         series_id=series_id,
@@ -116,8 +115,4 @@ def get_explanation(session: Session, explanation_id: int) -> Explanation | None
 
 def delete_explanation(session: Session, explanation_id: int) -> None:
     """Remove a saved explanation; it is also detached from any review that showed it."""
-    row = session.get(Explanation, explanation_id)
-    if row is None:
-        raise LookupError(f"there is no explanation #{explanation_id}")
-    session.delete(row)
-    session.flush()
+    delete_by_id(session, Explanation, explanation_id, "explanation")

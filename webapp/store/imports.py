@@ -28,7 +28,7 @@ from sqlalchemy.orm import Session
 from webapp.imports._types import ParsedImport
 from webapp.imports.keys import parse_series_key
 from webapp.store import stats
-from webapp.store._sql import chunks, placeholder
+from webapp.store._sql import chunks, placeholder, require
 from webapp.store.models import (
     AlertRule,
     ExcludedPeriod,
@@ -300,9 +300,7 @@ def delete_import(session: Session, import_id: int) -> int:
     Series left without points that nothing else refers to (pages, alert rules, saved
     explanations, excluded periods) are removed too. Raises LookupError for an unknown id.
     """
-    imp = session.get(Import, import_id)
-    if imp is None:
-        raise LookupError(f"there is no import #{import_id}")
+    imp = require(session, Import, import_id, "import")
     keys = list((imp.summary or {}).get("series_keys", []))
     touched = list(series_by_keys(session, keys).values())
     removed = 0

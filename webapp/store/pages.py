@@ -7,6 +7,7 @@ from typing import Any
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from webapp.store._sql import delete_by_id
 from webapp.store.models import Page
 from webapp.store.times import utc
 
@@ -58,8 +59,4 @@ def get_page(session: Session, page_id: int) -> Page | None:
 
 def delete_page(session: Session, page_id: int) -> None:
     """Remove a page; raises LookupError for an unknown id."""
-    page = session.get(Page, page_id)
-    if page is None:
-        raise LookupError(f"there is no page #{page_id}")
-    session.delete(page)
-    session.flush()
+    delete_by_id(session, Page, page_id, "page")

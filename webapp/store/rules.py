@@ -8,6 +8,7 @@ from typing import Any
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from webapp.store._sql import delete_by_id, require
 from webapp.store.models import AlertRule
 
 KINDS = ("threshold", "band")
@@ -82,16 +83,9 @@ def get_rule(session: Session, rule_id: int) -> AlertRule | None:
     return session.get(AlertRule, rule_id)
 
 
-def _require(session: Session, rule_id: int) -> AlertRule:
-    rule = session.get(AlertRule, rule_id)
-    if rule is None:
-        raise LookupError(f"there is no alert rule #{rule_id}")
-    return rule
-
-
 def update_rule(session: Session, rule_id: int, **fields: Any) -> AlertRule:
     """Change some fields; nothing changes when the result would be invalid."""
-    rule = _require(session, rule_id)
+    rule = require(session, AlertRule, rule_id, "alert rule")
     previous = {name: getattr(rule, name) for name in FIELDS}
     _assign(rule, fields)
     try:
@@ -105,5 +99,4 @@ def update_rule(session: Session, rule_id: int, **fields: Any) -> AlertRule:
 
 def delete_rule(session: Session, rule_id: int) -> None:
     """Remove a rule; its pages and reviews keep their text and lose the link."""
-    session.delete(_require(session, rule_id))
-    session.flush()
+    delete_by_id(session, AlertRule, rule_id, "alert rule")

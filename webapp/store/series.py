@@ -11,7 +11,7 @@ import pandas as pd
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from webapp.store._sql import chunks, placeholder
+from webapp.store._sql import chunks, placeholder, require
 from webapp.store.models import Point, Series
 from webapp.store.times import from_ms, to_ms
 
@@ -80,13 +80,6 @@ def series_by_keys(session: Session, keys: Sequence[str]) -> dict[str, Series]:
     return found
 
 
-def _require(session: Session, series_id: int) -> Series:
-    row = session.get(Series, series_id)
-    if row is None:
-        raise LookupError(f"there is no series #{series_id}")
-    return row
-
-
 def read_series(session: Session, series_id: int, start: Any = None, end: Any = None) -> pd.Series:
     """The points of one series between ``start`` and ``end`` (both inclusive, either open).
 
@@ -94,7 +87,7 @@ def read_series(session: Session, series_id: int, start: Any = None, end: Any = 
     Series is named by the series key. Raises LookupError for an unknown id. Reads through
     the driver's cursor: a few weeks of 1-minute data are tens of thousands of rows.
     """
-    row = _require(session, series_id)
+    row = require(session, Series, series_id, "series")
     connection = session.connection()
     p = placeholder(connection.dialect.paramstyle)
     sql = f"SELECT ts, value FROM points WHERE series_id = {p}"
@@ -120,7 +113,7 @@ def read_series(session: Session, series_id: int, start: Any = None, end: Any = 
 def sparkline(session: Session, series_id: int, n: int = 120) -> list[float | None]:
     """The series' whole span cut into ``n`` equal time buckets: each bucket's mean, or
     None where the bucket holds no point."""
-    row = _require(session, series_id)
+    row = require(session, Series, series_id, "series")
     if not row.point_count or row.first_ts is None or row.last_ts is None:
         return []
     span = row.last_ts - row.first_ts + 1
