@@ -295,3 +295,11 @@ def test_expected_band_without_history_is_nan(incident):
     series, _, _ = incident
     grid = pd.date_range(series.index[0] - pd.Timedelta("1D"), periods=12, freq="5min")
     assert expected_band(series, grid)["expected"].isna().all()
+
+
+def test_a_flat_metric_stays_inside_its_band():
+    index = pd.date_range("2026-01-05", periods=3 * 2016, freq="5min", tz="UTC")
+    exp = explain(pd.Series(5.0, index=index), window=(index[-12], index[-1]), history="20D")
+    assert not exp.frame["outside"].any() and exp.scale > 0
+    assert exp.summary[0].endswith("stayed inside the expected band for the whole window.")
+    assert exp.facts["window_minutes"] == 60

@@ -16,7 +16,8 @@ shrunk toward the overall one with the weight of `HOURLY_PRIOR_SAMPLES` samples,
 hours stay near the overall scale. The hourly profile is used only when it differs clearly:
 its highest hour is at least 1.25 times its lowest and beyond what sampling noise of the
 MAD gives (exp(5 / sqrt(n)) for n residuals per hour). Between hour centres the scale is
-interpolated, so the band has no steps. Both rules are our choice.
+interpolated, so the band has no steps. Both rules are our choice. A metric that never moves
+gets a scale of a billionth of its level rather than zero.
 """
 
 from __future__ import annotations
@@ -37,6 +38,7 @@ from ._robust import band_scale_estimate, grouped_robust_scale
 HOURLY_PRIOR_SAMPLES = 50
 HOURLY_MIN_RATIO = 1.25
 HOURLY_NOISE_Z = 5.0
+SCALE_FLOOR = 1e-9
 EMPTY_BAND_COLUMNS = ("trend", "seasonal", "expected", "band_scale", "lower", "upper")
 
 
@@ -55,8 +57,14 @@ class ScaleModel:
         return np.interp(hours, np.arange(24), self.hourly, period=24)
 
 
-def fit_scale(residual: np.ndarray, index: pd.DatetimeIndex, tz: str) -> ScaleModel:
+def fit_scale(
+    residual: np.ndarray, index: pd.DatetimeIndex, tz: str, level: float = 0.0
+) -> ScaleModel:
+    """Overall and (when the data shows it) hourly scale of the residual; never below
+    `SCALE_FLOOR` x |level|, so that a flat metric's band is not made of rounding errors."""
     overall = band_scale_estimate(residual)
+    floor = SCALE_FLOOR * max(abs(level), 1.0) if np.isfinite(level) else SCALE_FLOOR
+    overall = max(overall, floor) if np.isfinite(overall) else overall
     step = index[1] - index[0] if len(index) > 1 else pd.Timedelta(0)
     span = index[-1] - index[0] if len(index) else pd.Timedelta(0)
     if not np.isfinite(overall) or step > pd.Timedelta(hours=1) or span < pd.Timedelta(days=2):
@@ -115,7 +123,8 @@ def fit_baseline(
     holdout = decomposition.holdout
     if not np.isfinite(holdout).any():
         holdout = residual.to_numpy()
-    scale = fit_scale(holdout, baseline.index, tz)
+    level = float(np.nanmedian(np.abs(baseline))) if baseline.notna().any() else 0.0
+    scale = fit_scale(holdout, baseline.index, tz, level)
     return BaselineFit(decomposition, scale, candidates, residual)
 
 

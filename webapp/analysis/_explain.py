@@ -194,7 +194,7 @@ def build_facts(
         "step_seconds": step.total_seconds(),
         "window_start": window[0].isoformat(),
         "window_end": window[1].isoformat(),
-        "window_minutes": (window[1] - window[0]).total_seconds() / 60,
+        "window_minutes": len(in_window) * minutes,
         "history_requested_days": history / pd.Timedelta(days=1),
         "history_usable_days": max(0.0, usable / pd.Timedelta(days=1)),
         "excluded_minutes": excluded_minutes,

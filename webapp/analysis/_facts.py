@@ -2,7 +2,8 @@
 
 Keys (None where not applicable):
 
-- series, unit, tz, tolerance, step_seconds, window_start, window_end, window_minutes
+- series, unit, tz, tolerance, step_seconds, window_start, window_end; window_minutes (grid
+  slots in the window times the step)
 - history_requested_days; history_usable_days (from the first usable sample before the
   window to the window start, excluded time taken off); excluded_minutes
 - coverage_history (share of the history grid with a value, excluded samples not counted),
