@@ -106,3 +106,12 @@ def test_json_lines_are_records(points):
     assert parsed.format == "json-records"
     assert parsed.gap_count == 1
     assert points(parsed) == {("checkout.requests{host=api-1}", 1796025600000): 1450.0}
+
+
+def test_rows_of_empty_cells_are_skipped_like_blank_lines(rejected):
+    text = "ts,metric,host,value\n1796025600,m,a,1\n,,,\n1796025660,m,a,2\n , , ,\n"
+    parsed = parse_bytes(text.encode(), "sheet.csv")
+    assert parsed.rows_read == 2 and parsed.gap_count == 0
+    assert parsed.table["value"].tolist() == [1.0, 2.0]
+    bad = "ts,metric,host,value\n1796025600,m,a,1\n,,,\n1796025660,m,a,x\n"
+    assert rejected(bad)[0].startswith("upload.csv, line 4, column 'value'")

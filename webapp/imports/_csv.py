@@ -9,16 +9,17 @@ from __future__ import annotations
 
 import csv
 from dataclasses import dataclass
-from functools import cache
+from functools import cached_property
 
 import numpy as np
 import pandas as pd
 import pyarrow as pa
+import pyarrow.compute as pc
 import pyarrow.csv as pcsv
 
 from webapp.imports._assemble import assemble
 from webapp.imports._long import TIMESTAMP_NAMES, find_column, long_roles, parse_long_table
-from webapp.imports._problems import ProblemLog
+from webapp.imports._problems import LineMap, ProblemLog
 from webapp.imports._text import non_empty_lines, reject_bad_encoding, without_bom
 from webapp.imports._timestamps import Timestamps, parse_timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
@@ -91,12 +92,12 @@ class _CsvLines:
     def __init__(self, data: memoryview):
         self.data = data
 
-    @cache  # noqa: B019 - one object per file read
+    @cached_property
     def _lines(self) -> np.ndarray:
         return non_empty_lines(self.data)
 
     def __call__(self, rows: np.ndarray) -> np.ndarray:
-        lines = self._lines()
+        lines = self._lines
         return lines[np.minimum(rows + 1, len(lines) - 1)]
 
 
@@ -151,13 +152,37 @@ def _read_with_fallback(
         return _read_table(body, header, as_text, log)
 
 
+def _without_blank_rows(
+    table: pa.Table, ts_name: str, line_of: LineMap
+) -> tuple[pa.Table, LineMap]:
+    """Rows whose every cell is empty (spreadsheets write them as ``,,,``) are skipped like
+    blank lines; line numbers keep pointing at the file's lines."""
+    if table.column(ts_name).null_count == 0 and not pa.types.is_string(
+        table.schema.field(ts_name).type
+    ):
+        return table, line_of
+    blank = np.ones(table.num_rows, dtype=bool)
+    for column in table.columns:
+        empty = column.is_null()
+        if pa.types.is_string(column.type) or pa.types.is_dictionary(column.type):
+            text = column.cast(pa.string()) if pa.types.is_dictionary(column.type) else column
+            empty = pc.or_kleene(empty, pc.equal(pc.utf8_trim_whitespace(text), ""))
+        blank &= np.asarray(empty.to_numpy(), dtype=bool)
+    if not blank.any():
+        return table, line_of
+    kept = np.flatnonzero(~blank)
+    return table.take(kept), lambda rows: line_of(kept[rows])
+
+
 def parse_csv_long(data: bytes, file_name: str, tz: str | None, log: ProblemLog) -> ParsedImport:
     header = read_header(data, log)
     ts_name, metric_name, value_name = long_roles(header.names, log, line=1)
     labels = [n for n in header.names if n not in (ts_name, metric_name, value_name)]
     typed = {value_name: pa.float64(), metric_name: _TEXT} | {n: _TEXT for n in labels}
     body = without_bom(data)
-    table = _read_with_fallback(body, header, typed, log)
+    table, line_of = _without_blank_rows(
+        _read_with_fallback(body, header, typed, log), ts_name, _CsvLines(body)
+    )
     if table.num_rows == 0:
         log.reject("the file has no data rows below the header")
     return parse_long_table(
@@ -167,7 +192,7 @@ def parse_csv_long(data: bytes, file_name: str, tz: str | None, log: ProblemLog)
         format="csv-long",
         tz=tz,
         log=log,
-        line_of=_CsvLines(body),
+        line_of=line_of,
         header_line=1,
     )
 
@@ -195,10 +220,13 @@ def parse_csv_wide(data: bytes, file_name: str, tz: str | None, log: ProblemLog)
         metas.append(SeriesMeta(metric=metric, labels=labels))
     log.check()
     body = without_bom(data)
-    table = _read_with_fallback(body, header, {n: pa.float64() for n in series_columns}, log)
+    table, line_of = _without_blank_rows(
+        _read_with_fallback(body, header, {n: pa.float64() for n in series_columns}, log),
+        ts_name,
+        _CsvLines(body),
+    )
     if table.num_rows == 0:
         log.reject("the file has no data rows below the header")
-    line_of = _CsvLines(body)
     timestamps = parse_timestamps(
         table.column(ts_name), tz=tz, column=ts_name, log=log, line_of=line_of
     )

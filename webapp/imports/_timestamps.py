@@ -60,13 +60,16 @@ def parse_timestamps(
     """
     if isinstance(values, pa.ChunkedArray):
         values = values.combine_chunks()
-    missing = np.asarray(values.is_null().to_numpy(zero_copy_only=False), dtype=bool)
-    if missing.any():
-        log.rows(missing, column, lambda _row: f"missing timestamp; {EXPECTED}", line_of)
     kind = values.type
     if pa.types.is_dictionary(kind):
         values = values.cast(kind.value_type)
         kind = values.type
+    empty = values.is_null()
+    if pa.types.is_string(kind) or pa.types.is_large_string(kind):
+        empty = pc.or_(empty, pc.equal(pc.utf8_trim_whitespace(values), "")).fill_null(True)
+    missing = np.asarray(empty.to_numpy(zero_copy_only=False), dtype=bool)
+    if missing.any():
+        log.rows(missing, column, lambda _row: f"missing timestamp; {EXPECTED}", line_of)
     if pa.types.is_null(kind):  # every cell empty, each one already reported
         return Timestamps(np.zeros(len(values), np.int64), missing, ISO)
     if pa.types.is_string(kind) or pa.types.is_large_string(kind):
