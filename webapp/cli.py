@@ -48,6 +48,14 @@ def describe(url: str) -> str:
     return parsed.render_as_string(hide_password=True)
 
 
+def counted(n: int, noun: str) -> str:
+    """``1 review``, ``2 reviews``; nouns ending in "series" or "s" keep their form for many."""
+    noun = noun.replace("_", " ")
+    if n == 1 and noun.endswith("s") and not noun.endswith("series"):
+        noun = noun[:-1]
+    return f"{n:,} {noun}"
+
+
 def _announce(url: str) -> str:
     click.echo(f"Database: {describe(url)}")
     return url
@@ -220,7 +228,7 @@ def _prepare_demo_target(url: str, own_file: bool, replace: bool) -> Engine:
     held = _stored_rows(engine)
     if held and not replace:
         engine.dispose()
-        listing = ", ".join(f"{n:,} {name}" for name, n in held.items())
+        listing = ", ".join(counted(n, name) for name, n in held.items())
         raise click.ClickException(
             f"{describe(url)} already holds data ({listing}). Use --replace to empty it first, "
             "or leave out --db (and WHYFIRED_DATABASE_URL) to use the demo's own file."
@@ -264,9 +272,7 @@ def demo(
                 counts = load_demo(session, scenario)
         finally:
             engine.dispose()
-    click.echo(
-        "Loaded: " + ", ".join(f"{n:,} {name.replace('_', ' ')}" for name, n in counts.items())
-    )
+    click.echo("Loaded: " + ", ".join(counted(n, name) for name, n in counts.items()))
     if not no_serve:
         _serve(url, host, port)
 

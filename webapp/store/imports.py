@@ -95,7 +95,8 @@ class ImportSummary:
         if self.first_ts is not None and self.last_ts is not None:
             out.append(f"Time range: {self.first_ts.isoformat()} to {self.last_ts.isoformat()}.")
         out.append(
-            f"Timestamps read as {self.timestamp_unit}; naive times taken as {self.naive_tz}."
+            f"Timestamps read as {self.timestamp_unit}; any without a time zone taken as "
+            f"{self.naive_tz}."
         )
         if self.gap_count:
             out.append(f"{self.gap_count:,} empty or NaN values kept as gaps.")
