@@ -16,13 +16,14 @@ periods, Bandara, Hyndman & Bergmeir 2021) and swaps each smoother for a robust,
   day barely move the pattern: one cycle in seven cannot drag it. Phase bins are widened
   to whole steps so that a cycle has at most `MAX_BINS` of them (a day of 1-minute data uses
   2-minute bins), or `NESTED_MAX_BINS` for a period fitted beside a shorter one (the weekly
-  cycle then only carries how days differ: 30-minute bins); this pools samples and keeps
-  the work linear. Bins finer than a quarter of an hour get a light [1, 2, 1] / 4 smoothing
-  across phase: sampling noise otherwise passes straight into the band. Each cycle's
-  pattern is centred (mean 0).
+  cycle then only carries how days differ: 30-minute bins, read as steps so that a change at
+  midnight stays sharp; other periods are read linearly between bin centres); this pools
+  samples and keeps the work linear. Bins finer than a quarter of an hour get a light
+  [1, 2, 1] / 4 smoothing across phase: sampling noise otherwise passes straight into the
+  band. Each cycle's pattern is centred (mean 0).
 * Trend: the deseasonalised series is reduced to medians over short bins (a 168th of the
   longest period), then smoothed with robust lowess (statsmodels; bisquare weights, 3
-  robustness iterations) over STL's default trend span, 1.5 p / (1 - 1.5 / seasonal_span).
+  robustness iterations) over STL's default trend span for seasonal = 7, 1.5 p / (1 - 1.5 / 7).
   Lowess is local-linear, so the trend does not lag at the end of history; it is computed
   exactly every 1/40 of the span and interpolated between (lowess' `delta`), which is what
   keeps it fast on long histories.
@@ -34,7 +35,9 @@ Everything is evaluated through `Decomposition.components(index)`, for the histo
 fitted on or for any later grid: the seasonal of a later cycle is the median of the last
 cycles of its span, the trend stays at its last level. That is the forecast the band
 uses inside the window. The cost is a few bincounts, sorts of (cycles x bins x span) arrays
-and one lowess over at most a few thousand points: linear in the length of history.
+and one lowess over at most a few thousand points: linear in the length of history
+(benchmarks/bench_explain.py compares it with STL). Agreement with statsmodels STL and MSTL
+on co2 and taylor is checked in tests/analysis/test_decompose.py.
 """
 
 from __future__ import annotations
@@ -111,13 +114,17 @@ class PhaseLayout:
         )
 
     def place(self, wall: np.ndarray) -> Placement:
-        """Where each timestamp falls: its cell, and its neighbouring bin centres."""
+        """Where each timestamp falls: its cell, and the bin centres it is read between
+        (its own bin alone for a nested period, whose bins are whole stretches of a day)."""
         rows = np.clip(wall // self.period_ns - self.first_cycle, 0, self.n_cycles - 1)
         phase = wall % self.period_ns
         bins = np.minimum(phase // self.bin_ns, self.n_bins - 1)
-        pos = (phase - self.centre_ns) / self.bin_ns
-        left = np.floor(pos).astype(np.int64)
-        frac = pos - left
+        if self.nested:
+            left, frac = bins, np.zeros(len(wall))
+        else:
+            pos = (phase - self.centre_ns) / self.bin_ns
+            left = np.floor(pos).astype(np.int64)
+            frac = pos - left
         base = rows * self.n_bins
         return Placement(
             cell=base + bins,

@@ -192,9 +192,10 @@ def select_periods(
     for i, cand in enumerate(tried):
         cand.strength = strength(dec, baseline, i)
         cand.kept = cand.strength >= cutoff
-        verb = "kept" if cand.kept else "dropped"
-        relation = "at least" if cand.kept else "below"
-        cand.reason = f"{verb}: strength {cand.strength:.2f} {relation} the cut-off {cutoff:g}"
+        verdict = (
+            "kept: strength {:.2f} reaches" if cand.kept else "dropped: strength {:.2f} is below"
+        )
+        cand.reason = verdict.format(cand.strength) + f" the cut-off {cutoff:g}"
     kept = [c.period for c in tried if c.kept]
     if len(kept) != len(tried):
         dec = decompose(baseline, kept, tz=tz)
