@@ -9,9 +9,7 @@ the others still draw.
 from __future__ import annotations
 
 import logging
-import threading
-from collections import OrderedDict
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -21,6 +19,7 @@ from markupsafe import Markup
 from sqlalchemy.orm import Session
 
 from webapp.web import figures
+from webapp.web.cache import Recent
 from webapp.web.params import ExplainQuery, Span
 
 log = logging.getLogger(__name__)
@@ -63,33 +62,8 @@ def figure_json(fig: go.Figure) -> Markup:
     return Markup(text.replace("&", "\\u0026").replace("<", "\\u003c").replace(">", "\\u003e"))
 
 
-class _Recent:
-    """A small least-recently-used cache shared by the requests of one process."""
-
-    def __init__(self, size: int):
-        self.size = size
-        self.items: OrderedDict[tuple, Any] = OrderedDict()
-        self.lock = threading.Lock()
-
-    def get(self, key: tuple, build: Callable[[], Any]) -> Any:
-        with self.lock:
-            if key in self.items:
-                self.items.move_to_end(key)
-                return self.items[key]
-        value = build()
-        with self.lock:
-            self.items[key] = value
-            while len(self.items) > self.size:
-                self.items.popitem(last=False)
-        return value
-
-    def clear(self) -> None:
-        with self.lock:
-            self.items.clear()
-
-
-_explanations = _Recent(CACHE_SIZE)
-_points = _Recent(2)  # moving a control re-explains without reading the points again
+_explanations = Recent(CACHE_SIZE)
+_points = Recent(2)  # moving a control re-explains without reading the points again
 
 
 def clear_caches() -> None:
@@ -97,18 +71,25 @@ def clear_caches() -> None:
     _points.clear()
 
 
-def data_version(session: Session, series: Any) -> tuple:
-    """Changes whenever the series' stored points or the imports change."""
+def imports_version(session: Session) -> tuple:
+    """Changes whenever an import is recorded or undone, in whichever database."""
     from webapp.store import imports as store_imports
 
     ids = [row.id for row in store_imports.list_imports(session)]
     return (
         session.get_bind().url.render_as_string(hide_password=True),
+        len(ids),
+        max(ids, default=0),
+    )
+
+
+def data_version(session: Session, series: Any) -> tuple:
+    """Changes whenever the series' stored points or the imports change."""
+    return (
+        *imports_version(session),
         getattr(series, "point_count", None),
         getattr(series, "first_ts", None),
         getattr(series, "last_ts", None),
-        len(ids),
-        max(ids, default=0),
     )
 
 

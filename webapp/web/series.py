@@ -6,12 +6,15 @@ from flask import Blueprint, abort, redirect, request, url_for
 from werkzeug.wrappers import Response
 
 from webapp.store import db
+from webapp.web.cache import Recent
+from webapp.web.evidence import imports_version
 from webapp.web.htmx import render
 from webapp.web.sparkline import sparkline_path
 
 bp = Blueprint("series", __name__)
 
 MAX_QUERY = 200
+_sparklines = Recent(2000)
 
 
 @bp.get("/series")
@@ -21,7 +24,14 @@ def index() -> str:
     q = (request.args.get("q") or "").strip()[:MAX_QUERY]
     session = db.get_session()
     rows = store_series.list_series(session, q or None)
-    paths = {row.id: sparkline_path(store_series.sparkline(session, row.id)) for row in rows}
+    version = imports_version(session)
+    paths = {
+        row.id: _sparklines.get(
+            (version, row.id, row.n_points, row.first, row.last),
+            lambda row=row: sparkline_path(store_series.sparkline(session, row.id)),
+        )
+        for row in rows
+    }
     return render("series/index.html", "series/_rows.html", rows=rows, paths=paths, q=q)
 
 
