@@ -136,8 +136,17 @@ def test_unknown_rule_is_a_readable_404(client) -> None:
     assert response.status_code == 404 and "There is no alert rule #42" in response.text
 
 
+def test_rule_page_loads_its_replay_through_htmx(client, rule, watched) -> None:
+    page = client.get(f"/rules/{rule.id}").text
+    url = f"/rules/{rule.id}/replay?series_id={watched.id}"
+    assert f'hx-get="{url}"' in page and 'hx-trigger="load"' in page
+    assert '<span class="count">' not in page  # nothing replayed yet
+    fragment = client.get(url, headers={"HX-Request": "true"}).text
+    assert "<html" not in fragment and count(fragment, "firings") == "3"
+
+
 def test_replay_counts_firings_and_incidents(client, rule, incident_review) -> None:
-    text = html.unescape(client.get(f"/rules/{rule.id}").text)
+    text = html.unescape(client.get(f"/rules/{rule.id}/replay").text)
     assert count(text, "firings") == "3"
     assert count(text, "inside incidents") == "1"
     assert count(text, "outside incidents") == "2"
@@ -149,7 +158,7 @@ def test_replay_counts_firings_and_incidents(client, rule, incident_review) -> N
 
 
 def test_replay_page_has_the_sweep_and_the_warning(client, rule, incident_review) -> None:
-    text = html.unescape(client.get(f"/rules/{rule.id}").text)
+    text = html.unescape(client.get(f"/rules/{rule.id}/replay").text)
     assert 'id="sweep-figure"' in text and 'id="replay-figure"' in text
     assert "pages per week" in text and "incidents caught" in text
     assert "Retiring an alert can hide a real failure" in text
@@ -174,7 +183,7 @@ def test_metric_rule_matches_series_by_labels(client, session, watched) -> None:
         threshold=200.0,
     )
     session.commit()
-    text = client.get(f"/rules/{row.id}").text
+    text = client.get(f"/rules/{row.id}/replay").text
     assert count(text, "firings") == "3"
 
 

@@ -16,6 +16,7 @@ from webapp.store import rules as store_rules
 from webapp.store import series as store_series
 from webapp.store.models import AlertRule, Review
 from webapp.store.reviews import ReviewInvalid
+from webapp.web.htmx import render
 from webapp.web.rule_form import RuleFormInvalid, parse_rule_form, rule_form_values
 from webapp.web.rule_replay import TZ, Replay, firing_rows, matching_series, rule_text, run_replay
 
@@ -94,11 +95,22 @@ def delete(rule_id: int) -> Any:
 
 @bp.get("/rules/<int:rule_id>")
 def show(rule_id: int) -> Any:
+    """The rule's page at once; its replay (seconds for a band rule) follows through htmx."""
+    return _show(load_rule(rule_id), lazy=True)
+
+
+@bp.get("/rules/<int:rule_id>/replay")
+def replay(rule_id: int) -> Any:
+    """The replay, sweep and verdict draft: the fragment for htmx, or the whole page."""
     return _show(load_rule(rule_id))
 
 
 def _show(
-    rule: AlertRule, form: Mapping[str, Any] | None = None, errors: Mapping[str, str] | None = None
+    rule: AlertRule,
+    form: Mapping[str, Any] | None = None,
+    errors: Mapping[str, str] | None = None,
+    *,
+    lazy: bool = False,
 ):
     session = db.get_session()
     candidates = matching_series(session, rule)
@@ -111,14 +123,16 @@ def _show(
         problem = (
             "No stored series matches this rule yet. Import its data, or edit the rule's series."
         )
-    else:
+    elif not lazy:
         try:
             replay = run_replay(session, rule, info)
         except ValueError as err:
             problem = f"This rule cannot be replayed: {err}."
     reviews = _reviews_for(session, info.id if info else None)
-    html = render_template(
+    html = render(
         "rules/show.html",
+        "rules/_replay.html",
+        lazy=lazy and info is not None,
         rule=rule,
         candidates=candidates,
         info=info,
