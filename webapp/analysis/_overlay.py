@@ -7,10 +7,8 @@ import pandas as pd
 
 from ._checks import check_window
 from ._clock import check_tz, same_wall_clock_weeks_ago
-from ._grid import Agg, regularize, to_utc
+from ._grid import Agg, as_utc_series, infer_step, regularize
 from ._robust import quiet_nan_warnings
-
-SUMMARY_COLUMNS = ("median", "p10", "p90", "min", "max")
 
 
 def past_weeks_overlay(
@@ -32,13 +30,16 @@ def past_weeks_overlay(
     start, end = check_window(window)
     if not isinstance(weeks, int | np.integer) or weeks < 1:
         raise ValueError(f"weeks must be a positive whole number, got {weeks!r}")
-    regular = regularize(series, step, agg=agg, end=max(end, to_utc(series.index.max())))
+    clean = as_utc_series(series)
+    step = infer_step(clean.index) if step is None else pd.Timedelta(step)
+    reach = start - pd.Timedelta(weeks=weeks, days=1)  # a day more, for daylight saving
+    nearby = clean[(clean.index >= reach) & (clean.index <= end + step)]
+    regular = regularize(nearby if nearby.notna().any() else clean, step, agg=agg, end=end)
     grid = regular.index[(regular.index >= start) & (regular.index <= end)]
-    step_td = regular.index[1] - regular.index[0] if len(regular) > 1 else pd.Timedelta("1min")
     columns = {}
     for k in range(1, weeks + 1):
         targets = same_wall_clock_weeks_ago(grid, k, tz)
-        at = regular.index.get_indexer(targets, method="nearest", tolerance=step_td / 2)
+        at = regular.index.get_indexer(targets, method="nearest", tolerance=step / 2)
         values = np.where(at >= 0, regular.to_numpy()[np.maximum(at, 0)], np.nan)
         values[targets.isna()] = np.nan
         columns[f"week_-{k}"] = values
