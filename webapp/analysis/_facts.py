@@ -135,7 +135,8 @@ def same_hour_facts(
     step = frame.index[1] - frame.index[0]
     length = max(pd.Timedelta(hours=1), step)
     local = pd.Timestamp(peak_time).tz_convert(tz)
-    start = local.floor("h") if step <= pd.Timedelta(hours=1) else local
+    into_hour = pd.Timedelta(minutes=local.minute, seconds=local.second)
+    start = local - into_hour if step <= pd.Timedelta(hours=1) else local  # safe at DST
     end = start + length
     in_window = frame[frame["in_window"]]
     here = in_window["value"][(in_window.index >= start) & (in_window.index < end)]
