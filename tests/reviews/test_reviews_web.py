@@ -155,7 +155,7 @@ def test_timeline_entry_and_one_from_a_fact(client, csrf, review, make_explanati
     ok = post(client, f"/reviews/{review.id}/timeline", csrf, at="2026-11-30T14:20", text="Paged")
     assert ok.status_code == 302
     page = client.get(f"/reviews/{review.id}").text
-    assert "first outside" in page  # the fact is offered
+    assert "First outside the expected band" in page  # the fact is offered
     fact = post(
         client,
         f"/reviews/{review.id}/timeline/fact",

@@ -263,3 +263,18 @@ def test_incident_windows_by_page_and_by_attachment(
         (pd.Timestamp("2026-12-01 10:00", tz="UTC"), pd.Timestamp("2026-12-01 11:00", tz="UTC")),
     ]
     assert reviews.series_ids_of(session, by_page) == {series.id}
+
+
+def test_time_facts_of_a_computed_explanation_put_the_first_outside_first(
+    session, make_series, make_real_explanation
+) -> None:
+    exp = make_real_explanation(make_series())
+    facts = reviews.time_facts(exp)
+    assert next(iter(facts)) == "first_outside"
+    # the synthetic burst starts with the window (conftest): the first time outside is in it
+    assert reviews.parse_time(exp.facts["first_outside"]) == facts["first_outside"]
+    assert exp.window_start <= facts["first_outside"] <= exp.window_end
+    entry = reviews.timeline_entry_from_fact(
+        session, reviews.create_review(session, {"title": "t"}), exp, "first_outside"
+    )
+    assert entry.text.startswith("First outside the expected band on ")

@@ -276,8 +276,19 @@ def add_timeline_entry(
     return entry
 
 
+FACT_LABELS = {  # the explainer's time facts a timeline most often wants, in that order
+    "first_outside": "First outside the expected band",
+    "peak_time": "Peak value",
+    "strongest_time": "Furthest from the expected value",
+    "last_outside": "Last outside the expected band",
+    "window_start": "Explained window starts",
+    "window_end": "Explained window ends",
+}
+
+
 def time_facts(explanation: Explanation) -> dict[str, dt.datetime]:
-    """The facts of an explanation that are points in time (e.g. the first out-of-band time)."""
+    """The facts of an explanation that are points in time (e.g. the first out-of-band time),
+    the usual timeline moments first, then the others in time order."""
     found = {}
     for name, value in (explanation.facts or {}).items():
         if isinstance(value, str) and _ISO_TIME.match(value):
@@ -287,11 +298,13 @@ def time_facts(explanation: Explanation) -> dict[str, dt.datetime]:
                 continue
             if when is not None:
                 found[name] = when
-    return found
+    known = [name for name in FACT_LABELS if name in found]
+    others = sorted((n for n in found if n not in FACT_LABELS), key=lambda n: found[n])
+    return {name: found[name] for name in known + others}
 
 
 def fact_label(name: str) -> str:
-    return name.replace("_", " ").strip().capitalize()
+    return FACT_LABELS.get(name) or name.replace("_", " ").strip().capitalize()
 
 
 def timeline_entry_from_fact(

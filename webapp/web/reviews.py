@@ -136,6 +136,7 @@ def _show(
         errors=errors or {},
         verdict_warning=store.VERDICT_WARNING,
         format_parameters=store.format_parameters,
+        fact_label=store.fact_label,
         tz=TZ,
     )
     return html, 422 if errors else 200
