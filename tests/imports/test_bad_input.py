@@ -106,8 +106,10 @@ def test_file_over_the_size_limit_is_refused_before_reading(tmp_path):
     path.write_text(HEADER + GOOD * 100)
     with pytest.raises(ImportRejected) as caught:
         parse_file(path, max_bytes=1024)
-    assert str(caught.value.problems[0]).startswith("big.csv: the file is 0.0 MB, over the")
-    assert "limit" in str(caught.value.problems[0])
+    assert str(caught.value.problems[0]) == (
+        f"big.csv: the file is {path.stat().st_size / 1024:.1f} KB, over the 1.0 KB limit "
+        "(raise MAX_IMPORT_MB to accept larger files)"
+    )
 
 
 def test_unknown_format(rejected):
@@ -256,3 +258,29 @@ def test_missing_file_is_a_problem_not_a_traceback(tmp_path):
     with pytest.raises(ImportRejected) as caught:
         parse_file(tmp_path / "gone.csv")
     assert str(caught.value.problems[0]).startswith("gone.csv: cannot read the file")
+
+
+def test_size_limit_applies_to_bytes_too(rejected):
+    problems = rejected(HEADER + GOOD * 10, max_bytes=100)
+    assert problems == [
+        f"upload.csv: the file is {len(HEADER + GOOD * 10)} bytes, over the 100 bytes limit "
+        "(raise MAX_IMPORT_MB to accept larger files)"
+    ]
+
+
+@pytest.mark.parametrize(
+    ("name", "text"),
+    [
+        (
+            "r.json",
+            '[\n {"timestamp": 1796025600, "metric": "m", "labels": {"city": "Sal\xe9"}, '
+            '"value": 1}\n]\n',
+        ),
+        ("x.txt", '# TYPE m gauge\nm{city="Sal\xe9"} 1 1796025600\n# EOF\n'),
+    ],
+)
+def test_wrong_encoding_in_json_and_openmetrics(rejected, name, text):
+    problems = rejected(text.encode("latin-1"), name=name)
+    assert len(problems) == 1
+    assert problems[0].startswith(f"{name}, line 2: byte 0xE9 at character ")
+    assert problems[0].endswith("is not UTF-8; expected a UTF-8 file (save or export it as UTF-8)")

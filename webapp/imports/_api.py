@@ -32,11 +32,17 @@ PARSERS: dict[str, Parser] = {
 }
 
 
+def _size(n: int) -> str:
+    if n >= 1024**2:
+        return f"{n / 1024**2:.1f} MB"
+    return f"{n / 1024:.1f} KB" if n >= 1024 else f"{n} bytes"
+
+
 def _too_big(size: int, max_bytes: int, log: ProblemLog) -> None:
     if size > max_bytes:
         log.reject(
-            f"the file is {size / 1024**2:.1f} MB, over the {max_bytes / 1024**2:.0f} MB "
-            "limit (raise MAX_IMPORT_MB to accept larger files)"
+            f"the file is {_size(size)}, over the {_size(max_bytes)} limit "
+            "(raise MAX_IMPORT_MB to accept larger files)"
         )
 
 
