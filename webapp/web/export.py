@@ -132,6 +132,8 @@ def header_lines(review: Review, page: Page | None, rule: AlertRule | None) -> l
     rows.append(("Incident", window, ""))
     if page is not None:
         text = f"#{page.id} fired {filters.local_time(page.fired_at)} UTC"
+        if review.incident_start and page.fired_at >= review.incident_start:
+            text += f", {filters.duration(page.fired_at - review.incident_start)} after it began"
         if page.resolved_at:
             text += f", resolved {filters.local_time(page.resolved_at)} UTC"
         rows.append(("Page", text, page.rule_text or ""))

@@ -125,9 +125,12 @@ def _show(
         for e in session.query(Explanation).order_by(Explanation.created_at.desc()).limit(200)
         if e.id not in attached
     ]
+    page = session.get(Page, review.page_id) if review.page_id else None
+    rule = session.get(AlertRule, review.alert_rule_id) if review.alert_rule_id else None
     html = render_template(
         "reviews/show.html",
         review=review,
+        header=export.header_lines(review, page, rule),
         evidence=evidence,
         available=available,
         time_facts={a.explanation_id: store.time_facts(a.explanation) for a in review.attachments},
