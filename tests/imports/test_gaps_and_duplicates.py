@@ -115,3 +115,15 @@ def test_rows_of_empty_cells_are_skipped_like_blank_lines(rejected):
     assert parsed.table["value"].tolist() == [1.0, 2.0]
     bad = "ts,metric,host,value\n1796025600,m,a,1\n,,,\n1796025660,m,a,x\n"
     assert rejected(bad)[0].startswith("upload.csv, line 4, column 'value'")
+
+
+def test_decimal_commas_in_semicolon_and_tab_files(points):
+    text = "timestamp;metric;host;value\n1796025600;checkout.latency_p95;api-1;183,4\n"
+    assert list(points(parse_bytes(text.encode(), "de.csv")).values()) == [183.4]
+    wide = "ts\tcheckout.latency_p95{host=api-1}\n1796025600\t-0,5\n"
+    assert list(points(parse_bytes(wide.encode(), "de.tsv")).values()) == [-0.5]
+
+
+def test_commas_in_comma_files_are_not_decimal_points(rejected):
+    problems = rejected('timestamp,metric,value\n1796025600,m,"183,4"\n')
+    assert problems[0].startswith("upload.csv, line 2, column 'value': '183,4' is not a number")

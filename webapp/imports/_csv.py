@@ -194,6 +194,7 @@ def parse_csv_long(data: bytes, file_name: str, tz: str | None, log: ProblemLog)
         log=log,
         line_of=line_of,
         header_line=1,
+        decimal_comma=header.delimiter != ",",
     )
 
 
@@ -231,7 +232,14 @@ def parse_csv_wide(data: bytes, file_name: str, tz: str | None, log: ProblemLog)
         table.column(ts_name), tz=tz, column=ts_name, log=log, line_of=line_of
     )
     columns = [
-        parse_values(table.column(n), column=n, log=log, line_of=line_of) for n in series_columns
+        parse_values(
+            table.column(n),
+            column=n,
+            log=log,
+            line_of=line_of,
+            decimal_comma=header.delimiter != ",",
+        )
+        for n in series_columns
     ]
     n_rows, n_series = table.num_rows, len(series_columns)
     values = np.column_stack(columns).reshape(-1) if columns else np.zeros(0)

@@ -56,6 +56,7 @@ def parse_long_table(
     log: ProblemLog,
     line_of: LineMap,
     header_line: int | None,
+    decimal_comma: bool = False,
 ) -> ParsedImport:
     names = table.column_names
     ts_name, metric_name, value_name = long_roles(names, log, header_line)
@@ -63,7 +64,13 @@ def parse_long_table(
     timestamps = parse_timestamps(
         table.column(ts_name), tz=tz, column=ts_name, log=log, line_of=line_of
     )
-    values = parse_values(table.column(value_name), column=value_name, log=log, line_of=line_of)
+    values = parse_values(
+        table.column(value_name),
+        column=value_name,
+        log=log,
+        line_of=line_of,
+        decimal_comma=decimal_comma,
+    )
     codes, metas = series_codes(table, metric_name, label_names, log, line_of)
     return assemble(
         data=data,
