@@ -102,6 +102,24 @@ def test_an_unusable_database_gets_one_readable_line(runner, tmp_path):
     assert "Traceback" not in result.output
 
 
+def test_a_database_failure_during_an_import_is_one_line_and_stores_nothing(
+    runner, db_url, monkeypatch
+):
+    import sqlite3
+
+    from webapp.store import imports as store_imports
+
+    def locked(cursor, sql, rows):
+        raise sqlite3.OperationalError("database is locked")
+
+    monkeypatch.setattr(store_imports, "_write_batch", locked)
+    result = runner.invoke(cli, ["import", str(EXAMPLE_LONG), "--db", db_url])
+    assert result.exit_code == 1
+    assert "could not use the database at" in result.output and "locked" in result.output
+    assert "Traceback" not in result.output
+    assert count(db_url, Import) == 0
+
+
 def test_db_upgrade_brings_a_new_file_to_the_latest_revision(runner, tmp_path):
     url = f"sqlite:///{tmp_path / 'new.sqlite'}"
     result = runner.invoke(cli, ["db", "upgrade", "--db", url])

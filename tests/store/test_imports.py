@@ -196,3 +196,19 @@ def test_repeated_pairs_in_a_table_keep_the_last_value(engine, make_parsed):
     summary = record(engine, make_parsed(["m", "m", "m"], [0, 0, MIN], [1.0, 2.0, 3.0]))
     assert (summary.points, summary.inserted) == (2, 2)
     assert [v for _sid, _ts, v, _imp in snapshot(engine)["points"]] == [2.0, 3.0]
+
+
+def test_driver_errors_in_the_bulk_path_come_out_as_sqlalchemy_errors(
+    engine, make_parsed, monkeypatch
+):
+    import sqlite3
+
+    from sqlalchemy.exc import OperationalError
+
+    def locked(cursor, sql, rows):
+        raise sqlite3.OperationalError("database is locked")
+
+    monkeypatch.setattr(store_imports, "_write_batch", locked)
+    with pytest.raises(OperationalError, match="database is locked"):
+        record(engine, make_parsed(["m"], [0], [1.0]))
+    assert snapshot(engine)["imports"] == []

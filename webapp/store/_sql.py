@@ -3,8 +3,11 @@
 from __future__ import annotations
 
 from collections.abc import Iterator, Sequence
+from contextlib import contextmanager
 from typing import Any, TypeVar
 
+from sqlalchemy import Connection
+from sqlalchemy.exc import DBAPIError
 from sqlalchemy.orm import Session
 
 T = TypeVar("T")
@@ -38,3 +41,17 @@ def require(session: Session, model: type[M], row_id: int, what: str) -> M:
 def delete_by_id(session: Session, model: type[Any], row_id: int, what: str) -> None:
     session.delete(require(session, model, row_id, what))
     session.flush()
+
+
+@contextmanager
+def driver_cursor(connection: Connection, statement: str) -> Iterator[Any]:
+    """A DB-API cursor on ``connection`` (inside its transaction) whose driver errors come
+    out as SQLAlchemy's, like every other database error of the store."""
+    dbapi_error = connection.dialect.loaded_dbapi.Error
+    cursor = connection.connection.cursor()
+    try:
+        yield cursor
+    except dbapi_error as err:
+        raise DBAPIError.instance(statement, None, err, dbapi_error) from err
+    finally:
+        cursor.close()

@@ -28,7 +28,7 @@ from sqlalchemy.orm import Session
 from webapp.imports._types import ParsedImport
 from webapp.imports.keys import parse_series_key
 from webapp.store import stats
-from webapp.store._sql import chunks, placeholder, require
+from webapp.store._sql import chunks, driver_cursor, placeholder, require
 from webapp.store.models import (
     AlertRule,
     ExcludedPeriod,
@@ -270,12 +270,9 @@ def _write_points(
         return
     connection = session.connection()
     sql = _points_sql(connection.dialect.paramstyle, import_id, upsert=upsert)
-    cursor = connection.connection.cursor()
-    try:
+    with driver_cursor(connection, sql) as cursor:
         for batch in _batches(series_ids, ts, values):
             _write_batch(cursor, sql, batch)
-    finally:
-        cursor.close()
 
 
 def _batches(

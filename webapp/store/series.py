@@ -11,7 +11,7 @@ import pandas as pd
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from webapp.store._sql import chunks, placeholder, require
+from webapp.store._sql import chunks, driver_cursor, placeholder, require
 from webapp.store.models import Point, Series
 from webapp.store.times import from_ms, to_ms
 
@@ -98,12 +98,10 @@ def read_series(session: Session, series_id: int, start: Any = None, end: Any = 
     if end is not None:
         sql += f" AND ts <= {p}"
         params.append(to_ms(end))
-    cursor = connection.connection.cursor()
-    try:
-        cursor.execute(sql + " ORDER BY ts", params)
+    sql += " ORDER BY ts"
+    with driver_cursor(connection, sql) as cursor:
+        cursor.execute(sql, params)
         rows = cursor.fetchall()
-    finally:
-        cursor.close()
     ts = np.fromiter((r[0] for r in rows), dtype=np.int64, count=len(rows))
     values = np.fromiter((r[1] for r in rows), dtype=np.float64, count=len(rows))
     index = pd.DatetimeIndex(ts.astype("datetime64[ms]").astype("datetime64[ns]"), name="ts")
