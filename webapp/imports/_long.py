@@ -113,9 +113,8 @@ def series_codes(
             packed, span = _compact(packed, span)
             span = int(packed.max()) + 1
     codes, count = _compact(packed, span)
-    first_rows = np.flatnonzero(~pd.Series(codes).duplicated().to_numpy())
-    first_of_code = np.empty(count, dtype=np.int64)
-    first_of_code[codes[first_rows]] = first_rows
+    first_of_code = np.full(count, table.num_rows, dtype=np.int64)
+    np.minimum.at(first_of_code, codes, np.arange(table.num_rows))
     metas, reasons = [], {}
     for code, row in enumerate(first_of_code.tolist()):
         parts = [d[int(i[row])] for d, i in zip(dictionaries, indices, strict=True)]

@@ -26,6 +26,7 @@ _INT_DIVISOR = {"microseconds": 1000, "nanoseconds": 1_000_000}
 # after that is 1000 times finer.
 _MAGNITUDE_EDGES = (1e11, 1e14, 1e17)
 MAX_MS = 9_223_372_036_854  # the end of pandas' nanosecond range (year 2262)
+RANGE = "1970-01-01..2262-04-11"
 EXPECTED = "expected ISO 8601 (e.g. 2026-11-30T08:00:00Z) or epoch seconds/ms/us/ns"
 _OFFSET_AT_END = r"\d\d:\d\d(?::\d\d(?:[.,]\d+)?)?\s*(?:[Zz]|[+-]\d\d(?::?\d\d)?)$"
 
@@ -91,7 +92,7 @@ def _check_range(parsed: Timestamps, column: str, log: ProblemLog, line_of: Line
         log.rows(
             out,
             column,
-            lambda row: f"timestamp {parsed.ms[row]} ms is outside 1970-01-01..2262-04-11",
+            lambda row: f"timestamp {parsed.ms[row]} ms is outside {RANGE}",
             line_of,
         )
         parsed.bad |= out
@@ -123,7 +124,13 @@ def _parse_epoch(
             _report_odd_magnitudes(raw, bad, unit, column, log, line_of)
     filled = np.where(bad, 0, raw) if bad.any() else raw
     if is_float:
-        ms = np.rint(filled * _MS_PER_UNIT[unit]).astype(np.int64)
+        scaled = np.rint(filled * _MS_PER_UNIT[unit])
+        huge = ~bad & (np.abs(scaled) > MAX_MS)
+        if huge.any():
+            log.rows(huge, column, lambda r: f"epoch value {raw[r]} is outside {RANGE}", line_of)
+            bad |= huge
+            scaled[huge] = 0
+        ms = scaled.astype(np.int64)
     else:
         ms = _scale_to_ms(filled.astype(np.int64, copy=False), unit)
     return Timestamps(ms, bad, f"epoch {unit}")
