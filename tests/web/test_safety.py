@@ -105,3 +105,13 @@ def test_vendored_htmx_is_pinned_with_its_licence(client):
     licence = client.get("/static/vendor/htmx/LICENSE")
     assert js.status_code == 200 and b"htmx" in js.data
     assert licence.status_code == 200 and b"Permission" in licence.data
+
+
+def test_hostile_series_key_cannot_break_out_of_the_figure_json(
+    client, csrf, upload_files, make_csv, url_for_explain
+):
+    hostile = "</script><script>alert(2)</script>"
+    assert upload_files([(make_csv(weeks=2, host=hostile), "h.csv")]).status_code == 200
+    body = client.get(url_for_explain(1)).get_data(as_text=True)
+    assert "<script>alert(2)" not in body
+    assert "\\u003c/script\\u003e\\u003cscript\\u003ealert(2)" in body  # inside the figure JSON
