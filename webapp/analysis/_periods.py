@@ -17,8 +17,9 @@ seasonal component as for multiple seasonal periods. Two choices of our own:
   cycles and the other way round. Scored in-sample, a pattern fitted to pure noise over k
   cycles earns a strength near 1/k (0.5 with two weeks of history), which would keep cycles
   that are not there; scored out of cycle, noise earns about zero.
-* Variances are robust (squared MAD x 1.4826), so one past incident in the history does not
-  decide whether a cycle is kept.
+* Both variances leave out the samples whose residual is more than 5 robust sds (MAD x
+  1.4826) from its median, so one past incident in the history does not decide whether a
+  cycle is kept; on clean data this is the published formula unchanged.
 
 The cut-off 0.25 is our choice: below it a cycle explains under a quarter of what is left
 after the other components, and with few cycles its estimate adds more noise than it removes.
@@ -45,6 +46,7 @@ ACF_MIN_HEIGHT = 0.2
 ACF_MAX_POINTS = 4096
 ACF_MAX_CANDIDATES = 2
 FUNDAMENTAL_SHARE = 0.8
+OUTLIER_SDS = 5.0
 HARMONIC_TOLERANCE = 0.05
 
 
@@ -163,10 +165,13 @@ def strength(dec: Decomposition, baseline: pd.Series, which: int) -> float:
     profiles = [seasonal_table(cells, layout, rows[parity == k][None, :])[0] for k in (0, 1)]
     crossed = np.stack([profiles[1 - k] for k in parity])
     residual = remainder - place.evaluate(crossed)
-    total = robust_scale(remainder) ** 2
-    if not np.isfinite(total) or total == 0:
+    ok = np.isfinite(residual)
+    spread = robust_scale(residual)
+    if np.isfinite(spread) and spread > 0:
+        ok &= np.abs(residual - np.nanmedian(residual)) <= OUTLIER_SDS * spread
+    if ok.sum() < 2 or np.var(remainder[ok]) == 0:
         return 0.0
-    return float(max(0.0, 1.0 - robust_scale(residual) ** 2 / total))
+    return float(max(0.0, 1.0 - np.var(residual[ok]) / np.var(remainder[ok])))
 
 
 def select_periods(
