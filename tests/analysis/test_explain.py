@@ -16,7 +16,8 @@ DOCUMENTED_FACTS = {
     "strongest_time", "strongest_value", "strongest_expected", "strongest_deviation_sd",
     "minutes_outside", "minutes_above", "minutes_below", "outside_stretches", "first_outside",
     "last_outside", "same_hour_start", "same_hour_end", "same_hour_value", "same_hour_weeks",
-    "same_hour_rank", "same_hour_past_max", "same_hour_past_median", "confidence",
+    "same_hour_rank", "same_hour_past_extreme", "same_hour_past_median", "same_hour_side",
+    "confidence",
     "confidence_reasons",
 }  # fmt: skip
 
@@ -181,7 +182,7 @@ def test_facts_describe_the_surge(incident):
     assert f["peak_deviation_sd"] > 20
     assert surge_start <= pd.Timestamp(f["peak_time"]) <= series.index[-93]
     assert f["peak_value"] == pytest.approx(series.max())
-    assert f["same_hour_rank"] == 1 and f["same_hour_weeks"] == 6
+    assert f["same_hour_rank"] == 1 and f["same_hour_weeks"] == 6 and f["same_hour_side"] == "high"
 
 
 def test_sentences_are_deterministic_with_units(incident):
@@ -303,3 +304,16 @@ def test_a_flat_metric_stays_inside_its_band():
     assert not exp.frame["outside"].any() and exp.scale > 0
     assert exp.summary[0].endswith("stayed inside the expected band for the whole window.")
     assert exp.facts["window_minutes"] == 60
+
+
+def test_a_drop_leads_the_sentences(make_service_series):
+    series, _ = make_service_series(weeks=7, sigma=4, seed=12)
+    window = (series.index[-288], series.index[-1])
+    series.iloc[-150:-120] -= 150  # traffic fell for 2.5 hours
+    exp = explain(series, window=window, history="42D", unit="ms")
+    f = exp.facts
+    assert f["minutes_below"] == 150 and f["strongest_deviation_sd"] < -20
+    assert f["same_hour_side"] == "low" and f["same_hour_rank"] == 1
+    assert exp.summary[1].startswith("It fell to ")
+    assert not any(s.startswith("It peaked") for s in exp.summary)
+    assert "is the lowest of the last 7 weeks" in " ".join(exp.summary)

@@ -212,9 +212,10 @@ def build_facts(
         "scale_varies_by_hour": bool(fit is not None and fit.scale.hourly is not None),
         "window_samples": int(in_window["value"].notna().sum()),
     }
-    facts.update(point_facts(in_window))
+    points = point_facts(in_window)
+    facts.update(points)
     facts.update(outside_facts(in_window, step))
-    facts.update(same_hour_facts(frame, baseline, facts["peak_time"], tz))
+    facts.update(same_hour_facts(frame, baseline, points, tz))
     facts["confidence"] = level
     facts["confidence_reasons"] = reasons
     return facts

@@ -18,10 +18,13 @@ Keys (None where not applicable):
   furthest from expected (either side)
 - minutes_outside, minutes_above, minutes_below, outside_stretches, first_outside,
   last_outside
-- same_hour_start, same_hour_end: the wall-clock hour of the peak; same_hour_value: the
-  window's highest value in it; same_hour_weeks: earlier weeks with data in the same
-  hour-of-week; same_hour_rank: 1 = highest among this week and those weeks;
-  same_hour_past_max, same_hour_past_median: of the earlier weeks' highest values
+- same_hour_side: "high" (the comparison is by highest values, in the wall-clock hour of
+  the peak) or "low" (by lowest values, in the hour of the strongest deviation, when that
+  is a drop); same_hour_start, same_hour_end: that hour; same_hour_value: the window's
+  highest (lowest) value in it; same_hour_weeks: earlier weeks with data in the same
+  hour-of-week; same_hour_rank: 1 = highest (lowest) among this week and those weeks;
+  same_hour_past_extreme, same_hour_past_median: of the earlier weeks' highest (lowest)
+  values
 - confidence ("high" | "medium" | "low"), confidence_reasons (list of str)
 """
 
@@ -115,53 +118,59 @@ def deviation(row: pd.Series) -> float | None:
 
 
 def same_hour_facts(
-    frame: pd.DataFrame, baseline: pd.Series, peak_time: str | None, tz: str
+    frame: pd.DataFrame, baseline: pd.Series, points: dict[str, Any], tz: str
 ) -> dict[str, Any]:
-    """Compare the window's highest value in the peak's wall-clock hour with the highest
-    value in the same hour-of-week of every earlier week the history holds."""
+    """Compare the window with the same wall-clock hour-of-week of every earlier week the
+    history holds: by highest values around the peak or, when the window's largest deviation
+    is a drop, by lowest values around that drop."""
     out: dict[str, Any] = dict.fromkeys(
         [
+            "same_hour_side",
             "same_hour_start",
             "same_hour_end",
             "same_hour_value",
             "same_hour_weeks",
             "same_hour_rank",
-            "same_hour_past_max",
+            "same_hour_past_extreme",
             "same_hour_past_median",
         ]
     )
-    if peak_time is None:
+    low = (points["strongest_deviation_sd"] or 0) < 0
+    at = points["strongest_time"] if low else points["peak_time"]
+    if at is None:
         return out
+    extreme = np.nanmin if low else np.nanmax
     step = frame.index[1] - frame.index[0]
     length = max(pd.Timedelta(hours=1), step)
-    local = pd.Timestamp(peak_time).tz_convert(tz)
+    local = pd.Timestamp(at).tz_convert(tz)
     into_hour = pd.Timedelta(minutes=local.minute, seconds=local.second)
     start = local - into_hour if step <= pd.Timedelta(hours=1) else local  # safe at DST
     end = start + length
     in_window = frame[frame["in_window"]]
     here = in_window["value"][(in_window.index >= start) & (in_window.index < end)]
-    value = float(here.max())
+    value = float(extreme(here.to_numpy()))
     weeks = int((frame.index[-1] - frame.index[0]) / pd.Timedelta(weeks=1))
-    ks = np.arange(1, weeks + 1)
     repeated = pd.DatetimeIndex(np.full(weeks, start.value, dtype=np.int64), tz="UTC")
-    starts = same_wall_clock_weeks_ago(repeated, ks, tz)
+    starts = same_wall_clock_weeks_ago(repeated, np.arange(1, weeks + 1), tz)
     starts = starts[starts.notna()]
     lo = baseline.index.searchsorted(starts)
     hi = baseline.index.searchsorted(starts + length)
     values = baseline.to_numpy()
     with quiet_nan_warnings():
-        past = [float(np.nanmax(values[a:b])) for a, b in zip(lo, hi, strict=True) if b > a]
+        past = [float(extreme(values[a:b])) for a, b in zip(lo, hi, strict=True) if b > a]
     past = [p for p in past if np.isfinite(p)]
     out.update(
+        same_hour_side="low" if low else "high",
         same_hour_start=iso(start.tz_convert("UTC")),
         same_hour_end=iso(end.tz_convert("UTC")),
         same_hour_value=number(value),
         same_hour_weeks=len(past),
     )
     if past:
+        beyond = sum(p < value for p in past) if low else sum(p > value for p in past)
         out.update(
-            same_hour_rank=1 + sum(p > value for p in past),
-            same_hour_past_max=max(past),
+            same_hour_rank=1 + beyond,
+            same_hour_past_extreme=float(extreme(past)),
             same_hour_past_median=float(np.median(past)),
         )
     return out

@@ -77,12 +77,21 @@ def ordinal(n: int) -> str:
 
 def sentences(facts: dict[str, Any]) -> list[str]:
     """The summary of an explanation, in reading order."""
-    out = [s for s in (window_sentence(facts), peak_sentence(facts)) if s]
-    for extra in (drop_sentence(facts), same_hour_sentence(facts)):
-        if extra:
-            out.append(extra)
+    points = [peak_sentence(facts), drop_sentence(facts)]
+    if drop_leads(facts):
+        points = [points[1]] + ([points[0]] if peak_outside(facts) else [])
+    out = [window_sentence(facts), *points, same_hour_sentence(facts)]
     out += [model_sentence(facts), coverage_sentence(facts), confidence_sentence(facts)]
-    return out
+    return [s for s in out if s]
+
+
+def drop_leads(f: dict[str, Any]) -> bool:
+    """Whether the window is mostly about a drop: below the band longer than above it."""
+    return bool(f["minutes_below"]) and f["minutes_below"] >= f["minutes_above"]
+
+
+def peak_outside(f: dict[str, Any]) -> bool:
+    return f["peak_upper"] is not None and f["peak_value"] > f["peak_upper"]
 
 
 def window_sentence(f: dict[str, Any]) -> str:
@@ -130,11 +139,12 @@ def peak_sentence(f: dict[str, Any]) -> str | None:
 
 def drop_sentence(f: dict[str, Any]) -> str | None:
     z = f["strongest_deviation_sd"]
-    if z is None or z >= 0 or f["strongest_time"] == f["peak_time"] or not f["minutes_below"]:
+    if z is None or z >= 0 or not f["minutes_below"]:
         return None
     unit = f["unit"]
+    opening = "It fell" if drop_leads(f) else "Its deepest drop was"
     return (
-        f"Its deepest drop was to {fmt_value(f['strongest_value'], unit)} at "
+        f"{opening} to {fmt_value(f['strongest_value'], unit)} at "
         f"{fmt_time(f['strongest_time'], f['tz'])}, {abs(z):.1f} robust standard deviations "
         f"below the expected {fmt_value(f['strongest_expected'], unit)}."
     )
@@ -147,18 +157,13 @@ def same_hour_sentence(f: dict[str, Any]) -> str | None:
     unit, tz = f["unit"], f["tz"]
     start = pd.Timestamp(f["same_hour_start"]).tz_convert(tz)
     hour = f"{start.strftime('%a')} {fmt_time(f['same_hour_start'], tz, with_date=False)}"
-    value = fmt_value(f["same_hour_value"], unit)
-    usual = fmt_value(f["same_hour_past_median"], unit)
-    high = fmt_value(f["same_hour_past_max"], unit)
-    if f["same_hour_rank"] == 1:
-        return (
-            f"At this hour of the week ({hour}), {value} is the highest of the last "
-            f"{weeks + 1} weeks (before this week: highest {high}, median {usual})."
-        )
+    word = "lowest" if f["same_hour_side"] == "low" else "highest"
+    rank = "" if f["same_hour_rank"] == 1 else ordinal(f["same_hour_rank"]) + " "
     return (
-        f"At this hour of the week ({hour}), {value} is the "
-        f"{ordinal(f['same_hour_rank'])} highest of the last {weeks + 1} weeks "
-        f"(before this week: highest {high}, median {usual})."
+        f"At this hour of the week ({hour}), {fmt_value(f['same_hour_value'], unit)} is the "
+        f"{rank}{word} of the last {weeks + 1} weeks (before this week: {word} "
+        f"{fmt_value(f['same_hour_past_extreme'], unit)}, median "
+        f"{fmt_value(f['same_hour_past_median'], unit)})."
     )
 
 
