@@ -284,3 +284,9 @@ def test_wrong_encoding_in_json_and_openmetrics(rejected, name, text):
     assert len(problems) == 1
     assert problems[0].startswith(f"{name}, line 2: byte 0xE9 at character ")
     assert problems[0].endswith("is not UTF-8; expected a UTF-8 file (save or export it as UTF-8)")
+
+
+def test_windows_line_endings_keep_line_numbers(rejected):
+    text = HEADER + GOOD + "\n" + GOOD.replace("1450", "x")
+    problems = rejected(text.replace("\n", "\r\n"))
+    assert problems[0].startswith("upload.csv, line 4, column 'value': 'x' is not a number")
