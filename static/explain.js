@@ -134,5 +134,18 @@
     }
   });
 
+  // Keep the pushed address short: leave out the empty "leave out from/until" fields.
+  document.addEventListener("htmx:configRequest", function (event) {
+    if (event.detail.elt.id !== "controls") return;
+    var params = event.detail.parameters;
+    ["exclude_start", "exclude_end"].forEach(function (name) {
+      var value = params.get ? params.get(name) : params[name];
+      if (value === "" || value === null) {
+        if (params.delete) params.delete(name);
+        else delete params[name];
+      }
+    });
+  });
+
   htmx.onLoad(draw);
 })();

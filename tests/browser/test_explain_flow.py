@@ -71,6 +71,7 @@ def test_import_explain_tolerance_save_reopen(live_server, page, screenshot, dem
     after = band_upper(tab)
     assert max(after) > max(before), "a wider tolerance must raise the band's upper edge"
     assert "tolerance=5" in tab.url, "hx-push-url keeps the address in step"
+    assert "exclude_start" not in tab.url, "empty fields stay out of the address"
     assert tab.locator("#tolerance-out").inner_text() == "5"
     screenshot(tab, "4-tolerance-5")
 

@@ -262,3 +262,17 @@ def test_window_without_data_says_where_the_data_is(client, stored):
     assert "has no data from 2024-11-20 00:00 to 2025-01-02 00:00 UTC" in body
     assert "Its data runs from 2026-11-09 18:00" in body
     assert body.count("Nothing to draw") == 3  # the figures point at the reason, once each
+
+
+def test_saved_explanation_zooms_from_its_stored_frame(client, csrf, stored, window):
+    form = {
+        "csrf_token": csrf,
+        "series": stored,
+        "start": window[0].isoformat(),
+        "end": window[1].isoformat(),
+    }
+    saved = client.post("/explain/save", data=form).headers["Location"]
+    assert client.post("/imports/1/delete", data={"csrf_token": csrf}).status_code == 303
+    response = client.get(saved + "/figure/band?from=2026-11-30 15:00&to=2026-11-30 16:00")
+    assert response.status_code == 200
+    assert len(decode(trace(response.get_json(), "value")["x"])) >= 12
