@@ -127,3 +127,17 @@ def test_decimal_commas_in_semicolon_and_tab_files(points):
 def test_commas_in_comma_files_are_not_decimal_points(rejected):
     problems = rejected('timestamp,metric,value\n1796025600,m,"183,4"\n')
     assert problems[0].startswith("upload.csv, line 2, column 'value': '183,4' is not a number")
+
+
+def test_other_keys_of_a_json_record_are_labels(points, rejected):
+    text = (
+        b'[{"timestamp": 1796025600, "metric": "checkout.requests", "host": "api-1", '
+        b'"labels": {"route": "/v1/checkout"}, "value": 1450}]'
+    )
+    assert points(parse_bytes(text, "r.json")) == {
+        ("checkout.requests{host=api-1,route=/v1/checkout}", 1796025600000): 1450.0
+    }
+    bad = b'[{"timestamp": 1796025600, "metric": "m", "labels": "host=api-1", "value": 1}]'
+    assert rejected(bad, name="r.json") == [
+        "r.json, line 1, column 'labels': labels must be an object of name: value strings"
+    ]

@@ -1,6 +1,7 @@
 """JSON in two shapes, as one document or as JSON Lines (one object per line).
 
-Records: ``[{"timestamp": ..., "metric": ..., "labels": {...}, "value": ...}, ...]``.
+Records: ``[{"timestamp": ..., "metric": ..., "labels": {...}, "value": ...}, ...]``; other
+keys of a record are labels too, as other columns are in a long CSV.
 Series: ``{"metric": ..., "labels": {...}, "unit": ..., "points": [[ts, value], ...]}`` or a
 list of such objects. Timestamps are ISO 8601 strings or epoch numbers; a value of null or
 NaN is a gap.
@@ -230,7 +231,12 @@ def parse_json_records(
         if absent:
             log.error(f"the record has no {' or '.join(absent)} field", line=line)
             continue
-        labels = _labels(record.get("labels"), log, line)
+        used = {key for key, _ in fields.values()} | {"labels", "unit"}
+        flat = {k: v for k, v in record.items() if k not in used}
+        nested = record.get("labels")
+        if nested is None or isinstance(nested, dict):
+            nested = {**flat, **(nested or {})}
+        labels = _labels(nested, log, line)
         if labels is None:
             continue
         code = index.code(fields["metric"][1], labels, record.get("unit"), line)
