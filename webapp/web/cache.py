@@ -27,7 +27,3 @@ class Recent:
             while len(self.items) > self.size:
                 self.items.popitem(last=False)
         return value
-
-    def clear(self) -> None:
-        with self.lock:
-            self.items.clear()

@@ -36,19 +36,6 @@ def minmax_indices(x: np.ndarray, y: np.ndarray, n_out: int) -> np.ndarray:
     return np.unique(kept)
 
 
-def reduce_frame(
-    frame: pd.DataFrame, columns: list[str], n_out: int
-) -> dict[str, tuple[pd.DatetimeIndex, np.ndarray]]:
-    """Each column of ``frame`` reduced on its own: ``{column: (index, values)}``."""
-    x = frame.index.asi8
-    out: dict[str, tuple[pd.DatetimeIndex, np.ndarray]] = {}
-    for column in columns:
-        y = frame[column].to_numpy(dtype="float64", na_value=np.nan)
-        at = minmax_indices(x, y, n_out)
-        out[column] = (frame.index[at], y[at])
-    return out
-
-
 def reduce_together(frame: pd.DataFrame, columns: list[str], n_out: int) -> pd.DataFrame:
     """Rows of ``frame`` that keep the extremes of every column in ``columns``, so traces
     drawn against each other (a band's lower and upper edge) share their timestamps."""

@@ -66,11 +66,6 @@ _explanations = Recent(CACHE_SIZE)
 _points = Recent(2)  # moving a control re-explains without reading the points again
 
 
-def clear_caches() -> None:
-    _explanations.clear()
-    _points.clear()
-
-
 def imports_version(session: Session) -> tuple:
     """Changes whenever an import is recorded or undone, in whichever database."""
     from webapp.store import imports as store_imports
