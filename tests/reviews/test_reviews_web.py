@@ -269,3 +269,17 @@ def test_unticking_the_exclusion_box_switches_it_off(client, csrf, review, sessi
     session.expire_all()
     assert session.get(Review, review.id).exclude_from_baselines is False
     assert "kept in later baselines" in client.get(f"/reviews/{review.id}").text
+
+
+def test_hostile_names_stay_text_on_the_page_and_in_the_export(
+    client, review, make_series, make_explanation, session
+) -> None:
+    hostile = "</script><script>alert(2)</script>"
+    exp = make_explanation(make_series(f"queue.depth{{host={hostile}}}"), title=hostile)
+    reviews.attach_explanation(session, review, exp.id, caption=hostile)
+    reviews.add_timeline_entry(session, review, "2026-11-30 14:05", hostile)
+    session.commit()
+    for url in (f"/reviews/{review.id}", f"/reviews/{review.id}/export.html"):
+        body = client.get(url).get_data(as_text=True)
+        assert "<script>alert(2)" not in body, url
+        assert "&lt;script&gt;alert(2)" in body  # shown, as text
