@@ -89,7 +89,6 @@ def parse_bytes(
             raise
         except Exception as exc:  # noqa: BLE001 - a reader's own error must not surface raw
             log.reject(f"could not be read as {format}: {exc}")
-            raise AssertionError("unreachable") from exc
         parsed.sha256 = digest.result()
     return parsed
 
@@ -108,4 +107,8 @@ def parse_file(
     except OSError as exc:
         log.reject(f"cannot read the file: {exc.strerror or exc}")
     _too_big(size, max_bytes, log)
-    return parse_bytes(path.read_bytes(), path.name, format=format, tz=tz, max_bytes=max_bytes)
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        log.reject(f"cannot read the file: {exc.strerror or exc}")
+    return parse_bytes(data, path.name, format=format, tz=tz, max_bytes=max_bytes)

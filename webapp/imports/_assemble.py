@@ -14,7 +14,10 @@ from webapp.imports._timestamps import Timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports.keys import series_key
 
-_STR = pd.StringDtype("pyarrow", na_value=np.nan)  # pandas' default "str" dtype
+try:
+    _STR = pd.StringDtype("pyarrow", na_value=np.nan)  # pandas' default "str" dtype
+except TypeError:  # pandas before 2.3 has no NaN-valued string dtype
+    _STR = pd.StringDtype("pyarrow")
 
 
 def assemble(

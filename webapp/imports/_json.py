@@ -70,7 +70,6 @@ def _elements(text: str, log: ProblemLog, lines: _Lines) -> list[tuple[Any, int]
             )
     except json.JSONDecodeError as exc:
         log.reject(f"not valid JSON: {exc.msg} (character {exc.colno})", line=exc.lineno)
-    raise AssertionError("unreachable")
 
 
 def _object_sequence(

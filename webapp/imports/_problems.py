@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from collections.abc import Callable
+from typing import NoReturn
 
 import numpy as np
 
@@ -69,7 +70,8 @@ class ProblemLog:
             problems.append(Problem(self.file, f"and {hidden} more problems not listed"))
         raise ImportRejected(problems)
 
-    def reject(self, message: str, line: int | None = None, column: str | None = None) -> None:
+    def reject(self, message: str, line: int | None = None, column: str | None = None) -> NoReturn:
         """Record one error and raise at once (for problems that stop reading)."""
         self.error(message, line, column)
         self.check()
+        raise AssertionError("check() raises once an error is recorded")

@@ -42,7 +42,7 @@ def decode_utf8(data: bytes | memoryview, log: ProblemLog) -> str:
         return bytes(view).decode("utf-8")
     except UnicodeDecodeError:
         reject_bad_encoding(view, log)
-        raise AssertionError("unreachable") from None
+        raise AssertionError("a decode error always has a bad byte to name") from None
 
 
 def non_empty_lines(data: bytes | memoryview) -> np.ndarray:

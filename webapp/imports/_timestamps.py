@@ -81,7 +81,6 @@ def parse_timestamps(
         parsed = _parse_typed(values, missing, tz, column, log, line_of)
     else:
         log.reject(f"column holds {kind} values; {EXPECTED}", column=column)
-        raise AssertionError("unreachable")
     _check_range(parsed, column, log, line_of)
     return parsed
 
