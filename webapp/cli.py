@@ -34,8 +34,12 @@ def _setting_help(name: str) -> str:
 db_option = click.option(
     "--db", "db_url", metavar="URL", default=None, help=_setting_help("DATABASE_URL")
 )
-host_option = click.option("--host", default="127.0.0.1", show_default=True, help="Address.")
-port_option = click.option("--port", default=5000, show_default=True, type=int, help="Port.")
+host_option = click.option(
+    "--host", default="127.0.0.1", show_default=True, help="Address to listen on."
+)
+port_option = click.option(
+    "--port", default=5000, show_default=True, type=int, help="Port to listen on."
+)
 
 
 def describe(url: str) -> str:
@@ -107,7 +111,14 @@ def _serve(url: str, host: str, port: int) -> None:
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
 def cli() -> None:
-    """whyfired: explain why a page fired, replay its alert rule, write the review."""
+    """whyfired: explain why a page fired, replay its alert rule, write the review.
+
+    \b
+    Examples:
+      whyfired demo                          the invented demo, served on port 5000
+      whyfired import export.csv --tz Europe/Lisbon
+      whyfired serve --db sqlite:///incident.sqlite
+    """
 
 
 @cli.command()
@@ -251,8 +262,8 @@ def _prepare_demo_target(url: str, own_file: bool, replace: bool) -> Engine:
     "db_url",
     metavar="URL",
     default=None,
-    help="Load the demo into this database; by default into the demo's own SQLite file in "
-    "the user's data directory, rebuilt on every run.",
+    help="Load the demo into this database (else WHYFIRED_DATABASE_URL); without either, "
+    "into the demo's own SQLite file in the user's data directory, rebuilt on every run.",
 )
 def demo(
     no_serve: bool, replace: bool, seed: int, host: str, port: int, db_url: str | None
@@ -312,7 +323,12 @@ def export_group() -> None:
     help="Markdown, or one self-contained HTML file.",
 )
 @click.option(
-    "-o", "--output", "out_path", required=True, type=click.Path(path_type=Path), help="Path."
+    "-o",
+    "--output",
+    "out_path",
+    required=True,
+    type=click.Path(path_type=Path),
+    help="File to write (a folder gets review-ID.md or .html); Markdown figures go beside it.",
 )
 @db_option
 def export_review_cmd(review_id: int, fmt: str, out_path: Path, db_url: str | None) -> None:
