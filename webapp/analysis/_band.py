@@ -87,7 +87,6 @@ class BaselineFit:
     decomposition: Decomposition
     scale: ScaleModel
     candidates: list[Candidate]
-    residual: pd.Series  # in-sample residual on the baseline grid
 
     @property
     def periods(self) -> list[pd.Timedelta]:
@@ -119,13 +118,12 @@ def fit_baseline(
         chosen = sorted(pd.Timedelta(p) for p in periods)
         decomposition = decompose(baseline, chosen, tz=tz)
         candidates = [Candidate(p, "given", kept=True, reason="given") for p in chosen]
-    residual = baseline - decomposition.fitted
     holdout = decomposition.holdout
     if not np.isfinite(holdout).any():
-        holdout = residual.to_numpy()
+        holdout = baseline.to_numpy() - decomposition.fitted
     level = float(np.nanmedian(np.abs(baseline))) if baseline.notna().any() else 0.0
     scale = fit_scale(holdout, baseline.index, tz, level)
-    return BaselineFit(decomposition, scale, candidates, residual)
+    return BaselineFit(decomposition, scale, candidates)
 
 
 def excluded_mask(index: pd.DatetimeIndex, spans: Iterable) -> np.ndarray:

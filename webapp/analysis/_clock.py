@@ -16,7 +16,6 @@ import pandas as pd
 MONDAY_ORIGIN_NS = pd.Timestamp("1970-01-05").value
 HOUR_NS = 3_600_000_000_000
 DAY_NS = 24 * HOUR_NS
-WEEK_NS = 7 * DAY_NS
 
 
 def check_tz(tz: str | None) -> str:
@@ -37,11 +36,6 @@ def wall_clock_ns(index: pd.DatetimeIndex, tz: str) -> np.ndarray:
     index = index.as_unit("ns")
     local = index.tz_convert(tz).tz_localize(None) if tz != "UTC" else index.tz_localize(None)
     return np.asarray(local.asi8, dtype=np.int64) - MONDAY_ORIGIN_NS
-
-
-def hour_of_day(index: pd.DatetimeIndex, tz: str) -> np.ndarray:
-    """Wall-clock hour of day, 0..23."""
-    return (wall_clock_ns(index, tz) % DAY_NS // HOUR_NS).astype(np.int64)
 
 
 def same_wall_clock_weeks_ago(index: pd.DatetimeIndex, weeks, tz: str) -> pd.DatetimeIndex:
