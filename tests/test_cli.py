@@ -133,6 +133,15 @@ def test_db_upgrade_brings_a_new_file_to_the_latest_revision(runner, tmp_path):
     assert f"revision {revision}" in result.output
 
 
+def test_db_revision_writes_nothing_while_models_and_migrations_agree(runner):
+    versions = resource_dir("migrations") / "versions"
+    before = sorted(versions.glob("*.py"))
+    result = runner.invoke(cli, ["db", "revision", "-m", "nothing changed"])
+    assert result.exit_code == 0, result.output
+    assert "nothing to write" in result.output
+    assert sorted(versions.glob("*.py")) == before
+
+
 def test_serve_builds_the_app_on_the_chosen_database(runner, db_url, monkeypatch):
     seen = {}
 

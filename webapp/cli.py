@@ -307,6 +307,37 @@ def db_upgrade(db_url: str | None) -> None:
     click.echo(f"Schema at revision {revision} (the latest).")
 
 
+@db_group.command("revision")
+@click.option("-m", "--message", required=True, help="What the migration changes.")
+def db_revision(message: str) -> None:
+    """Write a migration for what models.py changed (for developers, in a source checkout).
+
+    The difference is taken against a temporary SQLite file at the latest revision; read and
+    tidy the generated file before committing it.
+    """
+    import tempfile
+
+    from alembic import command
+    from alembic.autogenerate import compare_metadata
+    from alembic.runtime.migration import MigrationContext
+
+    from webapp.store.models import Base
+
+    with tempfile.TemporaryDirectory(prefix="whyfired-revision-") as folder:
+        engine = _open(f"sqlite:///{Path(folder) / 'head.sqlite'}")
+        try:
+            with engine.begin() as connection:
+                if not compare_metadata(MigrationContext.configure(connection), Base.metadata):
+                    click.echo("The models and the migrations agree: nothing to write.")
+                    return
+                script = command.revision(
+                    db.alembic_config(connection), message=message, autogenerate=True
+                )
+        finally:
+            engine.dispose()
+    click.echo(f"Wrote {script.path}")
+
+
 @cli.group("export")
 def export_group() -> None:
     """Write things out to share."""
