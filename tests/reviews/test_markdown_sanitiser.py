@@ -1,84 +1,28 @@
 """Review Markdown must never carry executable script to a reader's browser.
 
-The payloads are the usual families of script injection (script tags, event-handler
-attributes, script-scheme links, SVG and MathML tricks, data: URLs, style expressions,
-comment and nesting obfuscations), written for these tests from common practice; each is
+The payloads (injection_payloads.json) are the usual families of script injection (script
+tags, event-handler attributes, script-scheme links, SVG and MathML tricks, data: URLs, style
+expressions, comment and nesting obfuscations), written for these tests from common
+practice; each is
 checked through the Markdown renderer, through the sanitiser alone, and through a
 renderer with raw HTML switched on followed by the sanitiser.
 """
 
 from __future__ import annotations
 
+import json
 import re
 from html.parser import HTMLParser
+from pathlib import Path
 
 import pytest
 from markdown_it import MarkdownIt
 
 from webapp.web.markdown import render_markdown, sanitise_html
 
-PAYLOADS = [
-    "<script>alert(1)</script>",
-    "<SCRIPT SRC=https://evil.example/x.js></SCRIPT>",
-    "<scr<script>ipt>alert(1)</scr</script>ipt>",
-    "<script\n>alert(1)</script\n>",
-    "<img src=x onerror=alert(1)>",
-    "<IMG SRC=x OnErRoR=alert(1)>",
-    '<img src="x" onerror="alert(1)"/>',
-    "<img src=x onerror=&#97;&#108;&#101;&#114;&#116;(1)>",
-    "<svg onload=alert(1)>",
-    "<svg><script>alert(1)</script></svg>",
-    "<svg><animate onbegin=alert(1) attributeName=x dur=1s>",
-    '<svg><a xlink:href="javascript:alert(1)"><text x="20" y="20">x</text></a></svg>',
-    "<math><mtext><table><mglyph><style><img src=x onerror=alert(1)>",
-    '<noscript><p title="</noscript><img src=x onerror=alert(1)>">',
-    '<!--<img src="--><img src=x onerror=alert(1)//">',
-    "<body onload=alert(1)>",
-    "<iframe src=javascript:alert(1)></iframe>",
-    '<iframe srcdoc="<script>alert(1)</script>"></iframe>',
-    '<object data="javascript:alert(1)"></object>',
-    '<embed src="data:text/html;base64,PHNjcmlwdD5hbGVydCgxKTwvc2NyaXB0Pg==">',
-    '<form action="javascript:alert(1)"><button>go</button></form>',
-    '<button formaction="javascript:alert(1)">go</button>',
-    "<input onfocus=alert(1) autofocus>",
-    "<details open ontoggle=alert(1)>x</details>",
-    "<video><source onerror=alert(1)></video>",
-    "<marquee onstart=alert(1)>x</marquee>",
-    '<base href="javascript:alert(1)//">',
-    '<meta http-equiv="refresh" content="0;url=javascript:alert(1)">',
-    '<link rel="stylesheet" href="javascript:alert(1)">',
-    '<div style="background:url(javascript:alert(1))">x</div>',
-    '<p style="width: expression(alert(1))">x</p>',
-    "<style>@import 'javascript:alert(1)';</style>",
-    '<a href="javascript:alert(1)">x</a>',
-    '<a href="JaVaScRiPt:alert(1)">x</a>',
-    '<a href="jav&#x09;ascript:alert(1)">x</a>',
-    '<a href="&#106;&#97;&#118;&#97;&#115;&#99;&#114;&#105;&#112;&#116;:alert(1)">x</a>',
-    '<a href="  javascript:alert(1)">x</a>',
-    '<a href="vbscript:msgbox(1)">x</a>',
-    '<a href="data:text/html;base64,PHNjcmlwdD5hbGVydCgxKTwvc2NyaXB0Pg==">x</a>',
-    "[x](javascript:alert(1))",
-    "[x](JAVASCRIPT:alert(1))",
-    "[x](javascript://%0aalert(1))",
-    "[x](&#106;avascript:alert(1))",
-    "[x](javascript&colon;alert(1))",
-    "[x](<javascript:alert(1)>)",
-    "[x](vbscript:msgbox(1))",
-    "[x](data:text/html,<script>alert(1)</script>)",
-    "[x][r]\n\n[r]: javascript:alert(1)",
-    "<javascript:alert(1)>",
-    "![x](javascript:alert(1))",
-    "![x](data:image/svg+xml;base64,PHN2ZyBvbmxvYWQ9YWxlcnQoMSk+)",
-    "![x](data:image/png;base64,iVBORw0KGgo=)",
-    '![x](x" onerror="alert(1))',
-    '[x](https://ok.example "t\\" onmouseover=\\"alert(1)")',
-    "`<script>alert(1)</script>`",
-    "```html\n<script>alert(1)</script>\n```",
-    "> <img src=x onerror=alert(1)>",
-    "* <svg/onload=alert(1)>",
-    "| a |\n|---|\n| <img src=x onerror=alert(1)> |",
-    "java\0script:alert(1) [x](java\0script:alert(1))",
-]
+PAYLOADS: list[str] = json.loads(
+    (Path(__file__).with_name("injection_payloads.json")).read_text(encoding="utf-8")
+)
 
 SAFE_SCHEMES = {"http", "https", "mailto"}
 URL_ATTRIBUTES = {"href", "src", "action", "formaction", "xlink:href", "data", "poster", "srcset"}
