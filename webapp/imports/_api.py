@@ -8,6 +8,8 @@ from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
+import pyarrow as pa
+
 from webapp.imports._csv import parse_csv_long, parse_csv_wide
 from webapp.imports._detect import PARQUET_MAGIC, UnknownFormat, check_override, detect_format
 from webapp.imports._json import parse_json_records, parse_json_series
@@ -19,7 +21,7 @@ from webapp.imports._types import ImportRejected, ParsedImport
 
 DEFAULT_MAX_BYTES = 200 * 1024**2
 
-Parser = Callable[[bytes, str, "str | None", ProblemLog], ParsedImport]
+Parser = Callable[[bytes | memoryview, str, "str | None", ProblemLog], ParsedImport]
 
 
 PARSERS: dict[str, Parser] = {
@@ -58,7 +60,7 @@ def _check_zone(tz: str | None, log: ProblemLog) -> None:
 
 
 def parse_bytes(
-    data: bytes,
+    data: bytes | memoryview,
     file_name: str,
     format: str | None = None,
     tz: str | None = None,
@@ -108,7 +110,17 @@ def parse_file(
         log.reject(f"cannot read the file: {exc.strerror or exc}")
     _too_big(size, max_bytes, log)
     try:
-        data = path.read_bytes()
+        data = _mapped(path) if size else b""
     except OSError as exc:
         log.reject(f"cannot read the file: {exc.strerror or exc}")
     return parse_bytes(data, path.name, format=format, tz=tz, max_bytes=max_bytes)
+
+
+def _mapped(path: Path) -> memoryview:
+    """The file's bytes without copying them: an Arrow memory map, which stays mapped for
+    as long as anything still refers to it."""
+    try:
+        source = pa.memory_map(str(path))
+    except pa.ArrowIOError as exc:
+        raise OSError(str(exc)) from exc
+    return memoryview(source.read_buffer())

@@ -22,7 +22,7 @@ except TypeError:  # pandas before 2.3 has no NaN-valued string dtype
 
 def assemble(
     *,
-    data: bytes,
+    data: bytes | memoryview,
     file_name: str,
     format: str,
     codes: np.ndarray,

@@ -174,7 +174,9 @@ def _without_blank_rows(
     return table.take(kept), lambda rows: line_of(kept[rows])
 
 
-def parse_csv_long(data: bytes, file_name: str, tz: str | None, log: ProblemLog) -> ParsedImport:
+def parse_csv_long(
+    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+) -> ParsedImport:
     header = read_header(data, log)
     ts_name, metric_name, value_name = long_roles(header.names, log, line=1)
     labels = [n for n in header.names if n not in (ts_name, metric_name, value_name)]
@@ -198,7 +200,9 @@ def parse_csv_long(data: bytes, file_name: str, tz: str | None, log: ProblemLog)
     )
 
 
-def parse_csv_wide(data: bytes, file_name: str, tz: str | None, log: ProblemLog) -> ParsedImport:
+def parse_csv_wide(
+    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+) -> ParsedImport:
     header = read_header(data, log)
     ts_name = find_column(header.names, TIMESTAMP_NAMES)
     if ts_name is None:

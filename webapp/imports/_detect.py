@@ -47,7 +47,7 @@ class UnknownFormat(ValueError):
     """The first bytes fit none of the formats; the message says what was looked for."""
 
 
-def detect_format(data: bytes, file_name: str = "") -> str:
+def detect_format(data: bytes | memoryview, file_name: str = "") -> str:
     """One of FORMATS; raises UnknownFormat with a readable reason."""
     if data[:4] == PARQUET_MAGIC:
         return "parquet"
@@ -104,7 +104,7 @@ def _csv_kind(head: str, file_name: str) -> str:
     )
 
 
-def check_override(chosen: str, data: bytes, file_name: str, log: ProblemLog) -> None:
+def check_override(chosen: str, data: bytes | memoryview, file_name: str, log: ProblemLog) -> None:
     """A format named by the user must at least be of the family the bytes show."""
     if chosen not in FORMATS:
         log.reject(f"unknown format {chosen!r}; expected one of {', '.join(FORMATS)}")

@@ -164,7 +164,7 @@ def _timestamp_array(stamps: list[Any]) -> pa.Array:
 
 
 def _finish(
-    data: bytes,
+    data: bytes | memoryview,
     file_name: str,
     format: str,
     tz: str | None,
@@ -203,7 +203,7 @@ def _finish(
 
 
 def parse_json_records(
-    data: bytes, file_name: str, tz: str | None, log: ProblemLog
+    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
 ) -> ParsedImport:
     text = decode_utf8(data, log)
     lines = _Lines(text)
@@ -250,7 +250,9 @@ def parse_json_records(
     )
 
 
-def parse_json_series(data: bytes, file_name: str, tz: str | None, log: ProblemLog) -> ParsedImport:
+def parse_json_series(
+    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+) -> ParsedImport:
     text = decode_utf8(data, log)
     lines = _Lines(text)
     index = _SeriesIndex(log)

@@ -49,7 +49,7 @@ def long_roles(names: list[str], log: ProblemLog, line: int | None) -> tuple[str
 def parse_long_table(
     table: pa.Table,
     *,
-    data: bytes,
+    data: bytes | memoryview,
     file_name: str,
     format: str,
     tz: str | None,

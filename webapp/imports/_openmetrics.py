@@ -110,7 +110,9 @@ def _family(name: str, units: dict[str, str]) -> str:
     return name
 
 
-def parse_openmetrics(data: bytes, file_name: str, tz: str | None, log: ProblemLog) -> ParsedImport:
+def parse_openmetrics(
+    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+) -> ParsedImport:
     text = decode_utf8(data, log)
     lines = text.split("\n")
     if lines and lines[-1] == "":

@@ -12,7 +12,9 @@ from webapp.imports._problems import ProblemLog
 from webapp.imports._types import ParsedImport
 
 
-def parse_parquet(data: bytes, file_name: str, tz: str | None, log: ProblemLog) -> ParsedImport:
+def parse_parquet(
+    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+) -> ParsedImport:
     log.place = "row"
     try:
         table = pq.read_table(pa.BufferReader(pa.py_buffer(data)))
