@@ -84,3 +84,28 @@ def test_record_a_page_and_explain_it_from_home(live_server, imported, screensho
     )
     assert annotations == ["page fired", "resolved"]
     screenshot(tab, "page-explained")
+
+
+def test_excluded_period_changes_the_picture_in_place(live_server, imported, screenshot):
+    tab = imported
+    tab.goto(live_server.at("/explain?series=1&start=2026-11-29T22:00&end=2026-11-30T05:00"))
+    tab.wait_for_selector(".panel-band .js-plotly-plot")
+    tab.evaluate("() => { window.__sameDocument = true; }")
+    tab.fill("#exclude_start", "2026-11-23T00:00")
+    tab.fill("#exclude_end", "2026-11-24T00:00")
+    tab.click("button:text('Leave out of the baseline')")
+    box = tab.locator("#exclusions input[name=exclude]")
+    box.wait_for()
+    assert box.is_checked()
+    assert tab.evaluate("() => window.__sameDocument === true"), "no full reload"
+    assert "exclude=2026-11-23" in tab.url
+    assert tab.input_value("#exclude_start") == "", "the add fields are cleared"
+    excluded = tab.locator("dl.facts div", has_text="excluded minutes").locator("dd")
+    assert int(excluded.inner_text().replace(",", "")) >= 24 * 60, "the whole day is left out"
+    screenshot(tab, "excluded")
+    box.uncheck()
+    tab.wait_for_function("() => !location.search.includes('exclude=')")
+    tab.wait_for_function(
+        "() => [...document.querySelectorAll('dl.facts div')].some(d =>"
+        " d.textContent.includes('excluded minutes') && d.querySelector('dd').textContent === '0')"
+    )

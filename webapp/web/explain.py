@@ -101,12 +101,12 @@ def chooser() -> str:
 
 
 @bp.get("/explain")
-def index() -> str:
+def index() -> str | Response:
     if not request.args.get("series"):
         return chooser()
     series, query = current_query(request.args)
     evidence = live(series, query)
-    return render(
+    html = render(
         "explain/index.html",
         "explain/_results.html",
         series=series,
@@ -116,6 +116,8 @@ def index() -> str:
         stored=stored_exclusions(series.id),
         fine=lambda name: url_for("explain.live_figure", name=name, **query.args()),
     )
+    # The address bar shows the canonical query (a period just added appears as exclude=).
+    return Response(html, headers={"HX-Push-Url": url_for("explain.index", **query.args())})
 
 
 def view_from_args(tz: str) -> Span | None:
