@@ -5,6 +5,7 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
+import pandas as pd
 import plotly
 import pytest
 
@@ -118,3 +119,21 @@ def test_download_routes(client, session, full_review) -> None:
     assert html.status_code == 200 and html.mimetype == "text/html"
     assert "attachment" in html.headers["Content-Disposition"]
     assert client.get(f"/reviews/{full_review.id}/export.pdf").status_code == 404
+
+
+def test_a_frame_that_cannot_be_drawn_is_named_not_fatal(
+    session, client, make_explanation, tmp_path
+) -> None:
+    from webapp.store.explanations import frame_to_parquet
+
+    exp = make_explanation()
+    exp.frame = frame_to_parquet(pd.DataFrame({"value": [1.0]}, index=pd.DatetimeIndex(
+        ["2026-11-30"], tz="UTC")))  # fmt: skip
+    review = reviews.create_review(session, {"title": "old frame"})
+    reviews.attach_explanation(session, review, exp.id)
+    session.commit()
+    page = client.get(f"/reviews/{review.id}")
+    assert page.status_code == 200
+    assert f"The stored frame of explanation #{exp.id} could not be drawn" in page.text
+    [out] = export_review(session, review.id, "html", tmp_path / "old.html")
+    assert "could not be drawn" in out.read_text()

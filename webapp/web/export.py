@@ -57,6 +57,7 @@ class Evidence:
     parameters: dict[str, Any] = field(default_factory=dict)
     files: list[tuple[str, str]] = field(default_factory=list)  # Markdown: (name, relative path)
     html: list[tuple[str, str]] = field(default_factory=list)  # HTML: (name, plotly div)
+    problem: str = ""  # why the stored frame could not be drawn, if it could not
 
     @property
     def explanation(self) -> Any:
@@ -89,15 +90,17 @@ def review_evidence(session: Session, review: Review, tz: str = "UTC") -> list[E
     evidence = []
     for number, attachment in enumerate(review.attachments, start=1):
         row = attachment.explanation
-        evidence.append(
-            Evidence(
-                attachment=attachment,
-                number=number,
-                heading=attachment.caption or row.title or row.series_key,
-                figures=evidence_figures(session, attachment, tz),
-                parameters=reproduction(row),
-            )
+        item = Evidence(
+            attachment=attachment,
+            number=number,
+            heading=attachment.caption or row.title or row.series_key,
+            parameters=reproduction(row),
         )
+        try:
+            item.figures = evidence_figures(session, attachment, tz)
+        except (KeyError, ValueError, OSError) as err:  # a frame stored by an older engine
+            item.problem = f"The stored frame of explanation #{row.id} could not be drawn ({err})."
+        evidence.append(item)
     return evidence
 
 
