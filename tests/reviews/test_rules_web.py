@@ -231,3 +231,29 @@ def test_edit_and_delete(client, csrf, rule, watched, session) -> None:
     session.rollback()
     session.expire_all()
     assert store_rules.get_rule(session, rule_id) is None
+
+
+def test_a_sweep_of_the_readers_own_settings(client, rule, incident_review) -> None:
+    url = f"/rules/{rule.id}/replay?thresholds=150,250&pendings=0,5min"
+    text = html.unescape(client.get(url, headers={"HX-Request": "true"}).text)
+    rows = re.findall(r'<td class="num">([\d.]+)</td><td>([^<]+)</td>', text)
+    # the current rule (200 for 10 min) always joins the grid: 3 thresholds x 3 pendings
+    assert len(rows) == 9
+    assert {t for t, _ in rows} == {"150", "200", "250"}
+    assert 'value="150,250"' in text
+
+
+@pytest.mark.parametrize(
+    ("query", "message"),
+    [
+        ("thresholds=lots&pendings=0", "'lots' is not a number"),
+        ("thresholds=100&pendings=soon", "is not a duration"),
+        ("thresholds=&pendings=5min", "at least one threshold"),
+    ],
+)
+def test_a_bad_sweep_grid_is_explained_and_kept(client, rule, query, message) -> None:
+    response = client.get(f"/rules/{rule.id}/replay?{query}")
+    assert response.status_code == 200  # the replay itself still shows, with the default sweep
+    text = html.unescape(response.text)
+    assert message in text
+    assert count(text, "firings") == "3"

@@ -118,7 +118,7 @@ def sweep_figure(
     fig = go.Figure()
     for i, (pending, rows) in enumerate(sweep.groupby("pending", sort=True)):
         rows = rows.sort_values("threshold")
-        label = f"pending {_short(pending)}"
+        label = f"pending {short_duration(pending)}" if pending else "no pending period"
         fig.add_trace(
             go.Scatter(
                 x=rows["pages_per_week"],
@@ -148,7 +148,7 @@ def sweep_figure(
                     name=name,
                     marker={"symbol": symbol, "size": 18, "color": colour, "line": {"width": 2}},
                     hovertemplate=f"{name}: threshold {row['threshold']:.4g}, "
-                    f"pending {_short(row['pending'])}<extra></extra>",
+                    f"pending {short_duration(row['pending'])}<extra></extra>",
                 )
             )
     _layout(fig, 380, "pages per week (double-click to see every setting)", "incidents caught")
@@ -171,11 +171,12 @@ def _row(sweep: pd.DataFrame, point: tuple[float, pd.Timedelta] | None) -> pd.Se
     return None if match.empty else match.iloc[0]
 
 
-def _short(delta: pd.Timedelta) -> str:
+def short_duration(delta: pd.Timedelta) -> str:
+    """``0``, ``90s``, ``10min``, ``2h``: short, and readable back by the sweep form."""
     seconds = int(pd.Timedelta(delta).total_seconds())
     if seconds == 0:
-        return "none"
+        return "0"
     for unit, size in (("h", 3600), ("min", 60)):
         if seconds % size == 0:
-            return f"{seconds // size} {unit}"
-    return f"{seconds} s"
+            return f"{seconds // size}{unit}"
+    return f"{seconds}s"

@@ -141,3 +141,39 @@ def rule_form_values(rule: AlertRule | None) -> dict[str, str]:
         "step": f"{rule.step_seconds}s" if rule.step_seconds else "",
         "description": rule.description or "",
     }
+
+
+MAX_THRESHOLDS, MAX_PENDINGS = 40, 12
+
+
+def parse_sweep(
+    args: Mapping[str, str],
+) -> tuple[tuple[list[float], list[pd.Timedelta]] | None, dict[str, str]]:
+    """A what-if grid typed by the reader: ``thresholds`` (numbers) and ``pendings``
+    (durations), each separated by commas or spaces. None when neither is given."""
+    errors: dict[str, str] = {}
+    raw_t, raw_p = args.get("thresholds", "").strip(), args.get("pendings", "").strip()
+    if not raw_t and not raw_p:
+        return None, errors
+    thresholds = []
+    for word in raw_t.replace(",", " ").split():
+        if _is_number(word) and abs(float(word)) != float("inf") and float(word) == float(word):
+            thresholds.append(float(word))
+        else:
+            errors["thresholds"] = f"{word!r} is not a number; list thresholds like 600, 700, 800."
+            break
+    pendings = []
+    for word in raw_p.replace(",", " ").split():
+        seconds = parse_duration(word, "pendings", errors, optional=False)
+        if seconds is None:
+            break
+        pendings.append(pd.Timedelta(seconds=seconds))
+    if not thresholds and "thresholds" not in errors:
+        errors["thresholds"] = "List at least one threshold, e.g. 600, 700, 800."
+    if not pendings and "pendings" not in errors:
+        errors["pendings"] = "List at least one pending period, e.g. 0, 5min, 10min."
+    if len(thresholds) > MAX_THRESHOLDS:
+        errors["thresholds"] = f"At most {MAX_THRESHOLDS} thresholds at once."
+    if len(pendings) > MAX_PENDINGS:
+        errors["pendings"] = f"At most {MAX_PENDINGS} pending periods at once."
+    return (None if errors else (thresholds, pendings)), errors

@@ -72,21 +72,32 @@ class Replay:
     sweep: pd.DataFrame | None
     draft: Any
     figures: dict[str, str]
+    grid: tuple[list[float], list[pd.Timedelta]] | None = None  # what the sweep varied
 
 
-def run_replay(session: Session, rule: AlertRule, info: store_series.SeriesInfo) -> Replay:
+def run_replay(
+    session: Session,
+    rule: AlertRule,
+    info: store_series.SeriesInfo,
+    grid: tuple[list[float], list[pd.Timedelta]] | None = None,
+) -> Replay:
     """Replay ``rule`` over all of one series' history against the incidents of its reviews.
 
-    Raises ValueError with a readable message when the rule or the data cannot be replayed."""
+    ``grid`` (thresholds, pending periods) replaces the default what-if sweep; the current
+    rule's own setting is always part of it. Raises ValueError with a readable message when
+    the rule or the data cannot be replayed."""
     analysed = rule_from_fields(_fields(rule))
     values = store_series.read_series(session, info.id).dropna()
     if values.empty:
         raise ValueError(f"{info.key} has no stored points to replay over")
     incidents = store_reviews.incident_windows(session, info.id)
     report = replay_report(values, analysed, incidents)
-    sweep = None
+    sweep, used = None, None
     if isinstance(analysed, ThresholdRule):
-        thresholds, pendings = sweep_grid(values, analysed)
+        thresholds, pendings = grid or sweep_grid(values, analysed)
+        thresholds = sorted({*thresholds, analysed.threshold})
+        pendings = sorted({*pendings, analysed.for_})
+        used = (thresholds, pendings)
         sweep = whatif_sweep(
             values,
             thresholds,
@@ -115,4 +126,4 @@ def run_replay(session: Session, rule: AlertRule, info: store_series.SeriesInfo)
         figs["sweep"] = figure_div(
             rule_figures.sweep_figure(sweep, current, drafted), "sweep-figure", False
         )
-    return Replay(info, analysed, report, incidents, sweep, draft, figs)
+    return Replay(info, analysed, report, incidents, sweep, draft, figs, used)

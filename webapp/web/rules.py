@@ -17,7 +17,8 @@ from webapp.store import series as store_series
 from webapp.store.models import AlertRule, Review
 from webapp.store.reviews import ReviewInvalid
 from webapp.web.htmx import render
-from webapp.web.rule_form import RuleFormInvalid, parse_rule_form, rule_form_values
+from webapp.web.rule_figures import short_duration
+from webapp.web.rule_form import RuleFormInvalid, parse_rule_form, parse_sweep, rule_form_values
 from webapp.web.rule_replay import TZ, Replay, firing_rows, matching_series, rule_text, run_replay
 
 bp = Blueprint("rules", __name__)
@@ -118,14 +119,15 @@ def _show(
     info = next(
         (s for s in candidates if str(s.id) == chosen), candidates[0] if candidates else None
     )
-    replay, problem = None, None
+    replay, problem, sweep_errors = None, None, {}
     if info is None:
         problem = (
             "No stored series matches this rule yet. Import its data, or edit the rule's series."
         )
     elif not lazy:
+        grid, sweep_errors = parse_sweep(request.args)
         try:
-            replay = run_replay(session, rule, info)
+            replay = run_replay(session, rule, info, grid)
         except ValueError as err:
             problem = f"This rule cannot be replayed: {err}."
     reviews = _reviews_for(session, info.id if info else None)
@@ -142,10 +144,25 @@ def _show(
         form=form or _verdict_values(replay, rule, reviews),
         errors=errors or {},
         firings=firing_rows(replay.report.firings) if replay else [],
+        sweep_values=_sweep_values(replay, request.args),
+        sweep_errors=sweep_errors,
         verdict_warning=store_reviews.VERDICT_WARNING,
         tz=TZ,
     )
     return html, 422 if errors else 200
+
+
+def _sweep_values(replay: Replay | None, args: Mapping[str, str]) -> dict[str, str]:
+    """What the what-if form shows: the reader's own text, else the grid the sweep used."""
+    if "thresholds" in args or "pendings" in args:
+        return {"thresholds": args.get("thresholds", ""), "pendings": args.get("pendings", "")}
+    if replay is None or replay.grid is None:
+        return {}
+    thresholds, pendings = replay.grid
+    return {
+        "thresholds": ", ".join(f"{t:g}" for t in thresholds),
+        "pendings": ", ".join(short_duration(p) for p in pendings),
+    }
 
 
 def _reviews_for(session: Session, series_id: int | None) -> list[Review]:
