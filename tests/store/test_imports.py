@@ -212,3 +212,36 @@ def test_driver_errors_in_the_bulk_path_come_out_as_sqlalchemy_errors(
     with pytest.raises(OperationalError, match="database is locked"):
         record(engine, make_parsed(["m"], [0], [1.0]))
     assert snapshot(engine)["imports"] == []
+
+
+def test_two_imports_at_once_both_land_one_after_the_other(engine, make_parsed, monkeypatch):
+    import threading
+    import time
+
+    monkeypatch.setattr(store_imports, "BATCH_ROWS", 5)
+    real_write = store_imports._write_batch
+    started = threading.Event()
+
+    def slow_write(cursor, sql, rows):
+        started.set()
+        time.sleep(0.05)
+        real_write(cursor, sql, rows)
+
+    monkeypatch.setattr(store_imports, "_write_batch", slow_write)
+    errors = []
+
+    def run(name, key):
+        try:
+            record(engine, make_parsed([key] * 40, grid(40), [1.0] * 40, name))
+        except Exception as err:  # noqa: BLE001 - the assertion below reports it
+            errors.append(err)
+
+    first = threading.Thread(target=run, args=("first.csv", "a"))
+    first.start()
+    assert started.wait(5)
+    second = threading.Thread(target=run, args=("second.csv", "b"))
+    second.start()
+    first.join(30)
+    second.join(30)
+    assert errors == []
+    assert len(snapshot(engine)["points"]) == 80

@@ -119,16 +119,11 @@ def record_import(
     session: Session, parsed: ParsedImport, *, allow_duplicate: bool = True
 ) -> ImportSummary:
     """Store ``parsed`` as one import; the caller commits (``db.session_scope``)."""
-    earlier = session.scalars(
-        select(Import).where(Import.sha256 == parsed.sha256).order_by(Import.id.desc()).limit(1)
-    ).first()
-    if earlier is not None and not allow_duplicate:
-        raise DuplicateImport(parsed.file_name, earlier)
     with session.begin_nested():
-        return _record(session, parsed, earlier.id if earlier is not None else None)
+        return _record(session, parsed, allow_duplicate)
 
 
-def _record(session: Session, parsed: ParsedImport, duplicate_of: int | None) -> ImportSummary:
+def _record(session: Session, parsed: ParsedImport, allow_duplicate: bool) -> ImportSummary:
     table = parsed.table
     keys_codes, keys = pd.factorize(table["series_key"], sort=False)
     keys = [str(k) for k in keys]
@@ -143,7 +138,19 @@ def _record(session: Session, parsed: ParsedImport, duplicate_of: int | None) ->
         gap_count=parsed.gap_count,
         duplicate_count=parsed.duplicate_count,
     )
+    # Writing first takes SQLite's write lock (waiting out other writers) before this
+    # transaction reads anything, so no other import can commit between its reads and writes.
     session.add(imp)
+    session.flush()
+    earlier = session.scalars(
+        select(Import)
+        .where(Import.sha256 == parsed.sha256, Import.id != imp.id)
+        .order_by(Import.id.desc())
+        .limit(1)
+    ).first()
+    if earlier is not None and not allow_duplicate:
+        raise DuplicateImport(parsed.file_name, earlier)
+    duplicate_of = earlier.id if earlier is not None else None
     series, created = _series_for(session, parsed, keys)
     session.flush()
 
