@@ -283,3 +283,22 @@ def test_hostile_names_stay_text_on_the_page_and_in_the_export(
         body = client.get(url).get_data(as_text=True)
         assert "<script>alert(2)" not in body, url
         assert "&lt;script&gt;alert(2)" in body  # shown, as text
+
+
+def test_new_review_starts_from_a_page_or_an_explanation(
+    client, csrf, session, make_series, make_page, make_explanation
+) -> None:
+    series = make_series()
+    page, exp = make_page(series), make_explanation(series)
+    session.commit()
+    from_page = client.get(f"/reviews/new?page_id={page.id}").text
+    assert f'<option value="{page.id}" selected>' in from_page
+    assert 'value="2026-11-30T14:00"' in from_page and 'value="2026-11-30T15:00"' in from_page
+    from_exp = client.get(f"/reviews/new?explanation_id={exp.id}").text
+    assert f'name="explanation_id" value="{exp.id}"' in from_exp
+    created = post(client, "/reviews/new", csrf, **(FORM | {"explanation_id": str(exp.id)}))
+    assert created.status_code == 302
+    session.rollback()
+    session.expire_all()
+    review = session.query(Review).one()
+    assert [a.explanation_id for a in review.attachments] == [exp.id]
