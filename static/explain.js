@@ -122,9 +122,24 @@
     htmx.trigger(controls, "submit");
   }
 
+  function copySentences(button) {
+    var panel = button.closest(".panel");
+    var items = panel.querySelectorAll("#sentences li");
+    var text = Array.prototype.map.call(items, function (li) {
+      return li.textContent.trim();
+    }).join("\n");
+    var status = panel.querySelector("[data-copy-status]");
+    navigator.clipboard.writeText(text).then(
+      function () { status.textContent = "Copied, ready to paste into the review."; },
+      function () { status.textContent = "The browser did not allow copying; select the text instead."; }
+    );
+  }
+
   document.addEventListener("click", function (event) {
     var button = event.target.closest("[data-use-range]");
     if (button) useRange(button);
+    var copy = event.target.closest("[data-copy-sentences]");
+    if (copy) copySentences(copy);
   });
 
   document.addEventListener("input", function (event) {

@@ -78,6 +78,12 @@ def test_record_a_page_and_explain_it_from_home(live_server, imported, screensho
     tab.wait_for_selector(".panel-band .js-plotly-plot")
     assert "page=1" in tab.url
     assert tab.input_value("#start") == "2026-11-30T00:40"
+    tab.context.grant_permissions(["clipboard-read", "clipboard-write"])
+    tab.click("button:text('Copy the sentences')")
+    tab.wait_for_selector("text=Copied, ready to paste into the review.")
+    copied = tab.evaluate("() => navigator.clipboard.readText()")
+    sentences = [li.strip() for li in tab.locator("#sentences li").all_inner_texts()]
+    assert copied.splitlines() == sentences and len(sentences) >= 3
     annotations = tab.evaluate(
         "() => document.querySelector('.panel-band .js-plotly-plot').layout.annotations"
         ".map(a => a.text)"
