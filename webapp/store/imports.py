@@ -124,9 +124,6 @@ def record_import(
 
 
 def _record(session: Session, parsed: ParsedImport, allow_duplicate: bool) -> ImportSummary:
-    table = parsed.table
-    keys_codes, keys = pd.factorize(table["series_key"], sort=False)
-    keys = [str(k) for k in keys]
     imp = Import(
         file_name=parsed.file_name,
         sha256=parsed.sha256,
@@ -139,43 +136,31 @@ def _record(session: Session, parsed: ParsedImport, allow_duplicate: bool) -> Im
         duplicate_count=parsed.duplicate_count,
     )
     # Writing first takes SQLite's write lock (waiting out other writers) before this
-    # transaction reads anything, so no other import can commit between its reads and writes.
+    # import reads anything, so no other import can commit between its reads and writes.
     session.add(imp)
     session.flush()
-    earlier = session.scalars(
-        select(Import)
-        .where(Import.sha256 == parsed.sha256, Import.id != imp.id)
-        .order_by(Import.id.desc())
-        .limit(1)
-    ).first()
+    earlier = _same_content(session, imp)
     if earlier is not None and not allow_duplicate:
         raise DuplicateImport(parsed.file_name, earlier)
-    duplicate_of = earlier.id if earlier is not None else None
+
+    codes, uniques = pd.factorize(parsed.table["series_key"], sort=False)
+    keys = [str(k) for k in uniques]
     series, created = _series_for(session, parsed, keys)
     session.flush()
-
     ids = np.array([series[k].id for k in keys], dtype=np.int64)
-    series_ids = ids[keys_codes] if len(keys) else np.empty(0, dtype=np.int64)
-    ts = table["ts_utc"].to_numpy(dtype=np.int64)
-    values = table["value"].to_numpy(dtype=np.float64)
-    series_ids, ts, values = _sorted_last_wins(series_ids, ts, values)
-
-    existing = [int(series[k].id) for k in keys if k not in created]
-    before = sum(_point_counts(session, existing).values())
-    fresh = np.isin(series_ids, [series[k].id for k in created])
-    _write_points(session, imp.id, series_ids[fresh], ts[fresh], values[fresh], upsert=False)
-    keep = ~fresh
-    _write_points(session, imp.id, series_ids[keep], ts[keep], values[keep], upsert=True)
-    stats.refresh(session, [series[k] for k in keys if k not in created])
-    stats.set_from_points({series[k].id: series[k] for k in created}, series_ids[fresh], ts[fresh])
-    inserted = sum(s.point_count for s in series.values()) - before
+    series_ids, ts, values = _sorted_last_wins(
+        ids[codes] if keys else np.empty(0, dtype=np.int64),
+        parsed.table["ts_utc"].to_numpy(dtype=np.int64),
+        parsed.table["value"].to_numpy(dtype=np.float64),
+    )
+    inserted = _write_all(session, imp.id, series, created, series_ids, ts, values)
 
     summary = ImportSummary(
         import_id=imp.id,
         file_name=parsed.file_name,
         format=parsed.format,
         sha256=parsed.sha256,
-        duplicate_of=duplicate_of,
+        duplicate_of=earlier.id if earlier is not None else None,
         points=len(ts),
         inserted=inserted,
         updated=len(ts) - inserted,
@@ -199,6 +184,37 @@ def _record(session: Session, parsed: ParsedImport, allow_duplicate: bool) -> Im
     imp.summary = summary.to_dict()
     session.flush()
     return summary
+
+
+def _same_content(session: Session, imp: Import) -> Import | None:
+    """The latest other import with the same sha256."""
+    return session.scalars(
+        select(Import)
+        .where(Import.sha256 == imp.sha256, Import.id != imp.id)
+        .order_by(Import.id.desc())
+        .limit(1)
+    ).first()
+
+
+def _write_all(
+    session: Session,
+    import_id: int,
+    series: dict[str, Series],
+    created: set[str],
+    series_ids: np.ndarray,
+    ts: np.ndarray,
+    values: np.ndarray,
+) -> int:
+    """Write the sorted points, refresh the series figures; returns how many are new."""
+    existing = [s for key, s in series.items() if key not in created]
+    before = sum(_point_counts(session, [s.id for s in existing]).values())
+    fresh = np.isin(series_ids, [series[k].id for k in created])
+    old = ~fresh
+    _write_points(session, import_id, series_ids[fresh], ts[fresh], values[fresh], upsert=False)
+    _write_points(session, import_id, series_ids[old], ts[old], values[old], upsert=True)
+    stats.refresh(session, existing)
+    stats.set_from_points({series[k].id: series[k] for k in created}, series_ids[fresh], ts[fresh])
+    return sum(s.point_count for s in series.values()) - before
 
 
 def _series_for(
