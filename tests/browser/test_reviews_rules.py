@@ -14,7 +14,9 @@ def app(demo_app):
     return demo_app
 
 
-def test_replay_draws_and_the_verdict_reaches_a_review(page, live_server, screenshot) -> None:
+def test_replay_draws_and_the_verdict_reaches_a_review(
+    page, live_server, screenshot, unlabelled
+) -> None:
     page.goto(live_server.at("/rules"))
     page.click("table a >> nth=0")
     page.wait_for_selector("#replay-summary")
@@ -23,6 +25,7 @@ def test_replay_draws_and_the_verdict_reaches_a_review(page, live_server, screen
     )
     assert "Retiring an alert can hide a real failure" in page.inner_text("#verdict")
     assert int(page.inner_text("#replay-summary .counts li >> nth=0").split()[0]) >= 1
+    assert unlabelled(page) == []
     screenshot(page, "rule-replay")
 
     suggestion = page.input_value("#f-verdict")
