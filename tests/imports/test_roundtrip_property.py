@@ -66,10 +66,16 @@ def _rows(frame):
             yield metric, labels, ms, value
 
 
+def _csv_writer(out, style):
+    """Semicolons or tabs for some styles: the delimiter is detected too."""
+    delimiter = {"us": ";", "iso-naive": "\t"}.get(style, ",")
+    return csv.writer(out, delimiter=delimiter, lineterminator="\n")
+
+
 def write_csv_long(frame, style):
     names = sorted({n for _, labels, _ in frame for n in labels})
     out = io.StringIO()
-    writer = csv.writer(out, lineterminator="\n")
+    writer = _csv_writer(out, style)
     writer.writerow(["timestamp", "metric", *names, "value"])
     for metric, labels, ms, value in _rows(frame):
         writer.writerow(
@@ -82,7 +88,7 @@ def write_csv_wide(frame, style):
     keys = [series_key(m, labels) for m, labels, _ in frame]
     stamps = sorted({ms for _, _, pts in frame for ms in pts})
     out = io.StringIO()
-    writer = csv.writer(out, lineterminator="\n")
+    writer = _csv_writer(out, style)
     writer.writerow(["timestamp", *keys])
     for ms in stamps:
         writer.writerow([_stamp(ms, style), *(_number(pts.get(ms)) for _, _, pts in frame)])

@@ -37,9 +37,16 @@ class Header:
 
 
 def sniff_delimiter(header: str) -> str:
-    """The delimiter that splits the header into the most fields, quotes respected
-    (commas win ties)."""
-    return max(DELIMITERS, key=lambda d: len(next(csv.reader([header], delimiter=d))))
+    """The delimiter under which the header names a timestamp column (every layout has
+    one), quotes respected; failing that, the one giving the most fields. Commas win ties."""
+
+    def fields(delimiter: str) -> list[str]:
+        return [f.strip().lower() for f in next(csv.reader([header], delimiter=delimiter))]
+
+    return max(
+        DELIMITERS,
+        key=lambda d: (bool(set(fields(d)) & set(TIMESTAMP_NAMES)), len(fields(d))),
+    )
 
 
 def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
