@@ -49,7 +49,8 @@ def _configure_sqlite(engine: Engine, *, in_memory: bool) -> None:
             cursor.execute(f"PRAGMA cache_size = -{CACHE_KIB}")
             if not in_memory:
                 cursor.execute("PRAGMA journal_mode = WAL")
-                # Durable at every checkpoint; the usual pairing with WAL (common practice).
+                # Never corrupts with WAL; a power cut may lose the last commits only. The
+                # usual pairing with WAL (common practice).
                 cursor.execute("PRAGMA synchronous = NORMAL")
         finally:
             cursor.close()

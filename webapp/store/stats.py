@@ -44,9 +44,6 @@ def set_from_points(rows: dict[int, Series], series_ids: np.ndarray, ts: np.ndar
         row.first_ts = int(own[0])
         row.last_ts = int(own[-1])
         row.step_ms = _median_step(own[-STEP_SAMPLE:]) if n > 1 else None
-    for sid in set(rows) - set(found.tolist()):
-        rows[sid].point_count, rows[sid].first_ts, rows[sid].last_ts = 0, None, None
-        rows[sid].step_ms = None
 
 
 def _median_step(sorted_ts: np.ndarray) -> int:
