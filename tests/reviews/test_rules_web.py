@@ -257,3 +257,7 @@ def test_a_bad_sweep_grid_is_explained_and_kept(client, rule, query, message) ->
     text = html.unescape(response.text)
     assert message in text
     assert count(text, "firings") == "3"
+
+
+def test_rule_page_states_the_rule_before_its_replay_arrives(client, rule) -> None:
+    assert "above 200 for 10min" in client.get(f"/rules/{rule.id}").text

@@ -136,6 +136,7 @@ def _show(
         "rules/_replay.html",
         lazy=lazy and info is not None,
         rule=rule,
+        text=rule_text(rule),
         candidates=candidates,
         info=info,
         replay=replay,
