@@ -228,7 +228,13 @@ def _remove_sqlite_file(url: str) -> None:
     database = make_url(url).database
     if database and database != ":memory:":
         for suffix in ("", "-wal", "-shm"):
-            Path(f"{database}{suffix}").unlink(missing_ok=True)
+            try:
+                Path(f"{database}{suffix}").unlink(missing_ok=True)
+            except OSError as err:
+                raise click.ClickException(
+                    f"cannot rebuild the demo database at {describe(url)} "
+                    f"({err.strerror or err}); is another whyfired still using it?"
+                ) from None
 
 
 def _prepare_demo_target(url: str, own_file: bool, replace: bool) -> Engine:
