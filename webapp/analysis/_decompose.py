@@ -22,11 +22,13 @@ periods, Bandara, Hyndman & Bergmeir 2021) and swaps each smoother for a robust,
   [1, 2, 1] / 4 smoothing across phase: sampling noise otherwise passes straight into the
   band. Each cycle's pattern is centred (mean 0).
 * Trend: the deseasonalised series is reduced to medians over short bins (a 168th of the
-  longest period), then smoothed with robust lowess (statsmodels; bisquare weights, 3
-  robustness iterations) over STL's default trend span for seasonal = 7, 1.5 p / (1 - 1.5 / 7).
-  Lowess is local-linear, so the trend does not lag at the end of history; it is computed
-  exactly every 1/40 of the span and interpolated between (lowess' `delta`), which is what
-  keeps it fast on long histories.
+  longest period, and at most 5,000 bins over the history), then smoothed with robust
+  lowess (statsmodels; bisquare weights, 3 robustness iterations) over STL's default trend
+  span for seasonal = 7, 1.5 p / (1 - 1.5 / 7). Lowess is local-linear, so the trend does
+  not lag at the end of history. It is fitted exactly every 1/40 of the span, but at most
+  250 times over the history, and interpolated in between (lowess' `delta`): the exact
+  fits are what costs time, and a history of years would otherwise need thousands. The
+  last point is always fitted exactly.
 * Two passes of (seasonals, trend), as STL's inner loop; robustness comes from the medians
   and lowess' own reweighting, so no outer loop is needed. Missing values simply leave
   their cells empty.
@@ -57,9 +59,11 @@ SPAN_TIME = pd.Timedelta(weeks=4)
 MAX_SPAN = 28
 NESTED_MAX_BINS = 336
 TREND_BINS_PER_PERIOD = 168
+TREND_MAX_POINTS = 5000
 PASSES = 2
 CHUNK_VALUES = 1 << 17
 LOWESS_DELTA_PER_SPAN = 40
+LOWESS_MAX_FITS = 250
 
 
 def period_label(period: pd.Timedelta) -> str:
@@ -233,7 +237,9 @@ def fit_trend(values: np.ndarray, t_ns: np.ndarray, bin_ns: int, span_ns: float)
     if len(x) < 4:
         return x + t0, np.full(len(x), np.median(values[ok]))
     frac = min(1.0, max(span_ns / bin_ns, 4.0) / len(x))
-    delta = min(span_ns, x[-1] - x[0]) / LOWESS_DELTA_PER_SPAN
+    delta = max(
+        min(span_ns, x[-1] - x[0]) / LOWESS_DELTA_PER_SPAN, (x[-1] - x[0]) / LOWESS_MAX_FITS
+    )
     level = lowess(y, x, frac=frac, it=3, delta=delta, is_sorted=True, return_sorted=False)
     return x + t0, level
 
@@ -288,8 +294,10 @@ def decompose(
     t_ns = np.asarray(index.as_unit("ns").asi8, dtype=np.int64)
     periods = sorted(periods)
     longest = max(periods) if periods else pd.Timedelta(days=1)
-    bin_ns = max(step.value, (longest.value // TREND_BINS_PER_PERIOD) // step.value * step.value)
-    span_ns = trend_span(periods, index[-1] - index[0] + step, SEASONAL_SPAN).value
+    span_of_data = index[-1] - index[0] + step
+    bin_ns = max(longest.value // TREND_BINS_PER_PERIOD, span_of_data.value // TREND_MAX_POINTS)
+    bin_ns = max(step.value, bin_ns // step.value * step.value)
+    span_ns = trend_span(periods, span_of_data, SEASONAL_SPAN).value
     layouts = [PhaseLayout.fit(p, step, wall, nested=i > 0) for i, p in enumerate(periods)]
     windows = [
         cycle_windows(lay.n_cycles, span_in_cycles(p))

@@ -47,6 +47,7 @@ ACF_MIN_HEIGHT = 0.2
 ACF_MAX_POINTS = 4096
 ACF_MAX_CANDIDATES = 2
 FUNDAMENTAL_SHARE = 0.8
+ACF_TOP_PEAKS = 10
 OUTLIER_SDS = 5.0
 HARMONIC_TOLERANCE = 0.05
 
@@ -115,20 +116,14 @@ def autocorrelation_peaks(baseline: pd.Series) -> list[pd.Timedelta]:
         (acf[lags] > acf[lags - 1]) & (acf[lags] >= acf[lags + 1]) & (acf[lags] >= ACF_MIN_HEIGHT)
     ]
     ordered: list[int] = []
-    for lag in lags[np.argsort(-acf[lags])]:
-        root = min(
-            (f for f in lags if acf[f] >= FUNDAMENTAL_SHARE * acf[lag] and divides(f, lag)),
-            default=lag,
-        )
+    for lag in lags[np.argsort(-acf[lags])][:ACF_TOP_PEAKS]:
+        near = lags[acf[lags] >= FUNDAMENTAL_SHARE * acf[lag]]
+        multiple = np.maximum(1, np.round(lag / near))
+        fits = np.abs(lag - multiple * near) <= max(1, round(0.01 * lag))
+        root = int(near[fits].min()) if fits.any() else int(lag)
         if root not in ordered:
-            ordered.append(int(root))
+            ordered.append(root)
     return [step * int(lag * factor) for lag in ordered]
-
-
-def divides(short: int, long: int) -> bool:
-    """Whether lag `long` is a whole multiple of lag `short`, to a bin or 1%."""
-    k = max(1, round(long / short))
-    return abs(long - k * short) <= max(1, round(0.01 * long))
 
 
 def acf_bin_factor(n: int, step: pd.Timedelta) -> int:
@@ -186,8 +181,10 @@ def select_periods(
     for period in autocorrelation_peaks(baseline):
         if found == ACF_MAX_CANDIDATES:
             break
-        if any(is_harmonic(period, c.period) for c in tried):
-            continue
+        if any(is_harmonic(period, c.period) for c in tried) or any(
+            abs(period / c.period - 1) <= HARMONIC_TOLERANCE for c in candidates[:2]
+        ):
+            continue  # a harmonic of a cycle tried, or one day or one week itself
         cand = Candidate(period, "autocorrelation")
         if eligible(cand, baseline, step, tz):
             candidates.append(cand)
