@@ -25,8 +25,6 @@ CHROMIUM_ARGS = [
 ]
 SCREENSHOTS = Path(__file__).resolve().parents[2] / "test-artifacts" / "screenshots"
 
-pytestmark = pytest.mark.browser
-
 
 @dataclass
 class LiveServer:
