@@ -125,3 +125,20 @@ def test_wall_clock_cycle_survives_daylight_saving(make_service_series, tz, star
     err_utc = np.abs(utc.frame["expected"].to_numpy() - truth)[in_window]
     assert err_local.mean() < 1.0
     assert err_local.mean() < err_utc.mean() / 2
+
+
+def test_an_autocorrelation_peak_near_one_day_is_one_day(monkeypatch):
+    # With just short of two days, one day is not tried; a peak the autocorrelation puts at
+    # 23 h 40 min is that same cycle and must not come back under another name.
+    import webapp.analysis._periods as periods
+
+    index = pd.date_range("2026-01-05", periods=2 * 1440 - 30, freq="1min", tz="UTC")
+    days = np.arange(len(index)) / 1440
+    series = pd.Series(np.sin(2 * np.pi * days), index=index)
+    monkeypatch.setattr(periods, "autocorrelation_peaks", lambda _: [pd.Timedelta("23h40min")])
+    dec, candidates = select_periods(series, "UTC")
+    assert [c.source for c in candidates] == ["one day", "one week"]
+    assert "two full cycles" in candidates[0].reason
+    monkeypatch.setattr(periods, "autocorrelation_peaks", lambda _: [pd.Timedelta("17h")])
+    dec, candidates = select_periods(series, "UTC")
+    assert "autocorrelation" in [c.source for c in candidates]
