@@ -260,6 +260,8 @@ def test_count_metrics_can_be_summed(make_service_series):
         ({"exclude": [("2026-01-03", "2026-01-02")]}, "excluded period 1 must start before"),
         ({"exclude": ["2026-01-03"]}, r"excluded period 1 must be a \(start, end\) pair"),
         ({"agg": "max"}, "agg must be"),
+        ({"step": "often"}, "the step must be a duration such as '5min'"),
+        ({"step": "-5min"}, "the step must be positive"),
     ],
 )
 def test_bad_parameters_get_clear_messages(make_service_series, kwargs, message):

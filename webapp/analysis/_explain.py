@@ -26,7 +26,7 @@ from ._facts import (
     point_facts,
     same_hour_facts,
 )
-from ._grid import Agg, as_utc_series, find_gaps, infer_step, regularize
+from ._grid import Agg, as_utc_series, check_step, find_gaps, infer_step, regularize
 from ._sentences import sentences
 
 ENGINE_VERSION = "1.0.0"
@@ -79,7 +79,7 @@ def explain(
     if agg not in ("mean", "sum"):
         raise ValueError(f"agg must be 'mean' or 'sum', got {agg!r}")
     clean = as_utc_series(series)
-    margin = pd.Timedelta(step) if step is not None else infer_step(clean.index)
+    margin = check_step(step) if step is not None else infer_step(clean.index)
     nearby = clean[(clean.index >= start - history - margin) & (clean.index <= end + margin)]
     regular = regularize(
         nearby if nearby.notna().any() else clean, margin, agg=agg, start=start - history, end=end

@@ -75,6 +75,17 @@ def as_utc_series(series: pd.Series) -> pd.Series:
     return out
 
 
+def check_step(step) -> pd.Timedelta:
+    """A positive grid step, or a ValueError that says what was expected."""
+    try:
+        value = pd.Timedelta(step)
+    except (TypeError, ValueError):
+        raise ValueError(f"the step must be a duration such as '5min', got {step!r}") from None
+    if value is pd.NaT or value <= pd.Timedelta(0):
+        raise ValueError(f"the step must be positive, got {step!r}")
+    return value
+
+
 def infer_step(index: pd.DatetimeIndex) -> pd.Timedelta:
     """The grid step: median positive spacing, snapped to a round step within 10%."""
     ns = np.asarray(index.as_unit("ns").asi8)
@@ -134,9 +145,7 @@ def regularize(
     if agg not in ("mean", "sum"):
         raise ValueError(f"agg must be 'mean' or 'sum', got {agg!r}")
     clean = as_utc_series(series)
-    step = infer_step(clean.index) if step is None else pd.Timedelta(step)
-    if step <= pd.Timedelta(0):
-        raise ValueError(f"the step must be positive, got {step}")
+    step = infer_step(clean.index) if step is None else check_step(step)
     offset = grid_offset(clean.index, step) if len(clean) > 1 else 0
     snapped = snap(clean.dropna(), step, offset, agg)
     lo = snapped.index[0] if start is None else to_utc(start)

@@ -7,7 +7,7 @@ import pandas as pd
 
 from ._checks import check_window
 from ._clock import check_tz, same_wall_clock_weeks_ago
-from ._grid import Agg, as_utc_series, infer_step, regularize
+from ._grid import Agg, as_utc_series, check_step, infer_step, regularize
 from ._robust import quiet_nan_warnings
 
 
@@ -31,7 +31,7 @@ def past_weeks_overlay(
     if not isinstance(weeks, int | np.integer) or weeks < 1:
         raise ValueError(f"weeks must be a positive whole number, got {weeks!r}")
     clean = as_utc_series(series)
-    step = infer_step(clean.index) if step is None else pd.Timedelta(step)
+    step = infer_step(clean.index) if step is None else check_step(step)
     reach = start - pd.Timedelta(weeks=weeks, days=1)  # a day more, for daylight saving
     nearby = clean[(clean.index >= reach) & (clean.index <= end + step)]
     regular = regularize(nearby if nearby.notna().any() else clean, step, agg=agg, end=end)
