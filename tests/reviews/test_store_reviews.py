@@ -124,6 +124,15 @@ def test_search_matches_every_word_in_any_text_field(session) -> None:
     assert sorted(titles(None)) == ["Checkout slowdown", "Queue backlog"]
 
 
+def test_search_reaches_timeline_and_action_items(session) -> None:
+    found = reviews.create_review(session, good_form(title="Checkout slowdown"))
+    reviews.create_review(session, good_form(title="Queue backlog"))
+    reviews.add_timeline_entry(session, found, "2026-11-30 14:20", "Rolled back the deploy")
+    reviews.add_action_item(session, found, {"text": "Warm the cache", "owner": "Dana"})
+    for q in ("rolled", "WARM", "dana", "deploy checkout"):
+        assert [r.title for r in reviews.list_reviews(session, q)] == ["Checkout slowdown"], q
+
+
 def test_list_puts_latest_incident_first_and_filters_status(session) -> None:
     reviews.create_review(session, good_form(title="older"))
     reviews.create_review(

@@ -233,12 +233,22 @@ def delete_review(session: Session, review: Review) -> None:
 
 
 def list_reviews(session: Session, q: str | None = None, status: str | None = None) -> list[Review]:
-    """Reviews, latest incident first; ``q`` matches any word of title, severity or text."""
+    """Reviews, latest incident first. Every word of ``q`` must appear (any case) in the
+    title, severity, a text section, the verdict's rationale, a timeline entry or an action."""
     stmt = select(Review)
     for word in (q or "").split():
         pattern = f"%{word}%"
-        columns = [Review.title, Review.severity, *(getattr(Review, n) for n in TEXT_FIELDS)]
-        stmt = stmt.where(or_(*(c.ilike(pattern) for c in columns)))
+        columns = [Review.title, Review.severity, Review.verdict_rationale]
+        columns += [getattr(Review, n) for n in TEXT_FIELDS]
+        stmt = stmt.where(
+            or_(
+                *(c.ilike(pattern) for c in columns),
+                Review.timeline.any(TimelineEntry.text.ilike(pattern)),
+                Review.action_items.any(
+                    or_(ActionItem.text.ilike(pattern), ActionItem.owner.ilike(pattern))
+                ),
+            )
+        )
     if status in STATUSES:
         stmt = stmt.where(Review.status == status)
     stmt = stmt.order_by(Review.incident_start.desc().nulls_last(), Review.id.desc())
