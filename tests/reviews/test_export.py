@@ -94,6 +94,7 @@ def plotly_js_version() -> str:
 def test_a_directory_target_gets_a_file_name(session, full_review, tmp_path) -> None:
     files = export_review(session, full_review.id, "html", tmp_path)
     assert files == [tmp_path / f"review-{full_review.id}.html"]
+    assert export_review(session, full_review.id, "html", tmp_path / "x") == [tmp_path / "x.html"]
 
 
 def test_review_without_evidence_exports_markdown_alone(session, tmp_path) -> None:

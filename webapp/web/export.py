@@ -200,6 +200,8 @@ def export_review(session: Session, review_id: int, fmt: str, out_path: str | Pa
     out_path = Path(out_path)
     if out_path.is_dir():
         out_path = out_path / f"review-{review.id}.{fmt}"
+    elif not out_path.suffix:
+        out_path = out_path.with_suffix(f".{fmt}")
     out_path.parent.mkdir(parents=True, exist_ok=True)
     context = review_context(session, review)
     if fmt == "md":
