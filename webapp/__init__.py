@@ -4,9 +4,10 @@ from __future__ import annotations
 
 import secrets
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from flask import Flask
+if TYPE_CHECKING:  # Flask is imported inside create_app: `import webapp.analysis` stays light
+    from flask import Flask
 
 PACKAGE_DIR = Path(__file__).resolve().parent
 
@@ -21,6 +22,8 @@ def resource_dir(name: str) -> Path:
 
 
 def create_app(test_config: dict[str, Any] | None = None) -> Flask:
+    from flask import Flask
+
     from webapp import settings
 
     app = Flask(

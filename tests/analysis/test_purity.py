@@ -51,3 +51,15 @@ def test_no_web_or_database_stack_in_the_source():
         text = path.read_text()
         for name in ("flask", "sqlalchemy", "requests", "sqlite3"):
             assert f"import {name}" not in text.lower(), (path.name, name)
+
+
+def test_importing_the_core_loads_no_web_or_database_stack():
+    """STYLE.md: importing webapp.analysis must not pull in Flask or SQLAlchemy."""
+    import subprocess
+
+    code = (
+        "import sys, webapp.analysis; "
+        "print(sorted(m for m in ('flask', 'sqlalchemy', 'alembic') if m in sys.modules))"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "[]"
