@@ -26,6 +26,8 @@ _NAME = re.compile(r"[a-zA-Z_:][a-zA-Z0-9_:]*")
 _LABEL_NAME = re.compile(r"[a-zA-Z_][a-zA-Z0-9_]*")
 _DESCRIPTOR = re.compile(r"#[ ]+(TYPE|UNIT|HELP)[ ]+([a-zA-Z_:][a-zA-Z0-9_:]*)(?:[ ]+(.*))?$")
 _SUFFIXES = ("_total", "_created", "_count", "_sum", "_bucket", "_gcount", "_gsum", "_info")
+_PAIR = re.compile(r'([a-zA-Z_][a-zA-Z0-9_]*)="((?:[^"\\]|\\.)*)"(,?)')
+_ESCAPE = re.compile(r"\\(.?)")
 _ESCAPES = {"\\": "\\", '"': '"', "n": "\n"}
 _TYPES = {
     "counter",
@@ -47,41 +49,38 @@ def _parse_labels(line: str, pos: int) -> tuple[dict[str, str], int]:
     """Labels from the ``{`` at ``pos``; returns them and the position after ``}``."""
     labels: dict[str, str] = {}
     pos += 1
-    while True:
-        if line.startswith("}", pos):
-            return labels, pos + 1
-        match = _LABEL_NAME.match(line, pos)
-        if not match:
-            raise _LineError(f"expected a label name or '}}' at character {pos + 1}")
-        name = match.group()
-        pos = match.end()
-        if not line.startswith('="', pos):
-            raise _LineError(f'expected =" after label {name!r}')
-        pos += 2
-        chars = []
-        while True:
-            if pos >= len(line):
-                raise _LineError(f"the value of label {name!r} is not closed with a quote")
-            ch = line[pos]
-            if ch == "\\":
-                escaped = line[pos + 1 : pos + 2]
-                if escaped not in _ESCAPES:
-                    raise _LineError(f"unknown escape \\{escaped} in label {name!r}")
-                chars.append(_ESCAPES[escaped])
-                pos += 2
-            elif ch == '"':
-                pos += 1
-                break
-            else:
-                chars.append(ch)
-                pos += 1
+    while not line.startswith("}", pos):
+        pair = _PAIR.match(line, pos)
+        if pair is None:
+            raise _LineError(_label_error(line, pos))
+        name, raw, comma = pair.groups()
         if name in labels:
             raise _LineError(f"label {name!r} appears twice")
-        labels[name] = "".join(chars)
-        if line.startswith(",", pos):
-            pos += 1
-        elif not line.startswith("}", pos):
+        labels[name] = _unescape(raw, name) if "\\" in raw else raw
+        pos = pair.end()
+        if not comma and not line.startswith("}", pos):
             raise _LineError(f"expected ',' or '}}' after label {name!r}")
+    return labels, pos + 1
+
+
+def _label_error(line: str, pos: int) -> str:
+    """What is wrong with the label that starts at ``pos``."""
+    name = _LABEL_NAME.match(line, pos)
+    if name is None:
+        return f"expected a label name or '}}' at character {pos + 1}"
+    if not line.startswith('="', name.end()):
+        return f'expected =" after label {name.group()!r}'
+    return f"the value of label {name.group()!r} is not closed with a quote"
+
+
+def _unescape(raw: str, name: str) -> str:
+    def replace(match: re.Match[str]) -> str:
+        escaped = match.group(1)
+        if escaped not in _ESCAPES:
+            raise _LineError(f"unknown escape \\{escaped} in label {name!r}")
+        return _ESCAPES[escaped]
+
+    return _ESCAPE.sub(replace, raw)
 
 
 def _parse_sample(line: str) -> tuple[str, dict[str, str], str, str | None]:
