@@ -23,6 +23,7 @@ def _parquet() -> bytes:
         (b"\xef\xbb\xbfTime;Name;Value\n", "csv-long"),
         (b"ts\tm{h=1}\tm{h=2}\n", "csv-wide"),
         (b'[{"timestamp": 1, "metric": "m", "value": 1}]', "json-records"),
+        (b'[{"Time": 1, "Name": "m", "Value": 1}]', "json-records"),
         (b'  {"metric": "m", "points": [[1, 2]]}', "json-series"),
         (b'[{"metric": "m", "labels": {}, "points": []}]', "json-series"),
         (b"# HELP x Something.\n# TYPE x gauge\n", "openmetrics"),

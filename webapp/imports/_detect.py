@@ -65,8 +65,9 @@ def detect_format(data: bytes | memoryview, file_name: str = "") -> str:
 
 
 def _json_kind(head: str) -> str:
-    points = head.find('"points"')
-    value = head.find('"value"')
+    lowered = head.lower()
+    points = lowered.find('"points"')
+    value = max(lowered.find(f'"{name}"') for name in VALUE_NAMES)
     if points >= 0 and (value < 0 or points < value):
         return "json-series"
     if value >= 0:
