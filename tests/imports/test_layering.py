@@ -38,3 +38,18 @@ def test_public_names():
         "series_key",
         "parse_series_key",
     }
+
+
+def test_importing_the_importers_loads_no_web_or_database_library():
+    import subprocess
+    import sys
+
+    code = (
+        "import sys, webapp.imports; "
+        "print(sorted(m for m in ('flask', 'sqlalchemy', 'alembic') if m in sys.modules))"
+    )
+    root = Path(webapp.imports.__file__).parents[2]
+    out = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True, cwd=root
+    )
+    assert out.stdout.strip() == "[]"
