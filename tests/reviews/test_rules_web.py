@@ -261,3 +261,29 @@ def test_a_bad_sweep_grid_is_explained_and_kept(client, rule, query, message) ->
 
 def test_rule_page_states_the_rule_before_its_replay_arrives(client, rule) -> None:
     assert "above 200 for 10min" in client.get(f"/rules/{rule.id}").text
+
+
+def _counts(page: str) -> dict[str, str]:
+    return {
+        label.strip(): count
+        for count, label in re.findall(r'<span class="count">([^<]+)</span>\s*([a-z ]+)', page)
+    }
+
+
+def test_demo_queue_rule_is_judged_against_every_recorded_incident(demo_app, demo_client):
+    """The demo's Monday-batch queue rule is tied to no review; by default its firings are
+    matched against every recorded incident (both demo incidents), so it misses both and the
+    draft says retire. Limited to reviews tied to its own series, it has no incident at all."""
+    from webapp.store import db
+
+    with demo_app.app_context():
+        rule = next(r for r in store_rules.list_rules(db.get_session()) if "queue" in r.metric)
+    every = demo_client.get(f"/rules/{rule.id}/replay").get_data(as_text=True)
+    assert _counts(every)["incidents missed"] == "2"
+    assert _counts(every)["outside incidents"] == "6"
+    assert "Verdict draft: retire" in every
+    own = demo_client.get(f"/rules/{rule.id}/replay?incidents=series").get_data(as_text=True)
+    assert _counts(own)["incidents missed"] == "0"
+    assert "No review tied to this series records an incident window yet" in own
+    bad = demo_client.get(f"/rules/{rule.id}/replay?incidents=nearby").get_data(as_text=True)
+    assert "incidents must be one of all, series" in bad

@@ -272,6 +272,8 @@ def test_incident_windows_by_page_and_by_attachment(
         (pd.Timestamp("2026-12-01 10:00", tz="UTC"), pd.Timestamp("2026-12-01 11:00", tz="UTC")),
     ]
     assert reviews.series_ids_of(session, by_page) == {series.id}
+    every = reviews.incident_windows(session)  # no series: every review with a window
+    assert len(every) == 3 and all(w in every for w in windows)  # "unrelated" shares a window
 
 
 def test_time_facts_of_a_computed_explanation_put_the_first_outside_first(

@@ -559,11 +559,18 @@ def reviews_for_series(session: Session, series_id: int) -> list[Review]:
     return list(session.scalars(stmt))
 
 
-def incident_windows(session: Session, series_id: int) -> list[tuple[pd.Timestamp, pd.Timestamp]]:
-    """Incident windows of the reviews tied to a series, as UTC Timestamps (for replay)."""
+def incident_windows(
+    session: Session, series_id: int | None = None
+) -> list[tuple[pd.Timestamp, pd.Timestamp]]:
+    """Incident windows as UTC Timestamps (for replay): of the reviews tied to a series, or
+    of every review when ``series_id`` is None."""
+    if series_id is None:
+        reviews = session.scalars(select(Review).order_by(Review.incident_start))
+    else:
+        reviews = reviews_for_series(session, series_id)
     return [
         (pd.Timestamp(r.incident_start), pd.Timestamp(r.incident_end))
-        for r in reviews_for_series(session, series_id)
+        for r in reviews
         if r.incident_start is not None and r.incident_end is not None
     ]
 

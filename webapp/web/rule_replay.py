@@ -61,6 +61,9 @@ def firing_rows(firings: pd.DataFrame, limit: int = 500) -> list[dict[str, Any]]
     ]
 
 
+INCIDENT_SCOPES = ("all", "series")
+
+
 @dataclass
 class Replay:
     """Everything the replay page shows for one rule on one series."""
@@ -73,6 +76,7 @@ class Replay:
     draft: Any
     figures: dict[str, str]
     grid: tuple[list[float], list[pd.Timedelta]] | None = None  # what the sweep varied
+    scope: str = "all"
 
 
 def run_replay(
@@ -80,17 +84,23 @@ def run_replay(
     rule: AlertRule,
     info: store_series.SeriesInfo,
     grid: tuple[list[float], list[pd.Timedelta]] | None = None,
+    scope: str = "all",
 ) -> Replay:
-    """Replay ``rule`` over all of one series' history against the incidents of its reviews.
+    """Replay ``rule`` over all of one series' history against recorded incidents: every
+    review's incident window (``scope="all"``: a rule is judged by the incidents of the
+    service, not only those its own series was tied to) or only those of reviews tied to
+    this series (``scope="series"``).
 
     ``grid`` (thresholds, pending periods) replaces the default what-if sweep; the current
     rule's own setting is always part of it. Raises ValueError with a readable message when
     the rule or the data cannot be replayed."""
+    if scope not in INCIDENT_SCOPES:
+        raise ValueError(f"incidents must be one of {', '.join(INCIDENT_SCOPES)}, got {scope!r}")
     analysed = rule_from_fields(_fields(rule))
     values = store_series.read_series(session, info.id).dropna()
     if values.empty:
         raise ValueError(f"{info.key} has no stored points to replay over")
-    incidents = store_reviews.incident_windows(session, info.id)
+    incidents = store_reviews.incident_windows(session, None if scope == "all" else info.id)
     report = replay_report(values, analysed, incidents)
     sweep, used = None, None
     if isinstance(analysed, ThresholdRule):
@@ -126,4 +136,4 @@ def run_replay(
         figs["sweep"] = figure_div(
             rule_figures.sweep_figure(sweep, current, drafted), "sweep-figure", False
         )
-    return Replay(info, analysed, report, incidents, sweep, draft, figs, used)
+    return Replay(info, analysed, report, incidents, sweep, draft, figs, used, scope)

@@ -120,6 +120,7 @@ def _show(
         (s for s in candidates if str(s.id) == chosen), candidates[0] if candidates else None
     )
     replay, problem, sweep_errors = None, None, {}
+    scope = request.values.get("incidents", "all")
     if info is None:
         problem = (
             "No stored series matches this rule yet. Import its data, or edit the rule's series."
@@ -127,7 +128,7 @@ def _show(
     elif not lazy:
         grid, sweep_errors = parse_sweep(request.args)
         try:
-            replay = run_replay(session, rule, info, grid)
+            replay = run_replay(session, rule, info, grid, scope)
         except ValueError as err:
             problem = f"This rule cannot be replayed: {err}."
     reviews = _reviews_for(session, info.id if info else None)
@@ -147,6 +148,7 @@ def _show(
         firings=firing_rows(replay.report.firings) if replay else [],
         sweep_values=_sweep_values(replay, request.args),
         sweep_errors=sweep_errors,
+        scope=scope,
         verdict_warning=store_reviews.VERDICT_WARNING,
         tz=TZ,
     )
