@@ -55,6 +55,9 @@ def test_each_incident_is_a_review_with_its_page_and_a_frozen_explanation(demo_s
         (attachment,) = review.attachments
         frame = explanations.load_frame(attachment.explanation)
         assert frame.index.min() < pd.Timestamp(incident["start"]) < frame.index.max()
+        unit = demo.parsed.series[attachment.explanation.series_key].unit
+        assert unit and attachment.explanation.parameters["unit"] == unit
+        assert f" {unit}" in attachment.explanation.summary[1]  # the peak sentence has units
 
 
 def test_baselines_leave_out_maintenance_and_past_incidents(demo_session, demo):

@@ -15,7 +15,7 @@ from sqlalchemy.orm import Session
 from webapp.analysis import explain, past_weeks_overlay
 from webapp.store import excluded, explanations, pages, reviews, rules
 from webapp.store.imports import record_import
-from webapp.store.models import Page
+from webapp.store.models import Page, Series
 from webapp.store.series import read_series, series_by_keys
 
 EXPLAIN_BEFORE = pd.Timedelta(hours=3)
@@ -121,7 +121,15 @@ def _attach_explanation(
     end = pd.Timestamp(incident["end"]) + EXPLAIN_AFTER
     history = read_series(session, series_id, start - EXPLAIN_HISTORY, end)
     exclude = [(s, e) for s, e in excluded.periods_for(session, series_id) if e < start]
-    exp = explain(history, window=(start, end), history=EXPLAIN_HISTORY, exclude=exclude, tz=tz)
+    unit = session.get(Series, series_id).unit or ""
+    exp = explain(
+        history,
+        window=(start, end),
+        history=EXPLAIN_HISTORY,
+        exclude=exclude,
+        tz=tz,
+        unit=unit,
+    )
     overlay = past_weeks_overlay(history, window=(start, end), weeks=4, tz=tz)
     row = explanations.save_explanation(
         session, exp, series_id, overlay=overlay, title=incident["title"], page_id=review.page_id
