@@ -34,7 +34,6 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("MAX_IMPORT_MB", 200, "Largest metric file accepted, in megabytes."),
     Setting("DEFAULT_TOLERANCE", 3.0, "Band half-width in robust standard deviations."),
     Setting("DEFAULT_HISTORY_WEEKS", 6, "Weeks of history the expected band is rebuilt from."),
-    Setting("DISPLAY_POINTS", 2000, "Most points per trace sent to the browser."),
 )
 
 
