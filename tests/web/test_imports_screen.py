@@ -40,6 +40,26 @@ def test_bad_file_shows_its_problem_with_the_line(upload_files):
     assert "Nothing from this file reached the store" in body
 
 
+def test_bad_parquet_names_the_row(upload_files):
+    import io
+
+    import pandas as pd
+
+    frame = pd.DataFrame(
+        {
+            "timestamp": ["2026-11-30T00:00:00Z", "2026-11-30T00:01:00Z", "yesterday"],
+            "metric": ["m", "m", "m"],
+            "value": [1.0, 2.0, 3.0],
+        }
+    )
+    buffer = io.BytesIO()
+    frame.to_parquet(buffer)
+    response = upload_files([(buffer.getvalue(), "bad.parquet")])
+    assert response.status_code == 400
+    body = response.get_data(as_text=True)
+    assert "row 3" in body and "line 3" not in body
+
+
 def test_wrong_file_type_is_refused(upload_files):
     response = upload_files([(b"MZ\x90\x00", "tool.exe")])
     assert response.status_code == 400
