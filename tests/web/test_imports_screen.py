@@ -20,6 +20,7 @@ def test_upload_reports_series_range_step_and_missing_slots(upload_files, make_c
     assert "2026-11-23 18:00" in body and "2026-11-30 18:00" in body
     assert "<td>5 min</td>" in body
     assert "imported" in body and "Undo" in body
+    assert "Values it overwrote are not brought back" in body  # what undo does, said before
 
 
 def test_several_files_at_once(upload_files, make_csv):
