@@ -12,6 +12,7 @@ from ._band import expected_band, fit_baseline
 from ._explain import ENGINE_VERSION, Explanation, explain
 from ._grid import infer_step, regularize
 from ._overlay import past_weeks_overlay
+from ._peers import PeerComparison, PeerResult, compare_peers
 from ._replay import BandRule, ThresholdRule, replay, rule_from_fields
 from ._report import ReplayReport, replay_report
 from ._robust import robust_scale
@@ -26,6 +27,9 @@ __all__ = [
     "fit_baseline",
     "infer_step",
     "past_weeks_overlay",
+    "PeerComparison",
+    "PeerResult",
+    "compare_peers",
     "regularize",
     "robust_scale",
     "BandRule",

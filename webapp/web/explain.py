@@ -12,6 +12,7 @@ from werkzeug.wrappers import Response as WerkzeugResponse
 
 from webapp.store import db
 from webapp.web import evidence as ev
+from webapp.web import peers
 from webapp.web.figures import from_wall_clock
 from webapp.web.htmx import is_htmx, render
 from webapp.web.params import (
@@ -115,6 +116,7 @@ def index() -> str | Response:
         panels=ev.build_panels(evidence),
         stored=stored_exclusions(series.id),
         fine=lambda name: url_for("explain.live_figure", name=name, **query.args()),
+        peers_url=peers.panel_url(series, query),
     )
     # The address bar shows the canonical query (a period just added appears as exclude=).
     return Response(html, headers={"HX-Push-Url": url_for("explain.index", **query.args())})

@@ -1,0 +1,115 @@
+"""The Peers panel: a lazy fragment of the Explain screen that fails on its own."""
+
+from __future__ import annotations
+
+import json
+import re
+
+import pytest
+
+from webapp.web import peers as peers_module
+
+PEER_URL = re.compile(r'hx-get="(/explain/peers\?[^"]+)"')
+
+
+@pytest.fixture
+def hosts(client, upload_files, make_csv) -> dict[str, int]:
+    """api-3 jumps in the last three hours of the window; api-1 and api-2 stay calm."""
+    files = [
+        (make_csv(host="api-3", spike=80.0, seed=3), "api-3.csv"),
+        (make_csv(host="api-1", spike=0.0, seed=11), "api-1.csv"),
+        (make_csv(host="api-2", spike=0.0, seed=12), "api-2.csv"),
+    ]
+    response = upload_files(files)
+    assert response.status_code == 200, response.get_data(as_text=True)
+    from webapp.store import db
+    from webapp.store import series as store_series
+
+    with client.application.app_context():
+        rows = store_series.list_series(db.get_session())
+    return {row.labels["host"]: row.id for row in rows}
+
+
+def peers_fragment(client, url_for_explain, series_id: int, **extra) -> str:
+    page = client.get(url_for_explain(series_id, **extra)).get_data(as_text=True)
+    match = PEER_URL.search(page)
+    assert match, "the Explain page has no lazy Peers panel"
+    url = match.group(1).replace("&amp;", "&")
+    response = client.get(url, headers={"HX-Request": "true"})
+    assert response.status_code == 200
+    return response.get_data(as_text=True)
+
+
+def figure(body: str) -> dict:
+    payload = re.search(
+        r'<script type="application/json" class="figure-data">(.*?)</script>', body, re.S
+    )
+    assert payload, "no figure in the Peers panel"
+    return json.loads(payload.group(1))
+
+
+def test_peers_panel_says_the_jump_was_local(client, hosts, url_for_explain):
+    body = peers_fragment(client, url_for_explain, hosts["api-3"])
+    assert 'class="panel panel-peers"' in body and "<html" not in body
+    assert "none of the 2 other series that differ only in host left theirs" in body
+    rows = re.findall(r'<tr class="([^"]*)">\s*<th scope="row" title="[^"]+">([^<]+)', body)
+    assert [(name.strip(), cls.strip()) for cls, name in rows] == [
+        ("api-3", "peer-target peer-left"),
+        ("api-1", ""),
+        ("api-2", ""),
+    ]
+    fig = figure(body)
+    widths = {t["name"]: t["line"]["width"] for t in fig["data"]}
+    assert set(widths) == {"api-3 (explained)", "api-1", "api-2"}
+    assert widths["api-3 (explained)"] > max(widths["api-1"], widths["api-2"])
+    dashes = {t["line"]["dash"] for t in fig["data"]}
+    assert len(dashes) == 3  # told apart without colour
+    assert fig["data"][-1]["name"] == "api-3 (explained)"  # drawn on top
+
+
+def test_calm_host_sees_its_peer_leave(client, hosts, url_for_explain):
+    body = peers_fragment(client, url_for_explain, hosts["api-1"])
+    assert "api-1 stayed inside its expected band, but 1 of the 2 other series" in body
+    assert "(api-3)" in body
+
+
+def test_series_without_peers_gets_no_panel(client, stored, url_for_explain):
+    page = client.get(url_for_explain(stored)).get_data(as_text=True)
+    assert "panel-band" in page and not PEER_URL.search(page)
+    direct = client.get(url_for_explain(stored).replace("/explain?", "/explain/peers?"))
+    assert direct.status_code == 200 and direct.get_data(as_text=True) == ""
+
+
+def test_bad_parameters_are_a_clear_400(client, hosts, url_for_explain):
+    url = url_for_explain(hosts["api-3"], tolerance="lots").replace("/explain?", "/explain/peers?")
+    response = client.get(url)
+    assert response.status_code == 400
+    assert "tolerance" in response.get_data(as_text=True)
+
+
+def test_a_failing_comparison_leaves_the_other_panels_standing(
+    client, hosts, url_for_explain, monkeypatch
+):
+    def broken(*args, **kwargs):
+        raise RuntimeError("disk on fire")
+
+    monkeypatch.setattr(peers_module, "compare", broken)
+    page = client.get(url_for_explain(hosts["api-3"], tolerance=3.5))
+    assert page.status_code == 200
+    text = page.get_data(as_text=True)
+    for panel in ("sentences", "band", "overlay", "components", "facts"):
+        assert f"panel-{panel}" in text
+    assert "figure-data" in text.split('class="panel panel-band"', 1)[1].split("</section>", 1)[0]
+    body = peers_fragment(client, url_for_explain, hosts["api-3"], tolerance=3.5)
+    assert "The peers could not be compared; see the server log" in body
+    assert "disk on fire" not in body and "Traceback" not in body
+
+
+def test_an_unusable_window_is_explained_in_the_panel(client, hosts):
+    # The window lies before every point: no history, nothing to fit, a message per peer.
+    url = f"/explain/peers?series={hosts['api-3']}&start=2026-10-01T00:00&end=2026-10-01T06:00"
+    body = client.get(url, headers={"HX-Request": "true"}).get_data(as_text=True)
+    assert 'class="panel panel-peers"' in body
+    assert "api-3 could not be compared with its peers: the series has no values" in body
+    assert "No peer could be explained over this window." in body
+    assert body.count('<td colspan="3" class="muted">') == 3
