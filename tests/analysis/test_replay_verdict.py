@@ -143,3 +143,67 @@ def test_a_missed_incident_names_the_quietest_setting_that_catches_it():
         "Of the what-if settings that catch the most incidents, the quietest (threshold 50, "
         "pending period 0s) catches 1 of the 1 recorded incidents at 0.5 pages per week."
     ) in verdict.rationale
+
+
+def band_sweep_rows(*rows: tuple[float, str, int, tuple[int, ...], str | None]) -> pd.DataFrame:
+    """A hand-made band sweep over the fortnight: (tolerance, pending, firings, caught
+    incidents, median delay) per row, the other columns following from them."""
+    weeks = DAYS / 7
+    return pd.DataFrame(
+        {
+            "tolerance": [r[0] for r in rows],
+            "pending": pd.to_timedelta([r[1] for r in rows]),
+            "firings": [r[2] for r in rows],
+            "pages_per_week": [r[2] / weeks for r in rows],
+            "incidents_caught": [len(r[3]) for r in rows],
+            "incidents_missed": [1 - len(r[3]) for r in rows],
+            "median_delay": pd.to_timedelta([r[4] for r in rows]),
+            "caught": [r[3] for r in rows],
+        }
+    )
+
+
+NOISY_BAND = BandRule(tolerance=2.0, history=pd.Timedelta(days=3), min_history=pd.Timedelta(days=3))
+
+
+@pytest.fixture(scope="module")
+def band_report():
+    series = NOISY + np.random.default_rng(3).normal(0, 1, DAYS * 1440)
+    report = replay_report(series, NOISY_BAND, INCIDENTS)
+    assert report.caught == [0] and report.n_firings > 10  # a noisy rule that caught it
+    return report
+
+
+def test_a_band_rule_is_tuned_to_the_quietest_tolerance_that_still_catches(band_report):
+    # Tolerance 6 pages once but misses the incident, so it is no candidate. Tolerance 3 for
+    # 10 min and 4 for 5 min page once each and catch it; the tie goes to the shorter delay.
+    sweep = band_sweep_rows(
+        (2.0, "0s", band_report.n_firings, (0,), "0s"),
+        (3.0, "0s", 3, (0,), "0s"),
+        (3.0, "10min", 1, (0,), "10min"),
+        (4.0, "5min", 1, (0,), "5min"),
+        (6.0, "0s", 1, (), None),
+    )
+    verdict = draft_verdict(band_report, sweep, NOISY_BAND)
+    assert verdict.suggestion == "tune"
+    assert verdict.parameters == {
+        "kind": "band",
+        "direction": "both",
+        "tolerance": 4.0,
+        "pending_seconds": 300,
+        "step_seconds": None,
+    }
+    assert "With tolerance 4 and a pending period of 5min, it would have fired 1 time" in (
+        verdict.rationale
+    )
+    assert verdict.rationale.endswith(OWNER_DECIDES)
+
+
+def test_a_band_rule_is_kept_when_only_settings_that_miss_are_quieter(band_report):
+    sweep = band_sweep_rows(
+        (2.0, "0s", band_report.n_firings, (0,), "0s"),
+        (6.0, "0s", 1, (), None),
+    )
+    verdict = draft_verdict(band_report, sweep, NOISY_BAND)
+    assert verdict.suggestion == "keep" and verdict.parameters["tolerance"] == 2.0
+    assert "No setting in the what-if sweep catches the same incidents" in verdict.rationale

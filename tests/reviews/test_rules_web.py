@@ -287,3 +287,141 @@ def test_demo_queue_rule_is_judged_against_every_recorded_incident(demo_app, dem
     assert "No review tied to this series records an incident window yet" in own
     bad = demo_client.get(f"/rules/{rule.id}/replay?incidents=nearby").get_data(as_text=True)
     assert "incidents must be one of all, series" in bad
+
+
+@pytest.fixture
+def band_rule(session, watched):
+    """Outside the expected band at tolerance 3 for 10 minutes: the band needs two weeks of
+    history, so only the third week (and its burst) is replayed."""
+    row = store_rules.create_rule(
+        session,
+        name="Queue off its usual",
+        series_id=watched.id,
+        kind="band",
+        direction="both",
+        tolerance=3.0,
+        pending_seconds=600,
+    )
+    session.commit()
+    return row
+
+
+def sweep_rows(text: str) -> list[tuple[str, str]]:
+    return re.findall(r'<td class="num">([\d.]+)</td><td>([^<]+)</td>', text)
+
+
+def current_setting(text: str) -> list[str]:
+    """The cells of the sweep table's row for the rule's own setting."""
+    row = re.search(r'class="current-setting">(.*?)</tr>', text, re.S)
+    assert row, "no row marks the current setting"
+    return re.findall(r"<td[^>]*>([^<]*)</td>", row.group(1))
+
+
+def test_a_band_rule_page_has_the_sweep_of_tolerances(client, band_rule) -> None:
+    text = html.unescape(client.get(f"/rules/{band_rule.id}/replay").text)
+    assert count(text, "firings") == "1"
+    assert 'id="sweep-figure"' in text and "tolerance %{customdata[0]:.4g}" in text
+    assert "edit its tolerance and replay again" not in text
+    assert "along it the tolerance changes" in text
+    assert '<th scope="col" class="num">Tolerance</th>' in text
+    assert 'for="sweep-tolerances">Tolerances' in text and 'name="tolerances"' in text
+    rows = sweep_rows(text)
+    # the default grid: tolerances 2 to 8 by pending periods 0 to 30 min (10 min among them)
+    assert {t for t, _ in rows} == {"2", "2.5", "3", "3.5", "4", "5", "6", "8"}
+    assert len(rows) == 8 * 7
+    assert current_setting(text)[:3] == ["3", "10 min", "1"]
+
+
+def test_a_band_rule_sweeps_the_readers_tolerances(client, band_rule) -> None:
+    url = f"/rules/{band_rule.id}/replay?tolerances=2.5,4&pendings=0,5min"
+    text = html.unescape(client.get(url, headers={"HX-Request": "true"}).text)
+    rows = sweep_rows(text)
+    # the current rule (3 for 10 min) always joins the grid: 3 tolerances x 3 pendings
+    assert len(rows) == 9
+    assert {t for t, _ in rows} == {"2.5", "3", "4"}
+    assert 'value="2.5,4"' in text
+
+
+@pytest.mark.parametrize(
+    ("query", "message"),
+    [
+        ("tolerances=lots&pendings=0", "'lots' is not a number; list tolerances like 2, 3, 4."),
+        ("tolerances=0,2&pendings=0", "'0' is not above 0; a tolerance counts robust standard"),
+        ("tolerances=-1&pendings=0", "'-1' is not above 0"),
+        ("tolerances=&pendings=5min", "List at least one tolerance, e.g. 2, 3, 4."),
+        ("tolerances=2&pendings=soon", "is not a duration"),
+    ],
+)
+def test_bad_tolerances_are_explained_and_kept(client, band_rule, query, message) -> None:
+    response = client.get(f"/rules/{band_rule.id}/replay?{query}")
+    assert response.status_code == 200  # the replay itself still shows, with the default sweep
+    text = html.unescape(response.text)
+    assert message in text
+    assert count(text, "firings") == "1"
+    assert len(sweep_rows(text)) == 8 * 7
+    assert "Traceback" not in text
+
+
+def test_a_band_rule_leaves_excluded_periods_out_of_its_band(
+    client, session, band_rule, incident_review
+) -> None:
+    """The review of the second burst is excluded from baselines (the default). Left in, that
+    burst teaches the band a weekly bump, and the third burst's firing starts early and
+    lasts longer; the report and the sweep both see the same band."""
+    url = f"/rules/{band_rule.id}/replay"
+    excluded = html.unescape(client.get(url).text)
+    assert count(excluded, "median duration") == "20 min"
+    assert current_setting(excluded)[4] == "20 min"  # time firing
+    incident_review.exclude_from_baselines = False
+    session.commit()
+    learned = html.unescape(client.get(url).text)
+    assert count(learned, "median duration") == "50 min"
+    assert current_setting(learned)[4] == "50 min"
+
+
+@pytest.fixture
+def noisy(session) -> Series:
+    """The same three weeks with unit noise on the level of 100 (seeded)."""
+    series = Series(key="queue.depth{host=q-2}", metric="queue.depth", labels={"host": "q-2"})
+    session.add(series)
+    session.flush()
+    index = pd.date_range(START, START + pd.Timedelta(weeks=3), freq="5min", inclusive="left")
+    values = 100.0 + np.random.default_rng(1).normal(0, 2, len(index))
+    for burst in BURSTS:
+        values[(index >= burst) & (index < burst + pd.Timedelta("30min"))] = 300.0
+    rows = [
+        {"series_id": series.id, "ts": int(ts.value // 1_000_000), "value": float(v)}
+        for ts, v in zip(index, values, strict=True)
+    ]
+    session.execute(insert(Point), rows)
+    refresh(session, [series])
+    session.commit()
+    return series
+
+
+def test_a_noisy_band_rule_is_drafted_to_a_quieter_tolerance(client, session, noisy) -> None:
+    reviews.create_review(
+        session,
+        {
+            "title": "Queue backlog, week three",
+            "incident_start": BURSTS[2],
+            "incident_end": BURSTS[2] + pd.Timedelta("1h"),
+        },
+    )
+    rule = store_rules.create_rule(
+        session,
+        name="Queue jittery",
+        series_id=noisy.id,
+        kind="band",
+        direction="both",
+        tolerance=2.0,
+        pending_seconds=0,
+    )
+    session.commit()
+    text = html.unescape(client.get(f"/rules/{rule.id}/replay").text)
+    assert int(count(text, "firings")) > 10 and count(text, "incidents caught") == "1"
+    assert "Verdict draft: tune" in text
+    drafted = re.search(r"tolerance: ([\d.]+)", text)
+    assert drafted and float(drafted.group(1)) > 2.0
+    assert f"With tolerance {float(drafted.group(1)):g} and a pending period of" in text
+    assert "drafted setting" in text  # the drafted point is marked on the sweep figure

@@ -114,10 +114,13 @@ def sweep_figure(
     current: tuple[float, pd.Timedelta] | None = None,
     drafted: tuple[float, pd.Timedelta] | None = None,
 ) -> go.Figure:
-    """Pages per week against incidents caught, one line of thresholds per pending period."""
+    """Pages per week against incidents caught, one line per pending period along which the
+    sweep's level changes: the threshold, or a band rule's tolerance (the sweep's first
+    column). ``current`` and ``drafted`` are (level, pending period) points to mark."""
+    level = level_column(sweep)
     fig = go.Figure()
     for i, (pending, rows) in enumerate(sweep.groupby("pending", sort=True)):
-        rows = rows.sort_values("threshold")
+        rows = rows.sort_values(level)
         label = f"pending {short_duration(pending)}" if pending else "no pending period"
         fig.add_trace(
             go.Scatter(
@@ -127,9 +130,9 @@ def sweep_figure(
                 name=label,
                 line={"color": COLOURS[i % len(COLOURS)], "width": 1.2},
                 marker={"symbol": SYMBOLS[i % len(SYMBOLS)], "size": 8},
-                customdata=np.stack([rows["threshold"], rows["firings"]], axis=1),
+                customdata=np.stack([rows[level], rows["firings"]], axis=1),
                 hovertemplate=(
-                    f"{label}<br>threshold %{{customdata[0]:.4g}}<br>%{{x:.2f}} pages/week"
+                    f"{label}<br>{level} %{{customdata[0]:.4g}}<br>%{{x:.2f}} pages/week"
                     "<br>%{y} incidents caught<br>%{customdata[1]} firings<extra></extra>"
                 ),
             )
@@ -147,7 +150,7 @@ def sweep_figure(
                     mode="markers",
                     name=name,
                     marker={"symbol": symbol, "size": 18, "color": colour, "line": {"width": 2}},
-                    hovertemplate=f"{name}: threshold {row['threshold']:.4g}, "
+                    hovertemplate=f"{name}: {level} {row[level]:.4g}, "
                     f"pending {short_duration(row['pending'])}<extra></extra>",
                 )
             )
@@ -164,10 +167,17 @@ def _pages_range(sweep: pd.DataFrame, *points: tuple[float, pd.Timedelta] | None
     return min(limit, float(sweep["pages_per_week"].max()) * 1.05 or limit)
 
 
+def level_column(sweep: pd.DataFrame) -> str:
+    """What a what-if sweep varies besides the pending period: its first column, "threshold"
+    (``whatif_sweep``) or "tolerance" (``band_sweep``)."""
+    return str(sweep.columns[0])
+
+
 def _row(sweep: pd.DataFrame, point: tuple[float, pd.Timedelta] | None) -> pd.Series | None:
     if point is None:
         return None
-    match = sweep[np.isclose(sweep["threshold"], point[0]) & (sweep["pending"] == point[1])]
+    level = level_column(sweep)
+    match = sweep[np.isclose(sweep[level], point[0]) & (sweep["pending"] == point[1])]
     return None if match.empty else match.iloc[0]
 
 

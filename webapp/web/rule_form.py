@@ -143,37 +143,50 @@ def rule_form_values(rule: AlertRule | None) -> dict[str, str]:
     }
 
 
-MAX_THRESHOLDS, MAX_PENDINGS = 40, 12
+MAX_LEVELS, MAX_PENDINGS = 40, 12
+EXAMPLES = {"threshold": "600, 700, 800", "tolerance": "2, 3, 4"}
+
+
+def sweep_level(kind: str | None) -> str:
+    """The setting a rule's what-if sweep varies besides the pending period."""
+    return "tolerance" if kind == "band" else "threshold"
 
 
 def parse_sweep(
-    args: Mapping[str, str],
+    args: Mapping[str, str], level: str = "threshold"
 ) -> tuple[tuple[list[float], list[pd.Timedelta]] | None, dict[str, str]]:
-    """A what-if grid typed by the reader: ``thresholds`` (numbers) and ``pendings``
-    (durations), each separated by commas or spaces. None when neither is given."""
+    """A what-if grid typed by the reader: ``thresholds`` (numbers), or for ``level``
+    "tolerance" ``tolerances`` (numbers above 0), and ``pendings`` (durations), each separated
+    by commas or spaces. None when neither is given."""
     errors: dict[str, str] = {}
-    raw_t, raw_p = args.get("thresholds", "").strip(), args.get("pendings", "").strip()
-    if not raw_t and not raw_p:
+    field, example = f"{level}s", EXAMPLES[level]
+    raw_l, raw_p = args.get(field, "").strip(), args.get("pendings", "").strip()
+    if not raw_l and not raw_p:
         return None, errors
-    thresholds = []
-    for word in raw_t.replace(",", " ").split():
-        if _is_number(word) and abs(float(word)) != float("inf") and float(word) == float(word):
-            thresholds.append(float(word))
-        else:
-            errors["thresholds"] = f"{word!r} is not a number; list thresholds like 600, 700, 800."
+    levels = []
+    for word in raw_l.replace(",", " ").split():
+        if not _is_number(word) or abs(float(word)) == float("inf") or float(word) != float(word):
+            errors[field] = f"{word!r} is not a number; list {field} like {example}."
             break
+        if level == "tolerance" and float(word) <= 0:
+            errors[field] = (
+                f"{word!r} is not above 0; a tolerance counts robust standard deviations, "
+                f"so list tolerances like {example}."
+            )
+            break
+        levels.append(float(word))
     pendings = []
     for word in raw_p.replace(",", " ").split():
         seconds = parse_duration(word, "pendings", errors, optional=False)
         if seconds is None:
             break
         pendings.append(pd.Timedelta(seconds=seconds))
-    if not thresholds and "thresholds" not in errors:
-        errors["thresholds"] = "List at least one threshold, e.g. 600, 700, 800."
+    if not levels and field not in errors:
+        errors[field] = f"List at least one {level}, e.g. {example}."
     if not pendings and "pendings" not in errors:
         errors["pendings"] = "List at least one pending period, e.g. 0, 5min, 10min."
-    if len(thresholds) > MAX_THRESHOLDS:
-        errors["thresholds"] = f"At most {MAX_THRESHOLDS} thresholds at once."
+    if len(levels) > MAX_LEVELS:
+        errors[field] = f"At most {MAX_LEVELS} {field} at once."
     if len(pendings) > MAX_PENDINGS:
         errors["pendings"] = f"At most {MAX_PENDINGS} pending periods at once."
-    return (None if errors else (thresholds, pendings)), errors
+    return (None if errors else (levels, pendings)), errors

@@ -10,13 +10,16 @@ import pandas as pd
 from sqlalchemy.orm import Session
 
 from webapp.analysis import (
+    BandRule,
     ThresholdRule,
+    band_sweep,
     draft_verdict,
     replay_report,
     rule_from_fields,
     sweep_grid,
     whatif_sweep,
 )
+from webapp.store import excluded as store_excluded
 from webapp.store import reviews as store_reviews
 from webapp.store import rules as store_rules
 from webapp.store import series as store_series
@@ -72,10 +75,10 @@ class Replay:
     rule: Any
     report: Any
     incidents: list[tuple[pd.Timestamp, pd.Timestamp]]
-    sweep: pd.DataFrame | None
+    sweep: pd.DataFrame  # whatif_sweep, or band_sweep for a band rule
     draft: Any
     figures: dict[str, str]
-    grid: tuple[list[float], list[pd.Timedelta]] | None = None  # what the sweep varied
+    grid: tuple[list[float], list[pd.Timedelta]]  # what the sweep varied
     scope: str = "all"
 
 
@@ -89,11 +92,12 @@ def run_replay(
     """Replay ``rule`` over all of one series' history against recorded incidents: every
     review's incident window (``scope="all"``: a rule is judged by the incidents of the
     service, not only those its own series was tied to) or only those of reviews tied to
-    this series (``scope="series"``).
+    this series (``scope="series"``). A band rule's bands leave out the series' excluded
+    periods, so past incidents do not teach the band what is expected.
 
-    ``grid`` (thresholds, pending periods) replaces the default what-if sweep; the current
-    rule's own setting is always part of it. Raises ValueError with a readable message when
-    the rule or the data cannot be replayed."""
+    ``grid`` (thresholds, or a band rule's tolerances, and pending periods) replaces the
+    default what-if sweep; the current rule's own setting is always part of it. Raises
+    ValueError with a readable message when the rule or the data cannot be replayed."""
     if scope not in INCIDENT_SCOPES:
         raise ValueError(f"incidents must be one of {', '.join(INCIDENT_SCOPES)}, got {scope!r}")
     analysed = rule_from_fields(_fields(rule))
@@ -101,21 +105,9 @@ def run_replay(
     if values.empty:
         raise ValueError(f"{info.key} has no stored points to replay over")
     incidents = store_reviews.incident_windows(session, None if scope == "all" else info.id)
-    report = replay_report(values, analysed, incidents)
-    sweep, used = None, None
-    if isinstance(analysed, ThresholdRule):
-        thresholds, pendings = grid or sweep_grid(values, analysed)
-        thresholds = sorted({*thresholds, analysed.threshold})
-        pendings = sorted({*pendings, analysed.for_})
-        used = (thresholds, pendings)
-        sweep = whatif_sweep(
-            values,
-            thresholds,
-            pendings,
-            incidents,
-            direction=analysed.direction,
-            step=analysed.step,
-        )
+    exclude = store_excluded.periods_for(session, info.id)
+    report = replay_report(values, analysed, incidents, exclude=exclude)
+    sweep, used = _whatif(values, analysed, incidents, exclude, grid)
     draft = draft_verdict(report, sweep, analysed)
     threshold = analysed.threshold if isinstance(analysed, ThresholdRule) else None
     figs = {
@@ -125,15 +117,32 @@ def run_replay(
             False,
         )
     }
-    if sweep is not None:
-        current = (analysed.threshold, analysed.for_)
-        drafted = None
-        if draft.suggestion == "tune":
-            drafted = (
-                draft.parameters["threshold"],
-                pd.Timedelta(seconds=draft.parameters["pending_seconds"]),
-            )
-        figs["sweep"] = figure_div(
-            rule_figures.sweep_figure(sweep, current, drafted), "sweep-figure", False
+    level = rule_figures.level_column(sweep)
+    current = (getattr(analysed, level), analysed.for_)
+    drafted = None
+    if draft.suggestion == "tune":
+        drafted = (
+            draft.parameters[level],
+            pd.Timedelta(seconds=draft.parameters["pending_seconds"]),
         )
+    figs["sweep"] = figure_div(
+        rule_figures.sweep_figure(sweep, current, drafted), "sweep-figure", False
+    )
     return Replay(info, analysed, report, incidents, sweep, draft, figs, used, scope)
+
+
+def _whatif(
+    values: pd.Series,
+    rule: ThresholdRule | BandRule,
+    incidents: list[tuple[pd.Timestamp, pd.Timestamp]],
+    exclude: list[tuple[pd.Timestamp, pd.Timestamp]],
+    grid: tuple[list[float], list[pd.Timedelta]] | None,
+) -> tuple[pd.DataFrame, tuple[list[float], list[pd.Timedelta]]]:
+    """The what-if sweep around ``rule`` and the grid it used (its own setting included)."""
+    levels, pendings = grid or sweep_grid(values, rule)
+    current = rule.threshold if isinstance(rule, ThresholdRule) else float(rule.tolerance)
+    used = (sorted({*levels, current}), sorted({*pendings, rule.for_}))
+    if isinstance(rule, BandRule):
+        return band_sweep(values, rule, *used, incidents, exclude), used
+    sweep = whatif_sweep(values, *used, incidents, direction=rule.direction, step=rule.step)
+    return sweep, used

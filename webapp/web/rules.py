@@ -18,7 +18,13 @@ from webapp.store.models import AlertRule, Review
 from webapp.store.reviews import ReviewInvalid
 from webapp.web.htmx import render
 from webapp.web.rule_figures import short_duration
-from webapp.web.rule_form import RuleFormInvalid, parse_rule_form, parse_sweep, rule_form_values
+from webapp.web.rule_form import (
+    RuleFormInvalid,
+    parse_rule_form,
+    parse_sweep,
+    rule_form_values,
+    sweep_level,
+)
 from webapp.web.rule_replay import TZ, Replay, firing_rows, matching_series, rule_text, run_replay
 
 bp = Blueprint("rules", __name__)
@@ -121,12 +127,13 @@ def _show(
     )
     replay, problem, sweep_errors = None, None, {}
     scope = request.values.get("incidents", "all")
+    level = sweep_level(rule.kind)
     if info is None:
         problem = (
             "No stored series matches this rule yet. Import its data, or edit the rule's series."
         )
     elif not lazy:
-        grid, sweep_errors = parse_sweep(request.args)
+        grid, sweep_errors = parse_sweep(request.args, level)
         try:
             replay = run_replay(session, rule, info, grid, scope)
         except ValueError as err:
@@ -146,7 +153,8 @@ def _show(
         form=form or _verdict_values(replay, rule, reviews),
         errors=errors or {},
         firings=firing_rows(replay.report.firings) if replay else [],
-        sweep_values=_sweep_values(replay, request.args),
+        level=level,
+        sweep_values=_sweep_values(replay, request.args, f"{level}s"),
         sweep_errors=sweep_errors,
         scope=scope,
         verdict_warning=store_reviews.VERDICT_WARNING,
@@ -155,15 +163,16 @@ def _show(
     return html, 422 if errors else 200
 
 
-def _sweep_values(replay: Replay | None, args: Mapping[str, str]) -> dict[str, str]:
-    """What the what-if form shows: the reader's own text, else the grid the sweep used."""
-    if "thresholds" in args or "pendings" in args:
-        return {"thresholds": args.get("thresholds", ""), "pendings": args.get("pendings", "")}
-    if replay is None or replay.grid is None:
+def _sweep_values(replay: Replay | None, args: Mapping[str, str], field: str) -> dict[str, str]:
+    """What the what-if form shows: the reader's own text, else the grid the sweep used.
+    ``field`` names the levels: "thresholds", or "tolerances" for a band rule."""
+    if field in args or "pendings" in args:
+        return {field: args.get(field, ""), "pendings": args.get("pendings", "")}
+    if replay is None:
         return {}
-    thresholds, pendings = replay.grid
+    levels, pendings = replay.grid
     return {
-        "thresholds": ", ".join(f"{t:g}" for t in thresholds),
+        field: ", ".join(f"{t:g}" for t in levels),
         "pendings": ", ".join(short_duration(p) for p in pendings),
     }
 
