@@ -86,6 +86,16 @@ def test_all_hosts_shifted_together_is_shared():
     assert "shared" in result.summary[1]
 
 
+def test_exits_at_the_same_minute_say_so():
+    shift = (EVENT, EVENT + pd.Timedelta(hours=1), 60.0)
+    result = run(hosts({"api-4": shift, "api-5": shift}))
+    assert result.facts["first_outside_spread_minutes"] == 0.0
+    assert result.summary[1] == (
+        "Both left at the same time, 14:00 UTC on Mon 30 Nov 2026: "
+        "a shared cause is more likely than a fault in one host."
+    )
+
+
 def test_exits_far_apart_are_not_called_shared():
     peers = hosts(
         {

@@ -58,6 +58,7 @@ def test_peers_panel_says_the_jump_was_local(client, hosts, url_for_explain):
         ("api-1", ""),
         ("api-2", ""),
     ]
+    assert 'title="above the band">▲</span> 2026-11-30' in body
     fig = figure(body)
     widths = {t["name"]: t["line"]["width"] for t in fig["data"]}
     assert set(widths) == {"api-3 (explained)", "api-1", "api-2"}

@@ -132,7 +132,7 @@ def compare_peers(
         available=len(others),
         compared=len(chosen) - 1,
     )
-    facts = peer_facts(comparison)
+    facts = {**peer_facts(comparison), "sustained_minutes": sustained / pd.Timedelta(minutes=1)}
     summary = peer_sentences(comparison, facts, tz, together)
     return replace(comparison, facts=facts, summary=summary)
 
@@ -252,17 +252,8 @@ def peer_sentences(
         ]
     else:
         out = [f"Neither {target.name} nor any of the {group} left its expected band."]
-    spread = f["first_outside_spread_minutes"]
-    if spread is not None and target.error is None and usable:
-        n = left + int(f["target_left"])
-        when = fmt_time(f["first_outside_earliest"], tz)
-        if spread <= together / pd.Timedelta(minutes=1):
-            out.append(
-                f"The {n} first exits came within {fmt_duration(spread)} of each other, from "
-                f"{when}: a shared cause is more likely than a fault in one {comparison.label}."
-            )
-        else:
-            out.append(f"The {n} first exits were spread over {fmt_duration(spread)}, from {when}.")
+    if target.error is None and usable and f["first_outside_spread_minutes"] is not None:
+        out.append(timing_sentence(f, comparison.label, tz, together))
     if comparison.capped:
         out.append(
             f"Only {comparison.compared} of the {comparison.available} peers were compared "
@@ -271,6 +262,23 @@ def peer_sentences(
     if f["peers_failed"]:
         out.append(f"{f['peers_failed']} peer(s) could not be explained; see the table.")
     return out
+
+
+def timing_sentence(f: dict[str, Any], label: str, tz: str, together: pd.Timedelta) -> str:
+    """How close together the first sustained exits came (only when two or more left)."""
+    spread = f["first_outside_spread_minutes"]
+    n = f["others_left"] + int(f["target_left"])
+    when = fmt_time(f["first_outside_earliest"], tz)
+    shared = f"a shared cause is more likely than a fault in one {label}"
+    if spread == 0:
+        who = "Both" if n == 2 else f"All {n}"
+        return f"{who} left at the same time, {when}: {shared}."
+    if spread <= together / pd.Timedelta(minutes=1):
+        return (
+            f"The {n} first exits came within {fmt_duration(spread)} of each other, from "
+            f"{when}: {shared}."
+        )
+    return f"The {n} first exits were spread over {fmt_duration(spread)}, from {when}."
 
 
 def names_of(comparison: PeerComparison) -> str:

@@ -179,6 +179,7 @@ def table_rows(comparison: Any) -> list[dict[str, Any]]:
             "is_target": r.is_target,
             "minutes_outside": r.minutes_outside,
             "first_outside": r.first_outside,
+            "above": r.left_band and bool(r.deviation.loc[r.first_outside] > 0),
             "peak": r.peak_deviation_sd,
             "error": r.error,
         }
