@@ -4,6 +4,8 @@ Series are synthetic (invented for the test)."""
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -97,3 +99,20 @@ def test_default_band_grid_holds_the_current_setting():
     tolerances, pendings = sweep_grid(daily(4), BandRule(tolerance=4.5, for_="7min"))
     assert 4.5 in tolerances and tolerances == sorted(tolerances)
     assert pd.Timedelta("7min") in pendings
+
+
+def test_bands_built_once_give_the_same_report_and_sweep(sweep):
+    """A caller may fit the daily bands once (band_grid) and hand them to both."""
+    from webapp.analysis import band_grid
+
+    series = daily(4)
+    bands = band_grid(series, RULE)
+    fresh = replay_report(series, RULE, INCIDENTS)
+    reused = replay_report(series, RULE, INCIDENTS, bands=bands)
+    pd.testing.assert_frame_equal(reused.firings, fresh.firings)
+    assert reused.to_dict() == fresh.to_dict()
+    again = band_sweep(series, RULE, TOLERANCES, PENDINGS, INCIDENTS, bands=bands)
+    pd.testing.assert_frame_equal(again, sweep)
+    raised = dataclasses.replace(bands, expected=bands.expected + 1000.0)  # really used:
+    assert replay_report(series, RULE, INCIDENTS, bands=raised).n_firings == 0
+    assert fresh.n_firings > 0

@@ -13,7 +13,7 @@ from ._explain import ENGINE_VERSION, Explanation, explain
 from ._grid import infer_step, regularize
 from ._overlay import past_weeks_overlay
 from ._peers import PeerComparison, PeerResult, compare_peers
-from ._replay import BandRule, ThresholdRule, replay, rule_from_fields
+from ._replay import BandGrid, BandRule, ThresholdRule, band_grid, replay, rule_from_fields
 from ._report import ReplayReport, replay_report
 from ._robust import robust_scale
 from ._verdict import VerdictDraft, draft_verdict
@@ -32,7 +32,9 @@ __all__ = [
     "compare_peers",
     "regularize",
     "robust_scale",
+    "BandGrid",
     "BandRule",
+    "band_grid",
     "band_sweep",
     "ReplayReport",
     "ThresholdRule",

@@ -391,15 +391,17 @@ def band_grid(series: pd.Series, rule: BandRule, exclude: Iterable = ()) -> Band
 
 
 def evaluate(
-    series: pd.Series, rule: Rule, exclude: Iterable = ()
+    series: pd.Series, rule: Rule, exclude: Iterable = (), bands: BandGrid | None = None
 ) -> tuple[pd.DatetimeIndex, np.ndarray, pd.Timedelta]:
     """(grid times, condition per evaluation, step) for any rule; ``exclude`` (spans left
-    out of baselines) matters only to band rules (see ``band_grid``)."""
+    out of baselines) matters only to band rules (see ``band_grid``). ``bands``: a band
+    rule's grid already built by ``band_grid(series, rule, exclude)``, so a report and a
+    sweep of the same rule fit the daily bands once."""
     if isinstance(rule, ThresholdRule):
         times, values, step = evaluation_grid(series, rule.step)
         return times, rule.condition(values), step
     if isinstance(rule, BandRule):
-        grid = band_grid(series, rule, exclude)
+        grid = bands if bands is not None else band_grid(series, rule, exclude)
         return grid.times, grid.condition(rule.tolerance, rule.direction), grid.step
     raise ValueError(f"replay needs a ThresholdRule or a BandRule, got {type(rule).__name__}")
 

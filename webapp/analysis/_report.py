@@ -24,6 +24,7 @@ import numpy as np
 import pandas as pd
 
 from webapp.analysis._replay import (
+    BandGrid,
     Rule,
     evaluate,
     fire_indices,
@@ -205,15 +206,17 @@ def replay_report(
     flap_gap: pd.Timedelta = DEFAULT_FLAP_GAP,
     lead: pd.Timedelta = DEFAULT_LEAD,
     exclude: Iterable[object] = (),
+    bands: BandGrid | None = None,
 ) -> ReplayReport:
     """Replay ``rule`` over ``series`` and measure it (definitions in the module docstring).
 
-    ``exclude``: spans left out of a band rule's baselines, as in ``replay``."""
+    ``exclude``: spans left out of a band rule's baselines, as in ``replay``; ``bands``: that
+    rule's ``band_grid``, when the caller has built it already."""
     flap_gap, lead = pd.Timedelta(flap_gap), pd.Timedelta(lead)
     if flap_gap < pd.Timedelta(0) or lead < pd.Timedelta(0):
         raise ValueError("flap_gap and lead must not be negative")
     windows = incident_windows(incidents)
-    times, condition, step = evaluate(series, rule, exclude)
+    times, condition, step = evaluate(series, rule, exclude, bands)
     run_starts, run_ends = runs(condition)
     first_idx, end_idx = fire_indices(run_starts, run_ends, pending_samples(rule.for_, step))
     grid_ns = times.asi8

@@ -25,6 +25,7 @@ import numpy as np
 import pandas as pd
 
 from webapp.analysis._replay import (
+    BandGrid,
     BandRule,
     Rule,
     ThresholdRule,
@@ -104,12 +105,14 @@ def band_sweep(
     incidents: Iterable[object] | None = None,
     exclude: Iterable[object] = (),
     lead: pd.Timedelta = DEFAULT_LEAD,
+    bands: BandGrid | None = None,
 ) -> pd.DataFrame:
     """The what-if sweep of a band rule over tolerances and pending periods.
 
     The daily bands are fitted once (they do not depend on the tolerance: the band at
-    tolerance ``k`` is expected -/+ ``k`` x scale), so a sweep costs one band replay. Columns
-    as ``whatif_sweep``, with ``tolerance`` in place of ``threshold``.
+    tolerance ``k`` is expected -/+ ``k`` x scale), so a sweep costs one band replay, or none
+    when ``bands`` (the rule's ``band_grid``) is given. Columns as ``whatif_sweep``, with
+    ``tolerance`` in place of ``threshold``.
     """
     if not isinstance(rule, BandRule):
         raise ValueError("band_sweep varies a band rule's tolerance")
@@ -118,7 +121,7 @@ def band_sweep(
         raise ValueError("tolerances must be positive")
     waits = _check_pendings(pendings)
     windows = incident_windows(incidents)
-    grid = band_grid(series, rule, exclude)
+    grid = bands if bands is not None else band_grid(series, rule, exclude)
 
     def condition(level: float) -> np.ndarray:
         return grid.condition(level, rule.direction)

@@ -10,8 +10,10 @@ import pandas as pd
 from sqlalchemy.orm import Session
 
 from webapp.analysis import (
+    BandGrid,
     BandRule,
     ThresholdRule,
+    band_grid,
     band_sweep,
     draft_verdict,
     replay_report,
@@ -106,8 +108,10 @@ def run_replay(
         raise ValueError(f"{info.key} has no stored points to replay over")
     incidents = store_reviews.incident_windows(session, None if scope == "all" else info.id)
     exclude = store_excluded.periods_for(session, info.id)
-    report = replay_report(values, analysed, incidents, exclude=exclude)
-    sweep, used = _whatif(values, analysed, incidents, exclude, grid)
+    # A band rule's daily bands are fitted once, for both the report and the sweep.
+    bands = band_grid(values, analysed, exclude) if isinstance(analysed, BandRule) else None
+    report = replay_report(values, analysed, incidents, exclude=exclude, bands=bands)
+    sweep, used = _whatif(values, analysed, incidents, exclude, grid, bands)
     draft = draft_verdict(report, sweep, analysed)
     threshold = analysed.threshold if isinstance(analysed, ThresholdRule) else None
     figs = {
@@ -137,12 +141,13 @@ def _whatif(
     incidents: list[tuple[pd.Timestamp, pd.Timestamp]],
     exclude: list[tuple[pd.Timestamp, pd.Timestamp]],
     grid: tuple[list[float], list[pd.Timedelta]] | None,
+    bands: BandGrid | None = None,
 ) -> tuple[pd.DataFrame, tuple[list[float], list[pd.Timedelta]]]:
     """The what-if sweep around ``rule`` and the grid it used (its own setting included)."""
     levels, pendings = grid or sweep_grid(values, rule)
     current = rule.threshold if isinstance(rule, ThresholdRule) else float(rule.tolerance)
     used = (sorted({*levels, current}), sorted({*pendings, rule.for_}))
     if isinstance(rule, BandRule):
-        return band_sweep(values, rule, *used, incidents, exclude), used
+        return band_sweep(values, rule, *used, incidents, exclude, bands=bands), used
     sweep = whatif_sweep(values, *used, incidents, direction=rule.direction, step=rule.step)
     return sweep, used
