@@ -53,13 +53,15 @@ def delete_excluded(session: Session, excluded_id: int) -> None:
 def periods_for(session: Session, series_id: int) -> list[Span]:
     """Every span to leave out of ``series_id``'s baselines, sorted, overlaps merged."""
     spans = [(timestamp(r.start), timestamp(r.end)) for r in list_excluded(session, series_id)]
-    spans.extend(_review_spans(session, series_id))
+    spans.extend(span for _, span in review_windows(session, series_id))
     return _merge(spans)
 
 
-def _review_spans(session: Session, series_id: int) -> list[Span]:
+def review_windows(session: Session, series_id: int) -> list[tuple[int, Span]]:
+    """(review id, incident window) of every review touching ``series_id`` that leaves its
+    incident out of baselines; such a window is switched off in the review, not here."""
     return [
-        (timestamp(r.incident_start), timestamp(r.incident_end))
+        (r.id, (timestamp(r.incident_start), timestamp(r.incident_end)))
         for r in reviews.reviews_for_series(session, series_id)
         if r.exclude_from_baselines
         and r.incident_start is not None

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import contextlib
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from typing import Any
 
 import pandas as pd
@@ -57,6 +57,40 @@ def stored_exclusions(series_id: int) -> list[Span]:
     ]
 
 
+@dataclass(frozen=True)
+class StoredExclusion:
+    """One line of the Exclusions panel's stored list: an excluded_periods row (which the
+    panel can remove) or a review's incident window (which only that review switches off)."""
+
+    span: Span
+    excluded_id: int | None = None
+    every_series: bool = False
+    reason: str = ""
+    review_id: int | None = None
+
+
+def stored_list(series_id: int) -> list[StoredExclusion]:
+    """The stored spans left out of this series' baselines, unmerged, by start."""
+    from webapp.store import excluded
+    from webapp.store.times import timestamp
+
+    session = db.get_session()
+    rows = [
+        StoredExclusion(
+            span=(timestamp(row.start), timestamp(row.end)),
+            excluded_id=row.id,
+            every_series=row.series_id is None,
+            reason=row.reason or "",
+        )
+        for row in excluded.list_excluded(session, series_id)
+    ]
+    rows.extend(
+        StoredExclusion(span=span, review_id=review_id)
+        for review_id, span in excluded.review_windows(session, series_id)
+    )
+    return sorted(rows, key=lambda item: (item.span, item.review_id or 0))
+
+
 def page_marks(page_id: int | None) -> list[tuple[pd.Timestamp, str]]:
     if page_id is None:
         return []
@@ -106,6 +140,11 @@ def index() -> str | Response:
     if not request.args.get("series"):
         return chooser()
     series, query = current_query(request.args)
+    return explain_page(series, query)
+
+
+def explain_page(series: Any, query: ExplainQuery) -> Response:
+    """The live Explain page, or for htmx its results with the Exclusions panel out of band."""
     evidence = live(series, query)
     html = render(
         "explain/index.html",
@@ -114,7 +153,7 @@ def index() -> str | Response:
         query=query,
         evidence=evidence,
         panels=ev.build_panels(evidence),
-        stored=stored_exclusions(series.id),
+        stored=stored_list(series.id),
         fine=lambda name: url_for("explain.live_figure", name=name, **query.args()),
         peers_url=peers.panel_url(series, query),
     )
@@ -197,6 +236,28 @@ def keep_exclusion() -> WerkzeugResponse:
     if is_htmx():
         return Response(status=204, headers={"HX-Redirect": target})
     return redirect(target, code=303)
+
+
+@bp.post("/explain/exclusions/<int:excluded_id>/remove")
+def remove_exclusion(excluded_id: int) -> WerkzeugResponse:
+    """Delete one stored excluded period of this series (or of every series), so that span
+    teaches the band again; htmx gets the recomputed results in place."""
+    from webapp.store import excluded
+
+    series, query = current_query(request.form)
+    session = db.get_session()
+    row = next((r for r in excluded.list_excluded(session, series.id) if r.id == excluded_id), None)
+    if row is None:
+        abort(
+            404,
+            description=f"There is no stored excluded period #{excluded_id} for {series.key}; "
+            "it may have been removed already. Reload the page to see the current list.",
+        )
+    excluded.delete_excluded(session, row.id)
+    session.commit()
+    if is_htmx():
+        return explain_page(series, query)
+    return redirect(url_for("explain.index", **query.args()), code=303)
 
 
 def load_saved(explanation_id: int) -> Any:
