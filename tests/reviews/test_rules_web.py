@@ -425,3 +425,95 @@ def test_a_noisy_band_rule_is_drafted_to_a_quieter_tolerance(client, session, no
     assert drafted and float(drafted.group(1)) > 2.0
     assert f"With tolerance {float(drafted.group(1)):g} and a pending period of" in text
     assert "drafted setting" in text  # the drafted point is marked on the sweep figure
+
+
+def replay_traces(text: str) -> list[dict]:
+    """The data of the replay figure as the page embeds it (plotly's ``newPlot`` call)."""
+    import json
+
+    after = text.split('"replay-figure",', 1)[1].lstrip()
+    data, _ = json.JSONDecoder().raw_decode(after)
+    return data
+
+
+def trace_values(trace: dict, axis: str) -> np.ndarray:
+    values = trace[axis]
+    if isinstance(values, dict):  # plotly's typed-array encoding
+        import base64
+
+        return np.frombuffer(base64.b64decode(values["bdata"]), dtype=values["dtype"])
+    return np.asarray(values, dtype=float)
+
+
+def test_a_band_rule_replay_draws_the_band_it_fired_on(client, band_rule, monkeypatch) -> None:
+    """The band drawn is the one the replay was evaluated against (expected -/+ 3 x scale of
+    the daily fits), fitted once per page, starting on the first day with two weeks of
+    history before it; the third burst pokes out of it, which is the one firing."""
+    from webapp.analysis import _replay
+
+    fits = []
+    fit = _replay.band_centre
+
+    def counted(times, *args, **kwargs):
+        expected, scale = fit(times, *args, **kwargs)
+        fits.append((times, expected, scale))
+        return expected, scale
+
+    monkeypatch.setattr(_replay, "band_centre", counted)
+    text = client.get(f"/rules/{band_rule.id}/replay").text
+    assert len(fits) == 1, "the figure must reuse the replay's band, not fit it again"
+    band = [t for t in replay_traces(text) if t.get("name") == "expected band at tolerance 3"]
+    assert len(band) == 2, "a lower and an upper edge"
+    assert band[1]["fill"] == "tonexty" and band[1]["fillcolor"].startswith("rgba(86,180,233")
+    x = trace_values(band[0], "x")
+    np.testing.assert_array_equal(x, trace_values(band[1], "x"))
+    times, expected, scale = fits[0]
+    at = np.searchsorted(times.asi8 // 1_000_000, x.astype(np.int64))
+    np.testing.assert_allclose(trace_values(band[0], "y"), expected[at] - 3 * scale[at])
+    np.testing.assert_allclose(trace_values(band[1], "y"), expected[at] + 3 * scale[at])
+    assert pd.Timestamp(x.min(), unit="ms", tz="UTC") == START + pd.Timedelta(weeks=2)
+    burst = (x >= BURSTS[2].value // 1_000_000) & (x < (BURSTS[2].value // 1_000_000) + 1_800_000)
+    assert np.all(trace_values(band[1], "y")[burst] < 300.0)
+
+
+def test_the_replay_band_is_downsampled_keeping_its_extremes() -> None:
+    """A week of one-minute band reduced to about 400 points still reaches its highest and
+    lowest edge (a synthetic grid: level 50, one hour of a wide band)."""
+    from webapp.analysis import BandGrid
+    from webapp.web.rule_figures import replay_figure
+
+    times = pd.date_range(START, periods=7 * 1440, freq="1min")
+    scale = np.ones(len(times))
+    scale[5000:5060] = 10.0
+    grid = BandGrid(times, np.full(len(times), 50.0), np.full(len(times), 50.0), scale,
+                    pd.Timedelta("1min"))  # fmt: skip
+    series = pd.Series(grid.values, index=times, name="value")
+    fig = replay_figure(series, pd.DataFrame({"start": []}), [], None, None, n_out=400,
+                        band=(grid, 2.0))  # fmt: skip
+    lower, upper = (t for t in fig.data if t.name == "expected band at tolerance 2")
+    assert len(lower.y) <= 400 and len(lower.x) == len(upper.x)
+    assert max(upper.y) == 70.0 and min(lower.y) == 30.0
+    assert min(upper.y) == 52.0 and max(lower.y) == 48.0
+
+
+def test_a_band_rule_replay_band_follows_its_tolerance(client, session, band_rule) -> None:
+    wide = html.unescape(client.get(f"/rules/{band_rule.id}/replay").text)
+    band_rule.tolerance = 6.0
+    session.commit()
+    wider = html.unescape(client.get(f"/rules/{band_rule.id}/replay").text)
+    names = {t.get("name") for t in replay_traces(wider)}
+    assert "expected band at tolerance 6" in names and "expected band at tolerance 3" not in names
+    half = [
+        (trace_values(up, "y") - trace_values(low, "y")) / 2
+        for low, up in (
+            [t for t in replay_traces(page) if str(t.get("name")).startswith("expected band")]
+            for page in (wide, wider)
+        )
+    ]
+    np.testing.assert_allclose(half[1], 2 * half[0])
+
+
+def test_a_threshold_rule_replay_has_no_band(client, rule) -> None:
+    traces = replay_traces(client.get(f"/rules/{rule.id}/replay").text)
+    assert traces, "the replay figure is there"
+    assert not [t for t in traces if str(t.get("name")).startswith("expected band")]

@@ -8,8 +8,9 @@ import numpy as np
 import pandas as pd
 import plotly.graph_objects as go
 
+from webapp.analysis import BandGrid
 from webapp.web import palette
-from webapp.web.downsample import minmax_indices
+from webapp.web.downsample import minmax_indices, reduce_together
 from webapp.web.figures import FONT, wall_clock
 
 MAX_SHADES = 300
@@ -43,10 +44,15 @@ def replay_figure(
     unit: str | None,
     tz: str = "UTC",
     n_out: int = 3000,
+    band: tuple[BandGrid, float] | None = None,
 ) -> go.Figure:
-    """The series over all its history, with the firings and the recorded incidents shaded."""
+    """The series over all its history, with the firings and the recorded incidents shaded.
+    ``band``: a band rule's evaluation grid and tolerance, drawn as the band it fired on."""
     fig = go.Figure()
     values = series.to_numpy(dtype="float64")
+    top = float(np.nanmax(values)) if len(series) else 1.0
+    if band is not None:
+        top = max(top, _add_band(fig, *band, tz, n_out))
     at = minmax_indices(series.index.asi8, values, n_out) if len(series) else np.array([], int)
     fig.add_trace(
         go.Scatter(
@@ -58,7 +64,7 @@ def replay_figure(
         )
     )
     end_of_data = series.index[-1] if len(series) else None
-    top = float(np.nanmax(values)) * 1.06 if len(series) else 1.0
+    top *= 1.06
     _marks(fig, pd.DatetimeIndex(firings["start"]), top, tz, "firing starts", "triangle-down",
            palette.OUT_OF_BAND)  # fmt: skip
     starts = pd.DatetimeIndex([start for start, _ in incidents])
@@ -90,6 +96,32 @@ def replay_figure(
     _layout(fig, 340, f"time ({tz}); firings and incidents shaded", unit or "value")
     fig.update_xaxes(type="date")
     return fig
+
+
+def _add_band(fig: go.Figure, grid: BandGrid, tolerance: float, tz: str, n_out: int) -> float:
+    """The band a band rule was evaluated against, ``expected -/+ tolerance * scale`` on its
+    grid, reduced like the series (both edges keep their extremes); returns its top."""
+    half = tolerance * grid.scale
+    edges = pd.DataFrame(
+        {"lower": grid.expected - half, "upper": grid.expected + half}, index=grid.times
+    )
+    edges = reduce_together(edges, ["lower", "upper"], n_out)
+    x = wall_clock(pd.DatetimeIndex(edges.index), tz)
+    name = f"expected band at tolerance {tolerance:g}"
+    line = {"color": palette.BAND_EDGE, "width": 0.6}
+    common = {"x": x, "mode": "lines", "line": line, "legendgroup": name, "hoverinfo": "skip"}
+    fig.add_trace(go.Scatter(y=edges["lower"], name=name, showlegend=False, **common))
+    fig.add_trace(
+        go.Scatter(
+            y=edges["upper"],
+            name=name,
+            fill="tonexty",
+            fillcolor=palette.rgba(palette.BAND_EDGE, 0.32),
+            **common,
+        )
+    )
+    upper = edges["upper"].to_numpy(dtype="float64")
+    return float(np.nanmax(upper)) if np.isfinite(upper).any() else -np.inf
 
 
 def _marks(

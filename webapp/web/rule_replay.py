@@ -114,13 +114,11 @@ def run_replay(
     sweep, used = _whatif(values, analysed, incidents, exclude, grid, bands)
     draft = draft_verdict(report, sweep, analysed)
     threshold = analysed.threshold if isinstance(analysed, ThresholdRule) else None
-    figs = {
-        "replay": figure_div(
-            rule_figures.replay_figure(values, report.firings, incidents, threshold, info.unit, TZ),
-            "replay-figure",
-            False,
-        )
-    }
+    drawn_band = (bands, float(analysed.tolerance)) if bands is not None else None
+    replay_fig = rule_figures.replay_figure(
+        values, report.firings, incidents, threshold, info.unit, TZ, band=drawn_band
+    )
+    figs = {"replay": figure_div(replay_fig, "replay-figure", False)}
     level = rule_figures.level_column(sweep)
     current = (getattr(analysed, level), analysed.for_)
     drafted = None
