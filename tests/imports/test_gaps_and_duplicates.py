@@ -141,3 +141,26 @@ def test_other_keys_of_a_json_record_are_labels(points, rejected):
     assert rejected(bad, name="r.json") == [
         "r.json, line 1, column 'labels': labels must be an object of name: value strings"
     ]
+
+
+def test_one_repeat_is_worded_as_one_and_a_parquet_repeat_names_its_row():
+    import io
+
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    table = pa.table(
+        {
+            "timestamp": ["2026-11-30T08:00:00Z"] * 2,
+            "metric": ["checkout.requests"] * 2,
+            "value": [1.0, 2.0],
+        }
+    )
+    sink = io.BytesIO()
+    pq.write_table(table, sink)
+    parsed = parse_bytes(sink.getvalue(), "g.parquet")
+    assert parsed.duplicate_count == 1
+    assert str(parsed.problems[0]) == (
+        "g.parquet: 1 row repeats a (series, timestamp) pair that appears again later; the "
+        "last value of each pair was kept (first repeat at row 1)"
+    )

@@ -1,5 +1,5 @@
-"""The step every format ends with: gaps dropped and counted, duplicates resolved last-wins,
-series keys attached, and the ParsedImport built."""
+"""The step every format ends with: one unit per series checked, gaps dropped and counted,
+duplicates resolved last-wins, series keys attached, and the ParsedImport built."""
 
 from __future__ import annotations
 
@@ -12,6 +12,7 @@ import pyarrow as pa
 from webapp.imports._problems import LineMap, ProblemLog
 from webapp.imports._timestamps import Timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
+from webapp.imports._units import report_unit_changes
 from webapp.imports.keys import series_key
 
 try:
@@ -33,12 +34,18 @@ def assemble(
     line_of: LineMap,
     tz: str | None,
     rows_read: int,
+    unit_column: str | None = "unit",
 ) -> ParsedImport:
-    """``codes[i]`` indexes ``metas`` for row i; rows with errors were already logged."""
+    """``codes[i]`` indexes ``metas`` for row i; rows with errors were already logged.
+
+    Metas may repeat a key (other spellings of one series, or rows giving another unit);
+    a series whose rows give two units is reported on ``unit_column``."""
+    keys = [_key_or_none(m) for m in metas]
+    report_unit_changes(codes, metas, keys, log, line_of, unit_column)
     log.check()
     if len(values) == 0:
         log.reject("the file has no data rows")
-    codes, metas = _merge_equal_keys(codes, metas)
+    codes, metas = _merge_equal_keys(codes, metas, keys)
     codes = codes.astype(_code_dtype(len(metas)), copy=False)
     ms = timestamps.ms
     rows = None  # positions of the kept rows in the file's order, built only when needed
@@ -55,8 +62,9 @@ def assemble(
         dropped = np.flatnonzero(~keep)[:1]
         first = int(line_of(dropped if rows is None else rows[dropped])[0])
         log.warning(
-            f"{duplicate_count} rows repeat a (series, timestamp) pair that appears again "
-            f"later; the last value of each pair was kept (first repeat at line {first})"
+            f"{duplicate_count} {'row repeats' if duplicate_count == 1 else 'rows repeat'} "
+            "a (series, timestamp) pair that appears again later; the last value of each "
+            f"pair was kept (first repeat at {log.place} {first})"
         )
         codes, ms, values = codes[keep], ms[keep], values[keep]
     used = np.flatnonzero(np.bincount(codes, minlength=len(metas)))
@@ -85,12 +93,22 @@ def assemble(
     )
 
 
+def _key_or_none(meta: SeriesMeta) -> str | None:
+    """The series key, or None where the metric or labels cannot make one (those rows
+    were reported already)."""
+    if not meta.metric:
+        return None
+    try:
+        return series_key(meta.metric, meta.labels)
+    except ValueError:
+        return None
+
+
 def _merge_equal_keys(
-    codes: np.ndarray, metas: Sequence[SeriesMeta]
+    codes: np.ndarray, metas: Sequence[SeriesMeta], keys: list[str | None]
 ) -> tuple[np.ndarray, list[tuple[str, SeriesMeta]]]:
     """Different spellings of one series (an empty label, label order) share one key."""
-    keyed = [(series_key(m.metric, m.labels), m) for m in metas]
-    keys = [k for k, _ in keyed]
+    keyed = list(zip(keys, metas, strict=True))
     unique_keys, inverse = np.unique(np.array(keys, dtype=object), return_inverse=True)
     if len(unique_keys) == len(keys):
         return codes, keyed

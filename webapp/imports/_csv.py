@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import csv
 from dataclasses import dataclass
-from functools import cached_property
 
 import numpy as np
 import pandas as pd
@@ -18,9 +17,10 @@ import pyarrow.compute as pc
 import pyarrow.csv as pcsv
 
 from webapp.imports._assemble import assemble
+from webapp.imports._csvlines import CsvLines
 from webapp.imports._long import TIMESTAMP_NAMES, find_column, long_roles, parse_long_table
 from webapp.imports._problems import LineMap, ProblemLog
-from webapp.imports._text import non_empty_lines, reject_bad_encoding, without_bom
+from webapp.imports._text import reject_bad_encoding, without_bom
 from webapp.imports._timestamps import Timestamps, parse_timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports._values import parse_values
@@ -91,21 +91,6 @@ def looks_like_data(names: list[str]) -> bool:
         pd.Series(names, dtype=object), format="ISO8601", errors="coerce", utc=True
     )
     return bool(numbers.any() or dates.notna().any())
-
-
-class _CsvLines:
-    """Line numbers for rows, computed only when a problem needs them."""
-
-    def __init__(self, data: memoryview):
-        self.data = data
-
-    @cached_property
-    def _lines(self) -> np.ndarray:
-        return non_empty_lines(self.data)
-
-    def __call__(self, rows: np.ndarray) -> np.ndarray:
-        lines = self._lines
-        return lines[np.minimum(rows + 1, len(lines) - 1)]
 
 
 def _read_table(
@@ -186,11 +171,11 @@ def parse_csv_long(
 ) -> ParsedImport:
     header = read_header(data, log)
     ts_name, metric_name, value_name = long_roles(header.names, log, line=1)
-    labels = [n for n in header.names if n not in (ts_name, metric_name, value_name)]
-    typed = {value_name: pa.float64(), metric_name: _TEXT} | {n: _TEXT for n in labels}
+    texts = [n for n in header.names if n not in (ts_name, value_name)]  # metric, unit, labels
+    typed = {value_name: pa.float64()} | {n: _TEXT for n in texts}
     body = without_bom(data)
     table, line_of = _without_blank_rows(
-        _read_with_fallback(body, header, typed, log), ts_name, _CsvLines(body)
+        _read_with_fallback(body, header, typed, log), ts_name, CsvLines(body, header.delimiter)
     )
     if table.num_rows == 0:
         log.reject("the file has no data rows below the header")
@@ -235,7 +220,7 @@ def parse_csv_wide(
     table, line_of = _without_blank_rows(
         _read_with_fallback(body, header, {n: pa.float64() for n in series_columns}, log),
         ts_name,
-        _CsvLines(body),
+        CsvLines(body, header.delimiter),
     )
     if table.num_rows == 0:
         log.reject("the file has no data rows below the header")

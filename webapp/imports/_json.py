@@ -1,7 +1,8 @@
 """JSON in two shapes, as one document or as JSON Lines (one object per line).
 
-Records: ``[{"timestamp": ..., "metric": ..., "labels": {...}, "value": ...}, ...]``; other
-keys of a record are labels too, as other columns are in a long CSV.
+Records: ``[{"timestamp": ..., "metric": ..., "labels": {...}, "unit": ..., "value": ...}]``;
+other keys of a record are labels too, as other columns are in a long CSV. A series has one
+unit: records of one series that give two units are refused.
 Series: ``{"metric": ..., "labels": {...}, "unit": ..., "points": [[ts, value], ...]}`` or a
 list of such objects. Timestamps are ISO 8601 strings or epoch numbers; a value of null or
 NaN is a gap.
@@ -174,6 +175,11 @@ class _SeriesIndex:
         found = self.codes.get(ident)
         if found is not None:
             return found
+        if unit is not None and not isinstance(unit, str):
+            self.log.error(
+                f"unit must be a string, found {type(unit).__name__}", line=line(), column="unit"
+            )
+            return None
         if not isinstance(metric, str):
             self.log.error("expected a metric name (a string)", line=line(), column="metric")
             return None
@@ -182,9 +188,7 @@ class _SeriesIndex:
             self.log.error(problem, line=line(), column="metric")
             return None
         self.codes[ident] = len(self.metas)
-        self.metas.append(
-            SeriesMeta(metric.strip(), labels, unit if isinstance(unit, str) else None)
-        )
+        self.metas.append(SeriesMeta(metric.strip(), labels, (unit or "").strip() or None))
         return self.codes[ident]
 
 

@@ -1,5 +1,5 @@
-"""The long layout (one row per point: timestamp, metric, value, label columns), shared by
-CSV long and Parquet once their reader has produced an Arrow table."""
+"""The long layout (one row per point: timestamp, metric, value, an optional unit, label
+columns), shared by CSV long and Parquet once their reader has produced an Arrow table."""
 
 from __future__ import annotations
 
@@ -16,6 +16,7 @@ from webapp.imports._values import parse_values
 TIMESTAMP_NAMES = ("timestamp", "time", "ts", "datetime", "date", "timestamp_utc", "time_utc")
 METRIC_NAMES = ("metric", "name", "metric_name")
 VALUE_NAMES = ("value", "val")
+UNIT_NAMES = ("unit",)
 _PACKED_LIMIT = 2**40
 
 
@@ -39,8 +40,8 @@ def long_roles(names: list[str], log: ProblemLog, line: int | None) -> tuple[str
     if missing:
         log.reject(
             f"no {' or '.join(missing)} column; the long layout needs columns named "
-            "timestamp (or time/ts), metric (or name) and value, every other column being "
-            f"a label; found {', '.join(names)}",
+            "timestamp (or time/ts), metric (or name) and value, an optional unit, every "
+            f"other column being a label; found {', '.join(names)}",
             line=line,
         )
     return roles["timestamp"], roles["metric"], roles["value"]  # type: ignore[return-value]
@@ -60,7 +61,8 @@ def parse_long_table(
 ) -> ParsedImport:
     names = table.column_names
     ts_name, metric_name, value_name = long_roles(names, log, header_line)
-    label_names = [n for n in names if n not in (ts_name, metric_name, value_name)]
+    unit_name = find_column(names, UNIT_NAMES)
+    label_names = [n for n in names if n not in (ts_name, metric_name, value_name, unit_name)]
     timestamps = parse_timestamps(
         table.column(ts_name), tz=tz, column=ts_name, log=log, line_of=line_of
     )
@@ -71,7 +73,7 @@ def parse_long_table(
         line_of=line_of,
         decimal_comma=decimal_comma,
     )
-    codes, metas = series_codes(table, metric_name, label_names, log, line_of)
+    codes, metas = series_codes(table, metric_name, label_names, unit_name, log, line_of)
     return assemble(
         data=data,
         file_name=file_name,
@@ -84,18 +86,25 @@ def parse_long_table(
         line_of=line_of,
         tz=tz,
         rows_read=table.num_rows,
+        unit_column=unit_name,
     )
 
 
 def series_codes(
-    table: pa.Table, metric: str, label_names: list[str], log: ProblemLog, line_of: LineMap
+    table: pa.Table,
+    metric: str,
+    label_names: list[str],
+    unit: str | None,
+    log: ProblemLog,
+    line_of: LineMap,
 ) -> tuple[np.ndarray, list[SeriesMeta]]:
-    """One integer per row naming its (metric, labels) combination.
+    """One integer per row naming its (metric, labels, unit) combination.
 
     Each column is dictionary-encoded, the per-row dictionary indices are packed into one
     integer, and only the distinct combinations are turned into SeriesMeta: the per-row
-    work stays in numpy."""
-    columns = [metric, *label_names]
+    work stays in numpy. Rows of one series that give different units become metas with
+    one key, which ``assemble`` reports."""
+    columns = [metric, *label_names, *([unit] if unit else [])]
     packed = np.zeros(table.num_rows, dtype=np.int64)
     span = 1
     dictionaries, indices = [], []
@@ -118,8 +127,11 @@ def series_codes(
     metas, reasons = [], {}
     for code, row in enumerate(first_of_code.tolist()):
         parts = [d[int(i[row])] for d, i in zip(dictionaries, indices, strict=True)]
-        labels = {k: v for k, v in zip(label_names, parts[1:], strict=True) if v != ""}
-        metas.append(SeriesMeta(metric=parts[0], labels=labels))  # empty label = absent
+        label_parts = parts[1 : 1 + len(label_names)]
+        labels = {k: v for k, v in zip(label_names, label_parts, strict=True) if v != ""}
+        unit_text = parts[-1] if unit else ""
+        # an empty label is an absent label, an empty unit cell no unit
+        metas.append(SeriesMeta(metric=parts[0], labels=labels, unit=unit_text or None))
         problem = series_problem(parts[0], labels)
         if problem:
             reasons[code] = problem
