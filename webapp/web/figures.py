@@ -76,7 +76,8 @@ def _time_axis(tz: str, title: bool = True, **extra: object) -> dict:
     return _axis(
         type="date",
         hoverformat="%Y-%m-%d %H:%M",
-        title={"text": f"time ({tz})" if title else ""},
+        title={"text": f"time ({tz})" if title else "", "standoff": 10},
+        automargin=True,  # two-line date ticks must not run into the axis title
         **extra,
     )
 
