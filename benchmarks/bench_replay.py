@@ -1,7 +1,7 @@
 """Benchmark: replay, report and what-if sweep over six weeks of 1-minute demo data.
 
 The data is the demo scenario (60,480 minutes per series). Figures printed: the demo build,
-a threshold replay and its report, the default what-if sweep (thresholds x pending periods),
+a threshold replay and its report, the default what-if sweep (thresholds x holds),
 and a band-rule replay (one fit per day on four weeks of history). Each is the best of
 ``--repeat`` runs.
 
@@ -57,16 +57,16 @@ def main() -> None:
             args.repeat, lambda s=series, r=rule: replay_report(s, r, demo.incidents)
         )
         print(f"  replay_report: {seconds * 1000:8.1f} ms")
-        thresholds, pendings = sweep_grid(series, rule)
+        thresholds, holds = sweep_grid(series, rule)
         seconds, sweep = best_of(
             args.repeat,
-            lambda s=series, t=thresholds, p=pendings, r=rule: whatif_sweep(
-                s, t, p, demo.incidents, direction=r.direction, step=r.step
+            lambda s=series, t=thresholds, p=holds, r=rule: whatif_sweep(
+                s, t, p, demo.incidents, direction=r.direction, check_every=r.check_every
             ),
         )
         print(
             f"  whatif_sweep:  {seconds * 1000:8.1f} ms for {len(thresholds)} thresholds x "
-            f"{len(pendings)} pending periods = {len(sweep)} settings"
+            f"{len(holds)} holds = {len(sweep)} settings"
         )
         verdict = draft_verdict(report, sweep, rule)
         print(
@@ -75,7 +75,7 @@ def main() -> None:
         )
 
     series = demo.series("checkout.latency_p95{host=api-4}")
-    band = BandRule(tolerance=4.0, for_="5min", history=pd.Timedelta(weeks=4), tz=demo.tz)
+    band = BandRule(tolerance=4.0, hold="5min", history=pd.Timedelta(weeks=4), tz=demo.tz)
     seconds, firings = best_of(1, lambda: replay(series, band))
     print(f"\nband rule on {series.name} ({band.text}): {seconds:.2f} s, {len(firings)} firings")
 

@@ -268,7 +268,12 @@ def _span_text(span: tuple[pd.Timestamp, pd.Timestamp]) -> str:
 
 def _rules() -> list[dict]:
     """The two alert rules as stored alert-rule fields (``series_key`` names the series)."""
-    common = {"kind": "threshold", "direction": "above", "tolerance": None, "step_seconds": 60}
+    common = {
+        "kind": "threshold",
+        "direction": "above",
+        "tolerance": None,
+        "check_every_seconds": 60,
+    }
     return [
         {
             **common,
@@ -277,7 +282,7 @@ def _rules() -> list[dict]:
             "metric": "checkout.latency_p95",
             "label_filter": {"host": "api-4"},
             "threshold": 800.0,
-            "pending_seconds": 300,
+            "hold_seconds": 300,
             "description": "Riders wait at the reader when checkout p95 passes 800 ms; "
             "api-4 also serves the payment callbacks.",
         },
@@ -288,7 +293,7 @@ def _rules() -> list[dict]:
             "metric": "payment.queue_depth",
             "label_filter": {"host": "api-1"},
             "threshold": 150.0,
-            "pending_seconds": 600,
+            "hold_seconds": 600,
             "description": "Meant to catch a stuck payment worker before riders notice.",
         },
     ]

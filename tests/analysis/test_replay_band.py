@@ -26,7 +26,7 @@ def daily(days: int = 6, seed: int = 11) -> pd.Series:
     return pd.Series(values, index=index)
 
 
-RULE = BandRule(tolerance=4.0, for_="15min", history=pd.Timedelta(days=3), min_history=DAY)
+RULE = BandRule(tolerance=4.0, hold="15min", history=pd.Timedelta(days=3), min_history=DAY)
 
 
 def test_changing_data_after_a_day_never_changes_that_days_firings():
@@ -48,7 +48,7 @@ def test_changing_data_after_a_day_never_changes_that_days_firings():
     )
 
 
-def test_a_sustained_jump_fires_once_the_pending_period_has_passed():
+def test_a_sustained_jump_fires_once_the_hold_has_passed():
     series = daily()
     jump = (series.index >= T0 + 5 * DAY + pd.Timedelta(hours=3)) & (
         series.index < T0 + 5 * DAY + pd.Timedelta(hours=4)
@@ -93,7 +93,7 @@ def test_too_little_history_for_any_band_is_a_clear_error():
         ({"direction": "up"}, "direction must be"),
         ({"history": "0s"}, "history must be positive"),
         ({"tz": "Mars/Olympus"}, "unknown time zone"),
-        ({"for_": "-5min"}, "must not be negative"),
+        ({"hold": "-5min"}, "must not be negative"),
     ],
 )
 def test_band_rule_validation(kwargs, message):

@@ -28,8 +28,8 @@ def two_days_with_stretches(*stretches: tuple[int, int]) -> pd.Series:
     return pd.Series(values, index=pd.date_range(T0, periods=values.size, freq="1min"))
 
 
-RULE = ThresholdRule(above=5, for_="5min")
-# Stretches of 10 and the firings they give with a 5-minute pending period:
+RULE = ThresholdRule(above=5, hold="5min")
+# Stretches of 10 and the firings they give with a 5-minute hold:
 #   A 100-130 -> fires 105, ends 130 (25 min)
 #   B 160-180 -> fires 165, ends 180 (15 min); starts 35 min after A ended: flapping
 #   C 1000-1060 -> fires 1005, ends 1060 (55 min)
@@ -62,7 +62,7 @@ def test_counts_and_rates(report):
     assert report.weeks == pytest.approx(2 / 7)
     assert report.pages_per_week == pytest.approx(4 / (2 / 7))  # 14 per week
     assert report.median_duration == 25 * MIN  # finished ones: 15, 25, 55
-    assert report.time_firing == (25 + 15 + 55 + 5) * MIN
+    assert report.time_raised == (25 + 15 + 55 + 5) * MIN
     assert report.flapping == 1
     assert (report.inside, report.outside) == (2, 2)
     assert report.busiest_12h == 2  # A and B start within 12 h of each other
@@ -97,7 +97,7 @@ def test_to_dict_is_json_and_carries_the_numbers(report):
 
 
 def test_a_firing_long_before_the_incident_overlaps_it_but_did_not_catch_it():
-    # fires at minute 105 (stretch from 100), still firing when the incident begins at 121,
+    # fires at minute 105 (stretch from 100), still raised when the incident begins at 121,
     # 16 minutes later: more than the 15-minute lead, so it overlaps but does not catch.
     series = two_days_with_stretches((100, 200))
     report = replay_report(series, RULE, [(at(121), at(150))])

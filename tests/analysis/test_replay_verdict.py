@@ -41,9 +41,9 @@ INCIDENTS = [(T0 + INCIDENT_START * MIN, T0 + (INCIDENT_START + 60) * MIN)]
 SWEEP_PENDINGS = (pd.Timedelta(0), 5 * MIN)
 
 
-def draft(series, rule, thresholds=(10, 20, 50), pendings=SWEEP_PENDINGS):
+def draft(series, rule, thresholds=(10, 20, 50), holds=SWEEP_PENDINGS):
     report = replay_report(series, rule, INCIDENTS)
-    sweep = whatif_sweep(series, thresholds, pendings, INCIDENTS, direction="above")
+    sweep = whatif_sweep(series, thresholds, holds, INCIDENTS, direction="above")
     return report, draft_verdict(report, sweep, rule)
 
 
@@ -51,16 +51,14 @@ def test_tune_picks_the_fewest_pages_that_still_catch_the_incident():
     report, verdict = draft(NOISY, ThresholdRule(above=10))
     assert report.n_firings == DAYS + 1 and report.caught == [0]
     # One page (the incident alone) at (10, 5 min), (20, 0), (20, 5 min), (50, 0), (50, 5 min).
-    # Ties go to the shorter median delay (pending 0: no delay), then to the setting
+    # Ties go to the shorter median delay (hold 0: no delay), then to the setting
     # closest to the current one: threshold 20 is closer to 10 than 50 is.
     assert verdict.suggestion == "tune"
     assert verdict.parameters["threshold"] == 20.0
-    assert verdict.parameters["pending_seconds"] == 0
+    assert verdict.parameters["hold_seconds"] == 0
     assert verdict.parameters["kind"] == "threshold"
     assert "fired 15 times" in verdict.rationale
-    assert "With threshold 20 and a pending period of 0s, it would have fired 1 time" in (
-        verdict.rationale
-    )
+    assert "With threshold 20 and a hold of 0s, it would have fired 1 time" in (verdict.rationale)
 
 
 def test_keep_when_it_caught_the_incident_and_nothing_is_quieter():
@@ -71,8 +69,8 @@ def test_keep_when_it_caught_the_incident_and_nothing_is_quieter():
         "kind": "threshold",
         "direction": "above",
         "threshold": 20.0,
-        "pending_seconds": 0,
-        "step_seconds": None,
+        "hold_seconds": 0,
+        "check_every_seconds": None,
     }
     assert "It caught 1 of 1 recorded incident" in verdict.rationale
 
@@ -108,7 +106,7 @@ def test_every_draft_leaves_the_decision_to_the_owner(threshold):
 def test_a_band_rule_is_drafted_without_a_sweep():
     series = fortnight(*BLIPS) + np.random.default_rng(5).normal(0, 1, DAYS * 1440)
     rule = BandRule(
-        tolerance=5.0, for_="2min", history=pd.Timedelta(days=3), min_history=pd.Timedelta(days=3)
+        tolerance=5.0, hold="2min", history=pd.Timedelta(days=3), min_history=pd.Timedelta(days=3)
     )
     report = replay_report(series, rule, INCIDENTS)
     verdict = draft_verdict(report, None, rule)
@@ -141,18 +139,18 @@ def test_a_missed_incident_names_the_quietest_setting_that_catches_it():
     assert report.missed == [0]
     assert (
         "Of the what-if settings that catch the most incidents, the quietest (threshold 50, "
-        "pending period 0s) catches 1 of the 1 recorded incidents at 0.5 pages per week."
+        "hold 0s) catches 1 of the 1 recorded incidents at 0.5 pages per week."
     ) in verdict.rationale
 
 
 def band_sweep_rows(*rows: tuple[float, str, int, tuple[int, ...], str | None]) -> pd.DataFrame:
-    """A hand-made band sweep over the fortnight: (tolerance, pending, firings, caught
+    """A hand-made band sweep over the fortnight: (tolerance, hold, firings, caught
     incidents, median delay) per row, the other columns following from them."""
     weeks = DAYS / 7
     return pd.DataFrame(
         {
             "tolerance": [r[0] for r in rows],
-            "pending": pd.to_timedelta([r[1] for r in rows]),
+            "hold": pd.to_timedelta([r[1] for r in rows]),
             "firings": [r[2] for r in rows],
             "pages_per_week": [r[2] / weeks for r in rows],
             "incidents_caught": [len(r[3]) for r in rows],
@@ -190,12 +188,10 @@ def test_a_band_rule_is_tuned_to_the_quietest_tolerance_that_still_catches(band_
         "kind": "band",
         "direction": "both",
         "tolerance": 4.0,
-        "pending_seconds": 300,
-        "step_seconds": None,
+        "hold_seconds": 300,
+        "check_every_seconds": None,
     }
-    assert "With tolerance 4 and a pending period of 5min, it would have fired 1 time" in (
-        verdict.rationale
-    )
+    assert "With tolerance 4 and a hold of 5min, it would have fired 1 time" in (verdict.rationale)
     assert verdict.rationale.endswith(OWNER_DECIDES)
 
 

@@ -31,21 +31,21 @@ PENDINGS = [pd.Timedelta(minutes=m) for m in (0, 1, 3, 10, 30)]
     seed=st.integers(0, 10_000),
     thresholds=st.lists(st.floats(-30, 30), min_size=2, max_size=8, unique=True),
 )
-def test_time_firing_never_grows_with_a_higher_above_threshold_or_a_longer_pending(
+def test_time_raised_never_grows_with_a_higher_above_threshold_or_a_longer_pending(
     seed, thresholds
 ):
     sweep = whatif_sweep(walk(seed), thresholds, PENDINGS, direction="above")
-    table = sweep.pivot(index="threshold", columns="pending", values="time_firing")
+    table = sweep.pivot(index="threshold", columns="hold", values="time_raised")
     by_threshold = table.to_numpy().astype("int64")
     assert (np.diff(by_threshold, axis=0) <= 0).all()  # rows: ascending thresholds
-    assert (np.diff(by_threshold, axis=1) <= 0).all()  # columns: ascending pendings
+    assert (np.diff(by_threshold, axis=1) <= 0).all()  # columns: ascending holds
 
 
 @settings(max_examples=25, deadline=None)
 @given(seed=st.integers(0, 10_000), thresholds=st.lists(st.floats(-30, 30), min_size=2, max_size=6))
 def test_for_a_below_rule_a_lower_threshold_never_fires_longer(seed, thresholds):
     sweep = whatif_sweep(walk(seed), thresholds, PENDINGS, direction="below")
-    table = sweep.pivot(index="threshold", columns="pending", values="time_firing")
+    table = sweep.pivot(index="threshold", columns="hold", values="time_raised")
     assert (np.diff(table.to_numpy().astype("int64"), axis=0) >= 0).all()
 
 
@@ -54,7 +54,7 @@ def test_firing_counts_are_not_monotonic_a_higher_threshold_can_split_a_firing()
     series = pd.Series([6, 6, 4, 6, 6, 0.0], index=pd.date_range(T0, periods=6, freq="1min"))
     sweep = whatif_sweep(series, [3, 5], [pd.Timedelta(0)])
     assert sweep["firings"].tolist() == [1, 2]
-    assert sweep["time_firing"].tolist() == [5 * MIN, 4 * MIN]
+    assert sweep["time_raised"].tolist() == [5 * MIN, 4 * MIN]
 
 
 def test_every_row_agrees_with_a_replay_report_of_that_setting():
@@ -64,11 +64,11 @@ def test_every_row_agrees_with_a_replay_report_of_that_setting():
     sweep = whatif_sweep(series, thresholds, PENDINGS, incidents)
     assert len(sweep) == len(thresholds) * len(PENDINGS)
     for row in sweep.itertuples(index=False):
-        rule = ThresholdRule(above=row.threshold, for_=row.pending)
+        rule = ThresholdRule(above=row.threshold, hold=row.hold)
         report = replay_report(series, rule, incidents)
         assert row.firings == report.n_firings == len(replay(series, rule))
         assert row.pages_per_week == pytest.approx(report.pages_per_week)
-        assert row.time_firing == report.time_firing
+        assert row.time_raised == report.time_raised
         assert row.caught == tuple(report.caught)
         assert (row.incidents_caught, row.incidents_missed) == (
             len(report.caught),
@@ -84,17 +84,17 @@ def test_columns_and_order():
     sweep = whatif_sweep(walk(1), [5, 1], ["10min", "0s"])
     assert list(sweep.columns) == [
         "threshold",
-        "pending",
+        "hold",
         "firings",
         "pages_per_week",
-        "time_firing",
+        "time_raised",
         "incidents_caught",
         "incidents_missed",
         "median_delay",
         "caught",
     ]
     assert sweep["threshold"].tolist() == [1, 1, 5, 5]
-    assert sweep["pending"].tolist() == [pd.Timedelta(0), 10 * MIN] * 2
+    assert sweep["hold"].tolist() == [pd.Timedelta(0), 10 * MIN] * 2
 
 
 @pytest.mark.parametrize(
@@ -102,20 +102,20 @@ def test_columns_and_order():
     [
         ({"thresholds": []}, "at least one threshold"),
         ({"thresholds": [float("inf")]}, "finite"),
-        ({"pendings": ["-1min"]}, "none negative"),
-        ({"pendings": []}, "at least one pending period"),
+        ({"holds": ["-1min"]}, "none negative"),
+        ({"holds": []}, "at least one hold"),
         ({"direction": "sideways"}, "direction must be"),
     ],
 )
 def test_bad_sweep_arguments(kwargs, message):
-    arguments = {"thresholds": [1.0], "pendings": ["1min"], **kwargs}
+    arguments = {"thresholds": [1.0], "holds": ["1min"], **kwargs}
     with pytest.raises(ValueError, match=message):
         whatif_sweep(walk(1), **arguments)
 
 
 def test_default_grid_contains_the_current_setting_and_spans_around_it():
-    rule = ThresholdRule(above=800, for_="7min")
-    thresholds, pendings = sweep_grid(walk(2) * 100, rule)
+    rule = ThresholdRule(above=800, hold="7min")
+    thresholds, holds = sweep_grid(walk(2) * 100, rule)
     assert 800 in thresholds and 400 in thresholds and 1600 in thresholds
     assert thresholds == sorted(thresholds)
-    assert pd.Timedelta("7min") in pendings and pd.Timedelta(0) in pendings
+    assert pd.Timedelta("7min") in holds and pd.Timedelta(0) in holds

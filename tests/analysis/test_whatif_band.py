@@ -1,4 +1,4 @@
-"""band_sweep(): a band rule's tolerances by pending periods, and the verdict drawn from it.
+"""band_sweep(): a band rule's tolerances by holds, and the verdict drawn from it.
 
 Series are synthetic (invented for the test)."""
 
@@ -46,8 +46,8 @@ def sweep():
     return band_sweep(daily(4), RULE, TOLERANCES, PENDINGS, INCIDENTS)
 
 
-def test_time_firing_never_grows_with_a_higher_tolerance_or_a_longer_pending(sweep):
-    table = sweep.pivot(index="tolerance", columns="pending", values="time_firing")
+def test_time_raised_never_grows_with_a_higher_tolerance_or_a_longer_pending(sweep):
+    table = sweep.pivot(index="tolerance", columns="hold", values="time_raised")
     by_level = table.to_numpy().astype("int64")
     assert (np.diff(by_level, axis=0) <= 0).all()
     assert (np.diff(by_level, axis=1) <= 0).all()
@@ -55,18 +55,18 @@ def test_time_firing_never_grows_with_a_higher_tolerance_or_a_longer_pending(swe
 
 
 def test_each_row_is_the_replay_of_that_band_rule(sweep):
-    for tolerance, pending in [(2.0, pd.Timedelta(0)), (5.0, pd.Timedelta("10min"))]:
-        row = sweep[(sweep["tolerance"] == tolerance) & (sweep["pending"] == pending)].iloc[0]
+    for tolerance, hold in [(2.0, pd.Timedelta(0)), (5.0, pd.Timedelta("10min"))]:
+        row = sweep[(sweep["tolerance"] == tolerance) & (sweep["hold"] == hold)].iloc[0]
         rule = BandRule(
             tolerance=tolerance,
-            for_=pending,
+            hold=hold,
             history=RULE.history,
             min_history=RULE.min_history,
             direction="above",
         )
         report = replay_report(daily(4), rule, INCIDENTS)
         assert row["firings"] == report.n_firings
-        assert row["time_firing"] == report.time_firing
+        assert row["time_raised"] == report.time_raised
         assert row["caught"] == tuple(report.caught)
 
 
@@ -96,9 +96,9 @@ def test_band_sweep_arguments():
 
 
 def test_default_band_grid_holds_the_current_setting():
-    tolerances, pendings = sweep_grid(daily(4), BandRule(tolerance=4.5, for_="7min"))
+    tolerances, holds = sweep_grid(daily(4), BandRule(tolerance=4.5, hold="7min"))
     assert 4.5 in tolerances and tolerances == sorted(tolerances)
-    assert pd.Timedelta("7min") in pendings
+    assert pd.Timedelta("7min") in holds
 
 
 def test_bands_built_once_give_the_same_report_and_sweep(sweep):

@@ -66,7 +66,7 @@ def rule(session, watched):
         kind="threshold",
         direction="above",
         threshold=200.0,
-        pending_seconds=600,
+        hold_seconds=600,
     )
     session.commit()
     return row
@@ -81,8 +81,8 @@ def rule_form(series_id: int, /, **overrides: str) -> dict[str, str]:
         "direction": "above",
         "threshold": "200",
         "tolerance": "",
-        "pending": "10min",
-        "step": "",
+        "hold": "10min",
+        "check_every": "",
         "description": "",
     }
     return form | overrides
@@ -103,7 +103,7 @@ def test_create_a_rule(client, csrf, watched, session) -> None:
     response = client.post("/rules/new", data={"csrf_token": csrf, **rule_form(watched.id)})
     assert response.status_code == 302
     created = store_rules.list_rules(session)[0]
-    assert (created.threshold, created.pending_seconds) == (200.0, 600)
+    assert (created.threshold, created.hold_seconds) == (200.0, 600)
     assert response.location.endswith(f"/rules/{created.id}")
 
 
@@ -112,9 +112,9 @@ def test_create_a_rule(client, csrf, watched, session) -> None:
     [
         ({"name": ""}, "Give the rule a name"),
         ({"threshold": "lots"}, "Give the threshold as a number"),
-        ({"pending": "soon"}, "is not a duration"),
-        ({"pending": "-5min"}, "cannot be negative"),
-        ({"step": "0s"}, "above zero"),
+        ({"hold": "soon"}, "is not a duration"),
+        ({"hold": "-5min"}, "cannot be negative"),
+        ({"check_every": "0s"}, "above zero"),
         ({"series_id": "999"}, "Pick one of the stored series"),
         ({"kind": "band", "tolerance": "0"}, "above 0"),
         ({"kind": "threshold", "direction": "both"}, "fires above or below"),
@@ -152,7 +152,7 @@ def test_replay_counts_firings_and_incidents(client, rule, incident_review) -> N
     assert count(text, "outside incidents") == "2"
     assert count(text, "incidents caught") == "1"
     assert count(text, "incidents missed") == "0"
-    # the burst starts at 10:00 and the rule waits 10 minutes (pending period)
+    # the burst starts at 10:00 and the rule waits 10 minutes (hold)
     assert "caught, first firing 2026-11-12 10:10" in text
     assert count(text, "median duration") == "20 min"
 
@@ -192,7 +192,7 @@ def test_carry_the_draft_into_a_review(client, csrf, rule, incident_review, sess
         "csrf_token": csrf,
         "review_id": str(incident_review.id),
         "verdict": "tune",
-        "verdict_parameters": "threshold: 250\npending_seconds: 900",
+        "verdict_parameters": "threshold: 250\nhold_seconds: 900",
         "verdict_rationale": "Fewer pages, same catch.",
     }
     response = client.post(f"/rules/{rule.id}/verdict", data=data)
@@ -201,7 +201,7 @@ def test_carry_the_draft_into_a_review(client, csrf, rule, incident_review, sess
     session.expire_all()
     stored = session.get(Review, incident_review.id)
     assert stored.verdict == "tune" and stored.alert_rule_id == rule.id
-    assert stored.verdict_parameters == {"threshold": 250.0, "pending_seconds": 900.0}
+    assert stored.verdict_parameters == {"threshold": 250.0, "hold_seconds": 900.0}
 
 
 def test_carrying_a_bad_verdict_keeps_the_rationale(client, csrf, rule, incident_review) -> None:
@@ -234,10 +234,10 @@ def test_edit_and_delete(client, csrf, rule, watched, session) -> None:
 
 
 def test_a_sweep_of_the_readers_own_settings(client, rule, incident_review) -> None:
-    url = f"/rules/{rule.id}/replay?thresholds=150,250&pendings=0,5min"
+    url = f"/rules/{rule.id}/replay?thresholds=150,250&holds=0,5min"
     text = html.unescape(client.get(url, headers={"HX-Request": "true"}).text)
     rows = re.findall(r'<td class="num">([\d.]+)</td><td>([^<]+)</td>', text)
-    # the current rule (200 for 10 min) always joins the grid: 3 thresholds x 3 pendings
+    # the current rule (200 for 10 min) always joins the grid: 3 thresholds x 3 holds
     assert len(rows) == 9
     assert {t for t, _ in rows} == {"150", "200", "250"}
     assert 'value="150,250"' in text
@@ -246,9 +246,9 @@ def test_a_sweep_of_the_readers_own_settings(client, rule, incident_review) -> N
 @pytest.mark.parametrize(
     ("query", "message"),
     [
-        ("thresholds=lots&pendings=0", "'lots' is not a number"),
-        ("thresholds=100&pendings=soon", "is not a duration"),
-        ("thresholds=&pendings=5min", "at least one threshold"),
+        ("thresholds=lots&holds=0", "'lots' is not a number"),
+        ("thresholds=100&holds=soon", "is not a duration"),
+        ("thresholds=&holds=5min", "at least one threshold"),
     ],
 )
 def test_a_bad_sweep_grid_is_explained_and_kept(client, rule, query, message) -> None:
@@ -300,7 +300,7 @@ def band_rule(session, watched):
         kind="band",
         direction="both",
         tolerance=3.0,
-        pending_seconds=600,
+        hold_seconds=600,
     )
     session.commit()
     return row
@@ -326,17 +326,17 @@ def test_a_band_rule_page_has_the_sweep_of_tolerances(client, band_rule) -> None
     assert '<th scope="col" class="num">Tolerance</th>' in text
     assert 'for="sweep-tolerances">Tolerances' in text and 'name="tolerances"' in text
     rows = sweep_rows(text)
-    # the default grid: tolerances 2 to 8 by pending periods 0 to 30 min (10 min among them)
+    # the default grid: tolerances 2 to 8 by holds 0 to 30 min (10 min among them)
     assert {t for t, _ in rows} == {"2", "2.5", "3", "3.5", "4", "5", "6", "8"}
     assert len(rows) == 8 * 7
     assert current_setting(text)[:3] == ["3", "10 min", "1"]
 
 
 def test_a_band_rule_sweeps_the_readers_tolerances(client, band_rule) -> None:
-    url = f"/rules/{band_rule.id}/replay?tolerances=2.5,4&pendings=0,5min"
+    url = f"/rules/{band_rule.id}/replay?tolerances=2.5,4&holds=0,5min"
     text = html.unescape(client.get(url, headers={"HX-Request": "true"}).text)
     rows = sweep_rows(text)
-    # the current rule (3 for 10 min) always joins the grid: 3 tolerances x 3 pendings
+    # the current rule (3 for 10 min) always joins the grid: 3 tolerances x 3 holds
     assert len(rows) == 9
     assert {t for t, _ in rows} == {"2.5", "3", "4"}
     assert 'value="2.5,4"' in text
@@ -345,11 +345,11 @@ def test_a_band_rule_sweeps_the_readers_tolerances(client, band_rule) -> None:
 @pytest.mark.parametrize(
     ("query", "message"),
     [
-        ("tolerances=lots&pendings=0", "'lots' is not a number; list tolerances like 2, 3, 4."),
-        ("tolerances=0,2&pendings=0", "'0' is not above 0; a tolerance counts robust standard"),
-        ("tolerances=-1&pendings=0", "'-1' is not above 0"),
-        ("tolerances=&pendings=5min", "List at least one tolerance, e.g. 2, 3, 4."),
-        ("tolerances=2&pendings=soon", "is not a duration"),
+        ("tolerances=lots&holds=0", "'lots' is not a number; list tolerances like 2, 3, 4."),
+        ("tolerances=0,2&holds=0", "'0' is not above 0; a tolerance counts robust standard"),
+        ("tolerances=-1&holds=0", "'-1' is not above 0"),
+        ("tolerances=&holds=5min", "List at least one tolerance, e.g. 2, 3, 4."),
+        ("tolerances=2&holds=soon", "is not a duration"),
     ],
 )
 def test_bad_tolerances_are_explained_and_kept(client, band_rule, query, message) -> None:
@@ -415,7 +415,7 @@ def test_a_noisy_band_rule_is_drafted_to_a_quieter_tolerance(client, session, no
         kind="band",
         direction="both",
         tolerance=2.0,
-        pending_seconds=0,
+        hold_seconds=0,
     )
     session.commit()
     text = html.unescape(client.get(f"/rules/{rule.id}/replay").text)
@@ -423,7 +423,7 @@ def test_a_noisy_band_rule_is_drafted_to_a_quieter_tolerance(client, session, no
     assert "Verdict draft: tune" in text
     drafted = re.search(r"tolerance: ([\d.]+)", text)
     assert drafted and float(drafted.group(1)) > 2.0
-    assert f"With tolerance {float(drafted.group(1)):g} and a pending period of" in text
+    assert f"With tolerance {float(drafted.group(1)):g} and a hold of" in text
     assert "drafted setting" in text  # the drafted point is marked on the sweep figure
 
 

@@ -49,10 +49,10 @@ def test_page_times_must_be_times(session, series_id):
 
 def test_rules_round_trip_and_update(session, series_id):
     rule = rules.create_rule(
-        session, name="p95 high", series_id=series_id, threshold=800.0, pending_seconds=300
+        session, name="p95 high", series_id=series_id, threshold=800.0, hold_seconds=300
     )
     assert (rule.kind, rule.direction) == ("threshold", "above")
-    rules.update_rule(session, rule.id, threshold=900.0, step_seconds=60)
+    rules.update_rule(session, rule.id, threshold=900.0, check_every_seconds=60)
     assert rules.get_rule(session, rule.id).threshold == 900.0
     assert [r.name for r in rules.list_rules(session, series_id=series_id)] == ["p95 high"]
     rules.delete_rule(session, rule.id)
@@ -68,8 +68,11 @@ def test_rules_round_trip_and_update(session, series_id):
         ({"name": "r"}, "needs a finite threshold"),
         ({"name": "r", "threshold": float("inf")}, "needs a finite threshold"),
         ({"name": "r", "kind": "band", "tolerance": 0.0}, "tolerance above 0"),
-        ({"name": "r", "threshold": 1.0, "pending_seconds": -5}, "pending_seconds must be 0"),
-        ({"name": "r", "threshold": 1.0, "step_seconds": 0}, "step_seconds must be above 0"),
+        ({"name": "r", "threshold": 1.0, "hold_seconds": -5}, "hold_seconds must be 0"),
+        (
+            {"name": "r", "threshold": 1.0, "check_every_seconds": 0},
+            "check_every_seconds must be above 0",
+        ),
         ({"name": "r", "threshold": 1.0, "colour": "red"}, "unknown alert rule field.*colour"),
     ],
 )

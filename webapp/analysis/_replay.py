@@ -2,11 +2,11 @@
 
 Semantics (DESIGN.md). The condition is evaluated at every sample of an *evaluation grid*;
 a firing starts at the first sample at which the condition has held continuously for the
-pending period, and ends at the first later sample where it is false. ``end`` is NaT for a
+hold, and ends at the first later sample where it is false. ``end`` is NaT for a
 firing still going at the end of the data.
 
 The evaluation grid. Stored series are not always regular, so the rule is evaluated on a
-regular grid of the rule's ``step`` (when it has none, the series' own step: the median
+regular grid of the rule's ``check_every`` (when it has none, the series' own step: the median
 spacing of its timestamps, snapped to a round step as ``infer_step`` does). Grid times are
 multiples of the step counted from the Unix epoch, so series with the same step share one
 grid. The evaluation at grid time ``t`` sees the last sample in the step that ends at ``t``,
@@ -15,12 +15,12 @@ evaluated sample by sample, unchanged; a series sitting between grid times is ev
 the next grid time.
 
 Gaps. A grid step with no sample evaluates to "no data", and no data counts as false (as
-NaN does): a collector outage ends a firing, and when data returns the pending period
-starts again. With a grid step ``s`` and a pending period ``p`` a run of true evaluations
+NaN does): a collector outage ends a firing, and when data returns the hold
+starts again. With a grid step ``s`` and a hold ``p`` a run of true evaluations
 starting at ``t0`` fires at ``t0 + ceil(p / s) * s``, if the run lasts that long.
 
 Everything is vectorised: the condition is one boolean array, its runs come from one
-``diff``, and every pending period is a cut on the run lengths (the what-if sweep relies on
+``diff``, and every hold is a cut on the run lengths (the what-if sweep relies on
 that).
 """
 
@@ -64,17 +64,17 @@ def _format_duration(delta: pd.Timedelta) -> str:
 
 @dataclass(frozen=True)
 class ThresholdRule:
-    """Fire when the value is above (or below) a threshold for the pending period ``for_``.
+    """Fire when the value is above (or below) a threshold for the hold ``hold``.
 
-    Exactly one of ``above`` and ``below`` is given. ``step`` is the evaluation step (None:
+    Exactly one of ``above`` and ``below`` is given. ``check_every`` is the check interval (None:
     the series' own step). The comparison is strict: a value equal to the threshold is not
     above it.
     """
 
     above: float | None = None
     below: float | None = None
-    for_: pd.Timedelta = pd.Timedelta(0)
-    step: pd.Timedelta | None = None
+    hold: pd.Timedelta = pd.Timedelta(0)
+    check_every: pd.Timedelta | None = None
 
     def __post_init__(self) -> None:
         if (self.above is None) == (self.below is None):
@@ -86,7 +86,7 @@ class ThresholdRule:
             or not math.isfinite(limit)
         ):
             raise ValueError(f"the threshold must be a finite number, got {limit!r}")
-        _check_timing(self, self.for_, self.step)
+        _check_timing(self, self.hold, self.check_every)
 
     @property
     def direction(self) -> Literal["above", "below"]:
@@ -99,9 +99,9 @@ class ThresholdRule:
     @property
     def text(self) -> str:
         """The rule in words, e.g. ``above 800 for 10min``."""
-        out = f"{self.direction} {self.threshold:g} for {_format_duration(self.for_)}"
-        if self.step is not None:
-            out += f", evaluated every {_format_duration(self.step)}"
+        out = f"{self.direction} {self.threshold:g} for {_format_duration(self.hold)}"
+        if self.check_every is not None:
+            out += f", checked every {_format_duration(self.check_every)}"
         return out
 
     def condition(self, values: np.ndarray) -> np.ndarray:
@@ -114,7 +114,7 @@ class ThresholdRule:
 
 @dataclass(frozen=True)
 class BandRule:
-    """Fire when the value is outside the expected band at ``tolerance`` for ``for_``.
+    """Fire when the value is outside the expected band at ``tolerance`` for ``hold``.
 
     The band for each day (midnight to midnight on the ``tz`` wall clock) is fitted on the
     ``history`` before that day only, so replaying never looks ahead: what a day's firings
@@ -125,11 +125,11 @@ class BandRule:
     """
 
     tolerance: float = 3.0
-    for_: pd.Timedelta = pd.Timedelta(0)
+    hold: pd.Timedelta = pd.Timedelta(0)
     history: pd.Timedelta = pd.Timedelta(weeks=4)
     direction: Literal["both", "above", "below"] = "both"
     tz: str = "UTC"
-    step: pd.Timedelta | None = None
+    check_every: pd.Timedelta | None = None
     min_history: pd.Timedelta = pd.Timedelta(weeks=2)
 
     def __post_init__(self) -> None:
@@ -139,7 +139,7 @@ class BandRule:
             raise ValueError(
                 f"direction must be 'both', 'above' or 'below', got {self.direction!r}"
             )
-        _check_timing(self, self.for_, self.step)
+        _check_timing(self, self.hold, self.check_every)
         for name in ("history", "min_history"):
             delta = _as_timedelta(getattr(self, name), name)
             if delta <= pd.Timedelta(0):
@@ -155,44 +155,44 @@ class BandRule:
         where = {"both": "outside", "above": "above", "below": "below"}[self.direction]
         out = (
             f"{where} the expected band at tolerance {self.tolerance:g}"
-            f" for {_format_duration(self.for_)}"
+            f" for {_format_duration(self.hold)}"
         )
-        if self.step is not None:
-            out += f", evaluated every {_format_duration(self.step)}"
+        if self.check_every is not None:
+            out += f", checked every {_format_duration(self.check_every)}"
         return out
 
 
 Rule = ThresholdRule | BandRule
 
 
-def _check_timing(rule: Rule, for_: object, step: object) -> None:
-    pending = _as_timedelta(for_, "the pending period")
-    if pending < pd.Timedelta(0):
-        raise ValueError(f"the pending period must not be negative, got {pending}")
-    object.__setattr__(rule, "for_", pending)
-    if step is not None:
-        delta = _as_timedelta(step, "the evaluation step")
+def _check_timing(rule: Rule, hold: object, check_every: object) -> None:
+    hold = _as_timedelta(hold, "the hold")
+    if hold < pd.Timedelta(0):
+        raise ValueError(f"the hold must not be negative, got {hold}")
+    object.__setattr__(rule, "hold", hold)
+    if check_every is not None:
+        delta = _as_timedelta(check_every, "the check interval")
         if delta <= pd.Timedelta(0):
-            raise ValueError(f"the evaluation step must be positive, got {delta}")
-        object.__setattr__(rule, "step", delta)
+            raise ValueError(f"the check interval must be positive, got {delta}")
+        object.__setattr__(rule, "check_every", delta)
 
 
 def rule_from_fields(fields: dict) -> Rule:
     """Build a rule from stored alert-rule fields (``kind``, ``direction``, ``threshold``,
-    ``tolerance``, ``pending_seconds``, ``step_seconds``); raises ValueError when incomplete."""
+    ``tolerance``, ``hold_seconds``, ``check_every_seconds``); raises ValueError when incomplete."""
     kind = fields.get("kind") or "threshold"
-    pending = pd.Timedelta(seconds=int(fields.get("pending_seconds") or 0))
-    step_seconds = fields.get("step_seconds")
-    step = pd.Timedelta(seconds=int(step_seconds)) if step_seconds else None
+    hold = pd.Timedelta(seconds=int(fields.get("hold_seconds") or 0))
+    every_seconds = fields.get("check_every_seconds")
+    check_every = pd.Timedelta(seconds=int(every_seconds)) if every_seconds else None
     direction = fields.get("direction") or ("both" if kind == "band" else "above")
     if kind == "band":
         tolerance = fields.get("tolerance")
         return BandRule(
             tolerance=3.0 if tolerance is None else float(tolerance),
-            for_=pending,
+            hold=hold,
             direction=direction,
             tz=fields.get("tz") or "UTC",
-            step=step,
+            check_every=check_every,
         )
     if kind != "threshold":
         raise ValueError(f"unknown rule kind {kind!r}: expected 'threshold' or 'band'")
@@ -203,7 +203,7 @@ def rule_from_fields(fields: dict) -> Rule:
         raise ValueError(
             f"a threshold rule's direction must be 'above' or 'below', not {direction!r}"
         )
-    return ThresholdRule(**{direction: float(threshold)}, for_=pending, step=step)
+    return ThresholdRule(**{direction: float(threshold)}, hold=hold, check_every=check_every)
 
 
 def _clean(series: pd.Series) -> pd.Series:
@@ -226,12 +226,12 @@ def evaluation_grid(
     if step is None:
         if len(clean) < 2:
             raise ValueError(
-                "the series has a single sample: give the rule an evaluation step to replay it"
+                "the series has a single sample: give the rule a check interval to replay it"
             )
         step = infer_step(clean.index)
-    step = _as_timedelta(step, "the evaluation step")
+    step = _as_timedelta(step, "the check interval")
     if step <= pd.Timedelta(0):
-        raise ValueError(f"the evaluation step must be positive, got {step}")
+        raise ValueError(f"the check interval must be positive, got {step}")
     step_ns = int(step.value)
     ns = clean.index.as_unit("ns").asi8
     bucket = -(-ns // step_ns)
@@ -239,7 +239,7 @@ def evaluation_grid(
     size = int(bucket[-1]) - first + 1
     if size > _MAX_GRID:
         raise ValueError(
-            f"an evaluation step of {step} over {clean.index[-1] - clean.index[0]} gives "
+            f"a check interval of {step} over {clean.index[-1] - clean.index[0]} gives "
             f"{size:,} evaluations; choose a longer step"
         )
     values = np.full(size, np.nan)
@@ -258,9 +258,9 @@ def runs(condition: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.flatnonzero(change == 1), np.flatnonzero(change == -1)
 
 
-def pending_samples(pending: pd.Timedelta, step: pd.Timedelta) -> int:
-    """How many evaluations after a run starts it fires: ceil(pending / step)."""
-    return int(-(-int(pd.Timedelta(pending).value) // int(step.value)))
+def hold_samples(hold: pd.Timedelta, step: pd.Timedelta) -> int:
+    """How many evaluations after a run starts it fires: ceil(hold / step)."""
+    return int(-(-int(pd.Timedelta(hold).value) // int(step.value)))
 
 
 def fire_indices(
@@ -275,7 +275,7 @@ def firing_times(
     times: pd.DatetimeIndex, starts: np.ndarray, ends: np.ndarray
 ) -> tuple[pd.DatetimeIndex, pd.DatetimeIndex]:
     """Start and end timestamps of firings given as grid indices; an end index past the grid
-    (still firing when the data ends) becomes NaT."""
+    (still raised when the data ends) becomes NaT."""
     last = len(times) - 1
     end_times = times[np.minimum(ends, last)].where(ends <= last)
     return times[starts], end_times
@@ -377,7 +377,7 @@ def band_grid(series: pd.Series, rule: BandRule, exclude: Iterable = ()) -> Band
     """The grid a band rule is evaluated on. It starts at the first day that has a band:
     the days before it could not have fired, and counting them would understate pages
     per week. Raises ValueError when no day has enough history."""
-    times, values, step = evaluation_grid(series, rule.step)
+    times, values, step = evaluation_grid(series, rule.check_every)
     expected, scale = band_centre(times, step, series, rule, exclude)
     banded = np.flatnonzero(np.isfinite(expected) & np.isfinite(scale))
     if banded.size == 0:
@@ -398,7 +398,7 @@ def evaluate(
     rule's grid already built by ``band_grid(series, rule, exclude)``, so a report and a
     sweep of the same rule fit the daily bands once."""
     if isinstance(rule, ThresholdRule):
-        times, values, step = evaluation_grid(series, rule.step)
+        times, values, step = evaluation_grid(series, rule.check_every)
         return times, rule.condition(values), step
     if isinstance(rule, BandRule):
         grid = bands if bands is not None else band_grid(series, rule, exclude)
@@ -416,5 +416,5 @@ def replay(series: pd.Series, rule: Rule, exclude: Iterable = ()) -> pd.DataFram
     """
     times, condition, step = evaluate(series, rule, exclude)
     run_starts, run_ends = runs(condition)
-    starts, ends = fire_indices(run_starts, run_ends, pending_samples(rule.for_, step))
+    starts, ends = fire_indices(run_starts, run_ends, hold_samples(rule.hold, step))
     return _firings_frame(times, starts, ends)

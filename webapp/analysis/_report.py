@@ -1,7 +1,7 @@
 """The replay report: a rule's firings measured against the incidents a team recorded.
 
 Definitions (the what-if sweep and the verdict use the same ones):
-- A firing *overlaps* an incident when it is firing at some moment between the incident's
+- A firing *overlaps* an incident when it is raised at some moment between the incident's
   start minus ``lead`` and its end. The firing's ``incident`` is the first one it overlaps;
   firings that overlap none are the ones that paged for nothing recorded.
 - A rule *caught* an incident when a firing started between the incident's start minus
@@ -29,7 +29,7 @@ from webapp.analysis._replay import (
     evaluate,
     fire_indices,
     firing_times,
-    pending_samples,
+    hold_samples,
     runs,
 )
 
@@ -106,7 +106,7 @@ class ReplayReport:
     weeks: float
     pages_per_week: float
     median_duration: pd.Timedelta | None
-    time_firing: pd.Timedelta
+    time_raised: pd.Timedelta
     flapping: int
     inside: int
     outside: int
@@ -165,7 +165,7 @@ class ReplayReport:
             "n_firings": self.n_firings,
             "pages_per_week": round(self.pages_per_week, 4),
             "median_duration_seconds": _seconds(self.median_duration),
-            "time_firing_seconds": _seconds(self.time_firing),
+            "time_raised_seconds": _seconds(self.time_raised),
             "flapping": self.flapping,
             "inside": self.inside,
             "outside": self.outside,
@@ -218,7 +218,7 @@ def replay_report(
     windows = incident_windows(incidents)
     times, condition, step = evaluate(series, rule, exclude, bands)
     run_starts, run_ends = runs(condition)
-    first_idx, end_idx = fire_indices(run_starts, run_ends, pending_samples(rule.for_, step))
+    first_idx, end_idx = fire_indices(run_starts, run_ends, hold_samples(rule.hold, step))
     grid_ns = times.asi8
     step_ns = int(step.value)
     data_end_ns = int(grid_ns[-1]) + step_ns
@@ -272,7 +272,7 @@ def replay_report(
         weeks=float(weeks),
         pages_per_week=float(len(firings) / weeks) if weeks > 0 else math.nan,
         median_duration=finished.median() if len(finished) else None,
-        time_firing=pd.Timedelta(int((stop_ns - start_ns).sum()), unit="ns"),
+        time_raised=pd.Timedelta(int((stop_ns - start_ns).sum()), unit="ns"),
         flapping=int((gaps <= int(flap_gap.value)).sum()),
         inside=int((incident_of >= 0).sum()),
         outside=int((incident_of < 0).sum()),

@@ -1,7 +1,7 @@
 """A drafted verdict on an alert rule: keep, tune (with new parameters) or retire.
 
 The draft is built from a replay report and a what-if sweep (thresholds, or for a band rule
-tolerances, by pending periods):
+tolerances, by holds):
 - *tune* when some setting in the sweep catches every incident the current rule caught
   with fewer firings (the setting with the fewest pages wins; ties go to the shorter median
   delay, then to the setting closest to the current one). "Fewer" means at least one page
@@ -76,8 +76,10 @@ def _duration(delta: pd.Timedelta | None) -> str:
 def rule_parameters(rule: Rule) -> dict[str, Any]:
     """A rule's parameters in the stored alert-rule field names."""
     common = {
-        "pending_seconds": int(rule.for_.total_seconds()),
-        "step_seconds": None if rule.step is None else int(rule.step.total_seconds()),
+        "hold_seconds": int(rule.hold.total_seconds()),
+        "check_every_seconds": None
+        if rule.check_every is None
+        else int(rule.check_every.total_seconds()),
     }
     if isinstance(rule, ThresholdRule):
         return {
@@ -101,7 +103,7 @@ def _quietest(candidates: pd.DataFrame, rule: Rule) -> pd.Series:
     setting closest to the current one."""
     column, current = _knob(rule)
     closeness = (candidates[column] - current).abs() / max(abs(current), 1e-12)
-    closeness += (candidates["pending"] - rule.for_).abs() / pd.Timedelta(hours=1)
+    closeness += (candidates["hold"] - rule.hold).abs() / pd.Timedelta(hours=1)
     ranked = candidates.assign(
         _delay=candidates["median_delay"].fillna(pd.Timedelta.max),
         _close=closeness,
@@ -200,11 +202,11 @@ def draft_verdict(report: ReplayReport, sweep: pd.DataFrame | None, rule: Rule) 
         parameters = {
             **current,
             column: float(best[column]),
-            "pending_seconds": int(best["pending"].total_seconds()),
+            "hold_seconds": int(best["hold"].total_seconds()),
         }
         sentences.append(
-            f"With {column} {best[column]:g} and a pending period of "
-            f"{_format_duration(best['pending'])}, it would have fired "
+            f"With {column} {best[column]:g} and a hold of "
+            f"{_format_duration(best['hold'])}, it would have fired "
             f"{_plural(int(best['firings']), 'time')} ({best['pages_per_week']:.1f} per week) "
             f"and still caught every incident the current rule caught "
             f"(median delay {_duration(best['median_delay'])})."
@@ -246,7 +248,7 @@ def _catches_more(report: ReplayReport, sweep: pd.DataFrame, rule: Rule) -> list
     in_range = sum(1 for i in report.incidents if i["in_range"])
     return [
         f"Of the what-if settings that catch the most incidents, the quietest ({column} "
-        f"{best[column]:g}, pending period {_format_duration(best['pending'])}) catches "
+        f"{best[column]:g}, hold {_format_duration(best['hold'])}) catches "
         f"{best['incidents_caught']} of the {in_range} recorded incidents at "
         f"{best['pages_per_week']:.1f} pages per week."
     ]

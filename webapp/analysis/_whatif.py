@@ -1,9 +1,9 @@
 """What-if: how a rule would have behaved with other thresholds (or band tolerances) and
-pending periods.
+holds.
 
 The series is put on its evaluation grid once; each threshold gives one condition array and
-its runs; each pending period is then only a cut on those run lengths. So a sweep of
-``T`` thresholds and ``P`` pending periods costs ``T`` comparisons over the data plus
+its runs; each hold is then only a cut on those run lengths. So a sweep of
+``T`` thresholds and ``P`` holds costs ``T`` comparisons over the data plus
 ``T x P`` operations over the runs, not ``T x P`` replays. Firings, delays and incidents
 follow the definitions of the replay report (``webapp.analysis._report``).
 
@@ -11,7 +11,7 @@ A band rule's sweep fits the daily bands once: the band at tolerance ``k`` is ex
 ``k`` x scale, so only the comparison changes with ``k``.
 
 Two things must hold and are tested: for an "above" rule a higher threshold (for a band
-rule a higher tolerance), and for any rule a longer pending period, never gives more total
+rule a higher tolerance), and for any rule a longer hold, never gives more total
 time firing. The number of firings
 can move either way (a higher threshold can split one firing into two).
 """
@@ -32,17 +32,17 @@ from webapp.analysis._replay import (
     band_grid,
     evaluation_grid,
     fire_indices,
-    pending_samples,
+    hold_samples,
     runs,
 )
 from webapp.analysis._report import DEFAULT_LEAD, WEEK, _bounds_ns, catches, incident_windows
 
 SWEEP_COLUMNS = [
     "threshold",
-    "pending",
+    "hold",
     "firings",
     "pages_per_week",
-    "time_firing",
+    "time_raised",
     "incidents_caught",
     "incidents_missed",
     "median_delay",
@@ -61,34 +61,34 @@ def _check_thresholds(thresholds: Iterable[float]) -> np.ndarray:
     return np.unique(values)
 
 
-def _check_pendings(pendings: Iterable[object]) -> list[pd.Timedelta]:
-    out = sorted({pd.Timedelta(p) for p in pendings})
+def _check_holds(holds: Iterable[object]) -> list[pd.Timedelta]:
+    out = sorted({pd.Timedelta(p) for p in holds})
     if not out or out[0] < pd.Timedelta(0) or any(pd.isna(p) for p in out):
-        raise ValueError("give at least one pending period, none negative")
+        raise ValueError("give at least one hold, none negative")
     return out
 
 
 def whatif_sweep(
     series: pd.Series,
     thresholds: Iterable[float],
-    pendings: Iterable[object],
+    holds: Iterable[object],
     incidents: Iterable[object] | None = None,
     direction: str = "above",
-    step: pd.Timedelta | None = None,
+    check_every: pd.Timedelta | None = None,
     lead: pd.Timedelta = DEFAULT_LEAD,
 ) -> pd.DataFrame:
-    """One row per (threshold, pending) of a threshold rule: columns in ``SWEEP_COLUMNS``.
+    """One row per (threshold, hold) of a threshold rule: columns in ``SWEEP_COLUMNS``.
 
-    ``pending`` and ``time_firing`` are Timedeltas, ``median_delay`` a Timedelta or NaT,
+    ``hold`` and ``time_raised`` are Timedeltas, ``median_delay`` a Timedelta or NaT,
     ``caught`` the tuple of caught incident indices. Rows are sorted by threshold, then
-    pending period.
+    hold.
     """
     if direction not in ("above", "below"):
         raise ValueError(f"direction must be 'above' or 'below', got {direction!r}")
     levels = _check_thresholds(thresholds)
-    waits = _check_pendings(pendings)
+    waits = _check_holds(holds)
     windows = incident_windows(incidents)
-    times, values, step = evaluation_grid(series, step)
+    times, values, step = evaluation_grid(series, check_every)
 
     def condition(level: float) -> np.ndarray:
         with np.errstate(invalid="ignore"):
@@ -101,13 +101,13 @@ def band_sweep(
     series: pd.Series,
     rule: BandRule,
     tolerances: Iterable[float],
-    pendings: Iterable[object],
+    holds: Iterable[object],
     incidents: Iterable[object] | None = None,
     exclude: Iterable[object] = (),
     lead: pd.Timedelta = DEFAULT_LEAD,
     bands: BandGrid | None = None,
 ) -> pd.DataFrame:
-    """The what-if sweep of a band rule over tolerances and pending periods.
+    """The what-if sweep of a band rule over tolerances and holds.
 
     The daily bands are fitted once (they do not depend on the tolerance: the band at
     tolerance ``k`` is expected -/+ ``k`` x scale), so a sweep costs one band replay, or none
@@ -119,7 +119,7 @@ def band_sweep(
     levels = _check_thresholds(tolerances)
     if levels[0] <= 0:
         raise ValueError("tolerances must be positive")
-    waits = _check_pendings(pendings)
+    waits = _check_holds(holds)
     windows = incident_windows(incidents)
     grid = bands if bands is not None else band_grid(series, rule, exclude)
 
@@ -139,14 +139,14 @@ def _sweep(
     lead: pd.Timedelta,
     level_name: str,
 ) -> pd.DataFrame:
-    """The sweep proper: one condition and its runs per level, one cut per pending period."""
+    """The sweep proper: one condition and its runs per level, one cut per hold."""
     inc_start, inc_end = _bounds_ns(windows)
     grid_ns = times.asi8
     step_ns = int(step.value)
     data_end_ns = int(grid_ns[-1]) + step_ns
     in_range = (inc_start < data_end_ns) & (inc_end >= grid_ns[0])
     weeks = (data_end_ns - int(grid_ns[0])) / WEEK.value
-    cuts = [pending_samples(p, step) for p in waits]
+    cuts = [hold_samples(p, step) for p in waits]
     rows = []
     for level in levels:
         run_starts, run_ends = runs(condition(float(level)))
@@ -170,7 +170,7 @@ def _sweep(
             )
     names = [level_name, *SWEEP_COLUMNS[1:]]
     columns = dict(zip(names, zip(*rows, strict=True), strict=True))
-    durations = {"pending", "time_firing", "median_delay"}
+    durations = {"hold", "time_raised", "median_delay"}
     return pd.DataFrame(
         {
             name: pd.Series(list(values), dtype="timedelta64[ns]" if name in durations else None)
@@ -189,13 +189,13 @@ DEFAULT_TOLERANCES = (2.0, 2.5, 3.0, 3.5, 4.0, 5.0, 6.0, 8.0)
 
 
 def sweep_grid(series: pd.Series, rule: Rule) -> tuple[list[float], list[pd.Timedelta]]:
-    """A sensible default grid around ``rule``: pending periods from none to 30 minutes plus
+    """A sensible default grid around ``rule``: holds from none to 30 minutes plus
     the current one; for a threshold rule, thresholds from half to twice the current one
     plus the series' upper (or lower) tail quantiles; for a band rule, tolerances from 2 to 8
     plus the current one."""
-    pendings: Sequence[pd.Timedelta] = sorted(set(DEFAULT_PENDINGS) | {rule.for_})
+    holds: Sequence[pd.Timedelta] = sorted(set(DEFAULT_PENDINGS) | {rule.hold})
     if isinstance(rule, BandRule):
-        return sorted(set(DEFAULT_TOLERANCES) | {float(rule.tolerance)}), list(pendings)
+        return sorted(set(DEFAULT_TOLERANCES) | {float(rule.tolerance)}), list(holds)
     if not isinstance(rule, ThresholdRule):
         raise ValueError(f"no what-if sweep for {type(rule).__name__}")
     values = series.to_numpy(dtype=float)
@@ -208,4 +208,4 @@ def sweep_grid(series: pd.Series, rule: Rule) -> tuple[list[float], list[pd.Time
     if values.size:
         levels |= {float(q) for q in np.quantile(values, quantiles)}
     thresholds = sorted({_round_sig(v) for v in levels} | {rule.threshold})
-    return thresholds, list(pendings)
+    return thresholds, list(holds)

@@ -142,8 +142,8 @@ class AlertRule(Base):
     direction: Mapped[str] = mapped_column(String(10), default="above")  # above | below
     threshold: Mapped[float | None] = mapped_column(Float)
     tolerance: Mapped[float | None] = mapped_column(Float)
-    pending_seconds: Mapped[int] = mapped_column(Integer, default=0)
-    step_seconds: Mapped[int | None] = mapped_column(Integer)
+    hold_seconds: Mapped[int] = mapped_column(Integer, default=0)
+    check_every_seconds: Mapped[int | None] = mapped_column(Integer)
     description: Mapped[str] = mapped_column(Text, default="")
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
 

@@ -21,7 +21,7 @@ def create_page(
     alert_rule_id: int | None = None,
     note: str = "",
 ) -> Page:
-    """Record a page; ``resolved_at`` may be None (still firing or unknown)."""
+    """Record a page; ``resolved_at`` may be None (still raised or unknown)."""
     fired = utc(fired_at)
     resolved = utc(resolved_at) if resolved_at is not None else None
     if resolved is not None and resolved < fired:

@@ -469,10 +469,7 @@ def parse_parameters(text: str) -> dict[str, Any]:
         name, sep, value = line.partition(":")
         if not sep or not name.strip():
             raise ReviewInvalid(
-                {
-                    "verdict_parameters": f"Line {number} should read name: value, "
-                    "e.g. pending: 10min."
-                }
+                {"verdict_parameters": f"Line {number} should read name: value, e.g. hold: 10min."}
             )
         value = value.strip()
         try:

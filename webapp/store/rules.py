@@ -22,8 +22,8 @@ FIELDS = (
     "direction",
     "threshold",
     "tolerance",
-    "pending_seconds",
-    "step_seconds",
+    "hold_seconds",
+    "check_every_seconds",
     "description",
 )
 
@@ -44,10 +44,12 @@ def _check(rule: AlertRule) -> None:
         raise ValueError(f"a threshold rule needs a finite threshold, got {rule.threshold!r}")
     if rule.kind == "band" and not (_finite(rule.tolerance) and rule.tolerance > 0):
         raise ValueError(f"a band rule needs a tolerance above 0, got {rule.tolerance!r}")
-    if rule.pending_seconds is None or rule.pending_seconds < 0:
-        raise ValueError(f"pending_seconds must be 0 or more, got {rule.pending_seconds!r}")
-    if rule.step_seconds is not None and rule.step_seconds <= 0:
-        raise ValueError(f"step_seconds must be above 0 when given, got {rule.step_seconds!r}")
+    if rule.hold_seconds is None or rule.hold_seconds < 0:
+        raise ValueError(f"hold_seconds must be 0 or more, got {rule.hold_seconds!r}")
+    if rule.check_every_seconds is not None and rule.check_every_seconds <= 0:
+        raise ValueError(
+            f"check_every_seconds must be above 0 when given, got {rule.check_every_seconds!r}"
+        )
 
 
 def _finite(value: Any) -> bool:
@@ -64,7 +66,7 @@ def _assign(rule: AlertRule, fields: dict[str, Any]) -> None:
 
 def create_rule(session: Session, **fields: Any) -> AlertRule:
     """Add an alert rule from the fields named in :data:`FIELDS`."""
-    rule = AlertRule(kind="threshold", direction="above", pending_seconds=0, label_filter={})
+    rule = AlertRule(kind="threshold", direction="above", hold_seconds=0, label_filter={})
     _assign(rule, fields)
     _check(rule)
     session.add(rule)

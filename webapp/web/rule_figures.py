@@ -14,7 +14,7 @@ from webapp.web.downsample import minmax_indices, reduce_together
 from webapp.web.figures import FONT, wall_clock
 
 MAX_SHADES = 300
-# Pending periods are told apart by marker shape as well as colour.
+# Holds are told apart by marker shape as well as colour.
 SYMBOLS = ("circle", "square", "diamond", "triangle-up", "cross", "x", "pentagon", "hexagon")
 COLOURS = tuple(c for c in palette.OKABE_ITO if c not in (palette.YELLOW, palette.BLACK))
 
@@ -146,14 +146,14 @@ def sweep_figure(
     current: tuple[float, pd.Timedelta] | None = None,
     drafted: tuple[float, pd.Timedelta] | None = None,
 ) -> go.Figure:
-    """Pages per week against incidents caught, one line per pending period along which the
+    """Pages per week against incidents caught, one line per hold along which the
     sweep's level changes: the threshold, or a band rule's tolerance (the sweep's first
-    column). ``current`` and ``drafted`` are (level, pending period) points to mark."""
+    column). ``current`` and ``drafted`` are (level, hold) points to mark."""
     level = level_column(sweep)
     fig = go.Figure()
-    for i, (pending, rows) in enumerate(sweep.groupby("pending", sort=True)):
+    for i, (hold, rows) in enumerate(sweep.groupby("hold", sort=True)):
         rows = rows.sort_values(level)
-        label = f"pending {short_duration(pending)}" if pending else "no pending period"
+        label = f"hold {short_duration(hold)}" if hold else "no hold"
         fig.add_trace(
             go.Scatter(
                 x=rows["pages_per_week"],
@@ -183,7 +183,7 @@ def sweep_figure(
                     name=name,
                     marker={"symbol": symbol, "size": 18, "color": colour, "line": {"width": 2}},
                     hovertemplate=f"{name}: {level} {row[level]:.4g}, "
-                    f"pending {short_duration(row['pending'])}<extra></extra>",
+                    f"hold {short_duration(row['hold'])}<extra></extra>",
                 )
             )
     _layout(fig, 380, "pages per week (double-click to see every setting)", "incidents caught")
@@ -200,7 +200,7 @@ def _pages_range(sweep: pd.DataFrame, *points: tuple[float, pd.Timedelta] | None
 
 
 def level_column(sweep: pd.DataFrame) -> str:
-    """What a what-if sweep varies besides the pending period: its first column, "threshold"
+    """What a what-if sweep varies besides the hold: its first column, "threshold"
     (``whatif_sweep``) or "tolerance" (``band_sweep``)."""
     return str(sweep.columns[0])
 
@@ -209,7 +209,7 @@ def _row(sweep: pd.DataFrame, point: tuple[float, pd.Timedelta] | None) -> pd.Se
     if point is None:
         return None
     level = level_column(sweep)
-    match = sweep[np.isclose(sweep[level], point[0]) & (sweep["pending"] == point[1])]
+    match = sweep[np.isclose(sweep[level], point[0]) & (sweep["hold"] == point[1])]
     return None if match.empty else match.iloc[0]
 
 

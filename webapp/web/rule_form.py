@@ -91,10 +91,10 @@ def parse_rule_form(session: Session, form: Mapping[str, str]) -> dict[str, Any]
             errors[name] = "The tolerance is a number of robust standard deviations above 0."
         else:
             fields[name] = float(raw)
-    fields["pending_seconds"] = parse_duration(
-        form.get("pending", ""), "pending", errors, optional=False
+    fields["hold_seconds"] = parse_duration(form.get("hold", ""), "hold", errors, optional=False)
+    fields["check_every_seconds"] = parse_duration(
+        form.get("check_every", ""), "check_every", errors, optional=True
     )
-    fields["step_seconds"] = parse_duration(form.get("step", ""), "step", errors, optional=True)
     if errors:
         raise RuleFormInvalid(errors)
     return fields
@@ -124,7 +124,7 @@ def rule_form_values(rule: AlertRule | None) -> dict[str, str]:
             "kind": "threshold",
             "direction": "above",
             "target": "series",
-            "pending": "0",
+            "hold": "0",
             "tolerance": "3",
         }
     return {
@@ -137,18 +137,18 @@ def rule_form_values(rule: AlertRule | None) -> dict[str, str]:
         "label_filter": ", ".join(f"{k}={v}" for k, v in (rule.label_filter or {}).items()),
         "threshold": "" if rule.threshold is None else f"{rule.threshold:g}",
         "tolerance": "" if rule.tolerance is None else f"{rule.tolerance:g}",
-        "pending": f"{rule.pending_seconds}s",
-        "step": f"{rule.step_seconds}s" if rule.step_seconds else "",
+        "hold": f"{rule.hold_seconds}s",
+        "check_every": f"{rule.check_every_seconds}s" if rule.check_every_seconds else "",
         "description": rule.description or "",
     }
 
 
-MAX_LEVELS, MAX_PENDINGS = 40, 12
+MAX_LEVELS, MAX_HOLDS = 40, 12
 EXAMPLES = {"threshold": "600, 700, 800", "tolerance": "2, 3, 4"}
 
 
 def sweep_level(kind: str | None) -> str:
-    """The setting a rule's what-if sweep varies besides the pending period."""
+    """The setting a rule's what-if sweep varies besides the hold."""
     return "tolerance" if kind == "band" else "threshold"
 
 
@@ -156,11 +156,11 @@ def parse_sweep(
     args: Mapping[str, str], level: str = "threshold"
 ) -> tuple[tuple[list[float], list[pd.Timedelta]] | None, dict[str, str]]:
     """A what-if grid typed by the reader: ``thresholds`` (numbers), or for ``level``
-    "tolerance" ``tolerances`` (numbers above 0), and ``pendings`` (durations), each separated
+    "tolerance" ``tolerances`` (numbers above 0), and ``holds`` (durations), each separated
     by commas or spaces. None when neither is given."""
     errors: dict[str, str] = {}
     field, example = f"{level}s", EXAMPLES[level]
-    raw_l, raw_p = args.get(field, "").strip(), args.get("pendings", "").strip()
+    raw_l, raw_p = args.get(field, "").strip(), args.get("holds", "").strip()
     if not raw_l and not raw_p:
         return None, errors
     levels = []
@@ -175,18 +175,18 @@ def parse_sweep(
             )
             break
         levels.append(float(word))
-    pendings = []
+    holds = []
     for word in raw_p.replace(",", " ").split():
-        seconds = parse_duration(word, "pendings", errors, optional=False)
+        seconds = parse_duration(word, "holds", errors, optional=False)
         if seconds is None:
             break
-        pendings.append(pd.Timedelta(seconds=seconds))
+        holds.append(pd.Timedelta(seconds=seconds))
     if not levels and field not in errors:
         errors[field] = f"List at least one {level}, e.g. {example}."
-    if not pendings and "pendings" not in errors:
-        errors["pendings"] = "List at least one pending period, e.g. 0, 5min, 10min."
+    if not holds and "holds" not in errors:
+        errors["holds"] = "List at least one hold, e.g. 0, 5min, 10min."
     if len(levels) > MAX_LEVELS:
         errors[field] = f"At most {MAX_LEVELS} {field} at once."
-    if len(pendings) > MAX_PENDINGS:
-        errors["pendings"] = f"At most {MAX_PENDINGS} pending periods at once."
-    return (None if errors else (levels, pendings)), errors
+    if len(holds) > MAX_HOLDS:
+        errors["holds"] = f"At most {MAX_HOLDS} holds at once."
+    return (None if errors else (levels, holds)), errors

@@ -97,7 +97,7 @@ def run_replay(
     this series (``scope="series"``). A band rule's bands leave out the series' excluded
     periods, so past incidents do not teach the band what is expected.
 
-    ``grid`` (thresholds, or a band rule's tolerances, and pending periods) replaces the
+    ``grid`` (thresholds, or a band rule's tolerances, and holds) replaces the
     default what-if sweep; the current rule's own setting is always part of it. Raises
     ValueError with a readable message when the rule or the data cannot be replayed."""
     if scope not in INCIDENT_SCOPES:
@@ -120,12 +120,12 @@ def run_replay(
     )
     figs = {"replay": figure_div(replay_fig, "replay-figure", False)}
     level = rule_figures.level_column(sweep)
-    current = (getattr(analysed, level), analysed.for_)
+    current = (getattr(analysed, level), analysed.hold)
     drafted = None
     if draft.suggestion == "tune":
         drafted = (
             draft.parameters[level],
-            pd.Timedelta(seconds=draft.parameters["pending_seconds"]),
+            pd.Timedelta(seconds=draft.parameters["hold_seconds"]),
         )
     figs["sweep"] = figure_div(
         rule_figures.sweep_figure(sweep, current, drafted), "sweep-figure", False
@@ -142,10 +142,12 @@ def _whatif(
     bands: BandGrid | None = None,
 ) -> tuple[pd.DataFrame, tuple[list[float], list[pd.Timedelta]]]:
     """The what-if sweep around ``rule`` and the grid it used (its own setting included)."""
-    levels, pendings = grid or sweep_grid(values, rule)
+    levels, holds = grid or sweep_grid(values, rule)
     current = rule.threshold if isinstance(rule, ThresholdRule) else float(rule.tolerance)
-    used = (sorted({*levels, current}), sorted({*pendings, rule.for_}))
+    used = (sorted({*levels, current}), sorted({*holds, rule.hold}))
     if isinstance(rule, BandRule):
         return band_sweep(values, rule, *used, incidents, exclude, bands=bands), used
-    sweep = whatif_sweep(values, *used, incidents, direction=rule.direction, step=rule.step)
+    sweep = whatif_sweep(
+        values, *used, incidents, direction=rule.direction, check_every=rule.check_every
+    )
     return sweep, used

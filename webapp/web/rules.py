@@ -166,14 +166,14 @@ def _show(
 def _sweep_values(replay: Replay | None, args: Mapping[str, str], field: str) -> dict[str, str]:
     """What the what-if form shows: the reader's own text, else the grid the sweep used.
     ``field`` names the levels: "thresholds", or "tolerances" for a band rule."""
-    if field in args or "pendings" in args:
-        return {field: args.get(field, ""), "pendings": args.get("pendings", "")}
+    if field in args or "holds" in args:
+        return {field: args.get(field, ""), "holds": args.get("holds", "")}
     if replay is None:
         return {}
-    levels, pendings = replay.grid
+    levels, holds = replay.grid
     return {
         field: ", ".join(f"{t:g}" for t in levels),
-        "pendings": ", ".join(short_duration(p) for p in pendings),
+        "holds": ", ".join(short_duration(p) for p in holds),
     }
 
 
