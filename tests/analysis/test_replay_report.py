@@ -128,7 +128,7 @@ def test_no_firings_gives_zeros_and_no_median():
     ("incidents", "message"),
     [
         ([(at(10), at(5))], "incident 1 ends .* before it starts"),
-        ([("yesterday", at(5))], "incident 1 start: expected a timestamp"),
+        ([("yesterday", at(5))], "incident 1 start: expected a date and time"),
         ([at(5)], r"incident 1: expected \(start, end\)"),
     ],
 )

@@ -16,7 +16,7 @@ from webapp.analysis import (
     replay_report,
     whatif_sweep,
 )
-from webapp.analysis._verdict import OWNER_DECIDES
+from webapp.analysis.vocabulary import OWNER_DECIDES
 
 T0 = pd.Timestamp("2026-03-02 00:00", tz="UTC")
 MIN = pd.Timedelta(minutes=1)

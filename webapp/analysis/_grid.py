@@ -15,6 +15,8 @@ from typing import Literal
 import numpy as np
 import pandas as pd
 
+from webapp.analysis.times import to_utc as to_utc  # re-exported: the core reads times one way
+
 ROUND_STEPS = [
     pd.Timedelta(s)
     for s in [
@@ -174,14 +176,3 @@ def find_gaps(regular: pd.Series) -> list[tuple[pd.Timestamp, pd.Timestamp]]:
         end = index[b] if b < len(index) else index[-1] + step
         gaps.append((index[a], end))
     return gaps
-
-
-def to_utc(value) -> pd.Timestamp:
-    """A timestamp in UTC; naive values are taken as UTC."""
-    try:
-        ts = pd.Timestamp(value)
-    except (TypeError, ValueError) as err:
-        raise ValueError(f"not a timestamp: {value!r} ({err})") from None
-    if ts is pd.NaT:
-        raise ValueError(f"not a timestamp: {value!r}")
-    return ts.tz_localize("UTC") if ts.tz is None else ts.tz_convert("UTC")

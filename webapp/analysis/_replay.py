@@ -36,6 +36,7 @@ import pandas as pd
 
 from webapp.analysis._band import expected_band, fit_baseline, mask_excluded
 from webapp.analysis._grid import as_utc_series, infer_step, regularize
+from webapp.analysis.times import short_duration
 
 __all__ = ["ThresholdRule", "BandRule", "replay", "evaluation_grid", "rule_from_fields"]
 
@@ -50,16 +51,6 @@ def _as_timedelta(value: object, name: str) -> pd.Timedelta:
     if pd.isna(delta):
         raise ValueError(f"{name} must be a duration, got NaT")
     return delta
-
-
-def _format_duration(delta: pd.Timedelta) -> str:
-    seconds = int(delta.total_seconds())
-    if seconds == 0:
-        return "0s"
-    for unit, size in (("d", 86400), ("h", 3600), ("min", 60)):
-        if seconds % size == 0:
-            return f"{seconds // size}{unit}"
-    return f"{seconds}s"
 
 
 @dataclass(frozen=True)
@@ -99,9 +90,9 @@ class ThresholdRule:
     @property
     def text(self) -> str:
         """The rule in words, e.g. ``above 800 for 10min``."""
-        out = f"{self.direction} {self.threshold:g} for {_format_duration(self.hold)}"
+        out = f"{self.direction} {self.threshold:g} for {short_duration(self.hold)}"
         if self.check_every is not None:
-            out += f", checked every {_format_duration(self.check_every)}"
+            out += f", checked every {short_duration(self.check_every)}"
         return out
 
     def condition(self, values: np.ndarray) -> np.ndarray:
@@ -155,10 +146,10 @@ class BandRule:
         where = {"both": "outside", "above": "above", "below": "below"}[self.direction]
         out = (
             f"{where} the expected band at tolerance {self.tolerance:g}"
-            f" for {_format_duration(self.hold)}"
+            f" for {short_duration(self.hold)}"
         )
         if self.check_every is not None:
-            out += f", checked every {_format_duration(self.check_every)}"
+            out += f", checked every {short_duration(self.check_every)}"
         return out
 
 
@@ -382,9 +373,9 @@ def band_grid(series: pd.Series, rule: BandRule, exclude: Iterable = ()) -> Band
     banded = np.flatnonzero(np.isfinite(expected) & np.isfinite(scale))
     if banded.size == 0:
         raise ValueError(
-            f"a band rule needs at least {_format_duration(rule.min_history)} of data before "
+            f"a band rule needs at least {short_duration(rule.min_history)} of data before "
             f"a day to build that day's band; this series covers "
-            f"{_format_duration(times[-1] - times[0] + step)}"
+            f"{short_duration(times[-1] - times[0] + step)}"
         )
     first = int(banded[0])
     return BandGrid(times[first:], values[first:], expected[first:], scale[first:], step)

@@ -16,13 +16,14 @@ Definitions (the what-if sweep and the verdict use the same ones):
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
+from webapp.analysis._incidents import DEFAULT_LEAD, WEEK, bounds_ns, catches, incident_windows
 from webapp.analysis._replay import (
     BandGrid,
     Rule,
@@ -33,66 +34,7 @@ from webapp.analysis._replay import (
     runs,
 )
 
-DEFAULT_LEAD = pd.Timedelta(minutes=15)
 DEFAULT_FLAP_GAP = pd.Timedelta(hours=1)
-WEEK = pd.Timedelta(weeks=1)
-_FAR = np.iinfo(np.int64).max
-
-
-def _utc(value: object, what: str) -> pd.Timestamp:
-    try:
-        ts = pd.Timestamp(value)
-    except (TypeError, ValueError) as err:
-        raise ValueError(f"{what}: expected a timestamp, got {value!r}") from err
-    if pd.isna(ts):
-        raise ValueError(f"{what}: expected a timestamp, got {value!r}")
-    return ts.tz_localize("UTC") if ts.tz is None else ts.tz_convert("UTC")
-
-
-def incident_windows(
-    incidents: Iterable[object] | None,
-) -> list[tuple[pd.Timestamp, pd.Timestamp | None]]:
-    """Normalise incidents: ``(start, end)`` pairs or dicts with ``start``/``end``; ``end``
-    None means still open. Raises ValueError naming the incident that is malformed."""
-    out = []
-    for number, item in enumerate(incidents or [], start=1):
-        if isinstance(item, dict):
-            start, end = item.get("start"), item.get("end")
-        else:
-            try:
-                start, end = item  # type: ignore[misc]
-            except (TypeError, ValueError) as err:
-                raise ValueError(f"incident {number}: expected (start, end), got {item!r}") from err
-        begin = _utc(start, f"incident {number} start")
-        finish = None if end is None or pd.isna(end) else _utc(end, f"incident {number} end")
-        if finish is not None and finish < begin:
-            raise ValueError(f"incident {number} ends ({finish}) before it starts ({begin})")
-        out.append((begin, finish))
-    return out
-
-
-def _bounds_ns(
-    windows: Sequence[tuple[pd.Timestamp, pd.Timestamp | None]],
-) -> tuple[np.ndarray, np.ndarray]:
-    starts = np.array([int(s.value) for s, _ in windows], dtype=np.int64)
-    ends = np.array([_FAR if e is None else int(e.value) for _, e in windows], dtype=np.int64)
-    return starts, ends
-
-
-def catches(
-    fire_start_ns: np.ndarray,
-    inc_start_ns: np.ndarray,
-    inc_end_ns: np.ndarray,
-    lead: pd.Timedelta = DEFAULT_LEAD,
-) -> tuple[np.ndarray, np.ndarray]:
-    """Per incident: caught (bool) and the first catching firing's start (ns; undefined when
-    not caught). ``fire_start_ns`` must be sorted."""
-    earliest = inc_start_ns - int(lead.value)
-    j = np.searchsorted(fire_start_ns, earliest, side="left")
-    if fire_start_ns.size == 0:
-        return np.zeros(inc_start_ns.size, dtype=bool), np.zeros(inc_start_ns.size, np.int64)
-    first = fire_start_ns[np.minimum(j, fire_start_ns.size - 1)]
-    return (j < fire_start_ns.size) & (first <= inc_end_ns), first
 
 
 @dataclass(frozen=True)
@@ -226,7 +168,7 @@ def replay_report(
     ongoing = end_idx >= len(times)
     stop_ns = int(grid_ns[0]) + end_idx.astype(np.int64) * step_ns  # the data's end if ongoing
 
-    inc_start, inc_end = _bounds_ns(windows)
+    inc_start, inc_end = bounds_ns(windows)
     incident_of = np.full(start_ns.size, -1)
     for i in range(len(windows) - 1, -1, -1):
         overlaps = (start_ns <= inc_end[i]) & (stop_ns > inc_start[i] - int(lead.value))

@@ -25,16 +25,13 @@ from typing import Any, Literal
 
 import pandas as pd
 
-from webapp.analysis._replay import BandRule, Rule, ThresholdRule, _format_duration
+from webapp.analysis._replay import BandRule, Rule, ThresholdRule
 from webapp.analysis._report import ReplayReport
+from webapp.analysis.times import rough_duration, short_duration
+from webapp.analysis.vocabulary import OWNER_DECIDES
 
 TUNE_MIN_SAVING = 0.2
 RETIRE_MIN_FALSE = 2
-OWNER_DECIDES = (
-    "whyfired only drafts this verdict from the replay. Retiring an alert can hide a real "
-    "failure that did not happen to occur in these weeks; the service owner and the team's "
-    "own paging policy decide."
-)
 ON_CALL_LOAD = (
     "Common practice (the Site Reliability Engineering book, 2016, chapter 11) is to allow "
     "at most two incidents per 12-hour on-call shift, and every alert of the team shares "
@@ -59,18 +56,6 @@ class VerdictDraft:
 
 def _plural(n: int, word: str) -> str:
     return f"{n} {word}" if n == 1 else f"{n} {word}s"
-
-
-def _duration(delta: pd.Timedelta | None) -> str:
-    if delta is None or pd.isna(delta):
-        return "n/a"
-    sign = "-" if delta < pd.Timedelta(0) else ""
-    seconds = abs(delta.total_seconds())
-    if seconds < 60:
-        return f"{sign}{seconds:.0f} s"
-    if seconds < 3600 * 2:
-        return f"{sign}{seconds / 60:.0f} min"
-    return f"{sign}{seconds / 3600:.1f} h"
 
 
 def rule_parameters(rule: Rule) -> dict[str, Any]:
@@ -145,19 +130,19 @@ def _facts(report: ReplayReport) -> list[str]:
     ]
     if report.n_firings:
         out.append(
-            f"The median firing lasted {_duration(report.median_duration)}; "
+            f"The median firing lasted {rough_duration(report.median_duration)}; "
             f"{_overlap_words(report.inside, report.outside)}."
         )
     if report.flapping:
         out.append(
             f"{_plural(report.flapping, 'firing')} started within "
-            f"{_duration(report.flap_gap)} of the previous one ending (flapping)."
+            f"{rough_duration(report.flap_gap)} of the previous one ending (flapping)."
         )
     if in_range:
         caught = [i for i in in_range if i["caught"]]
         text = f"It caught {len(caught)} of {_plural(len(in_range), 'recorded incident')}"
         if caught:
-            delays = ", ".join(_duration(i["delay"]) for i in caught)
+            delays = ", ".join(rough_duration(i["delay"]) for i in caught)
             text += f" (delay after the incident began: {delays})"
         out.append(text + ".")
         if len(caught) < len(in_range):
@@ -206,10 +191,10 @@ def draft_verdict(report: ReplayReport, sweep: pd.DataFrame | None, rule: Rule) 
         }
         sentences.append(
             f"With {column} {best[column]:g} and a hold of "
-            f"{_format_duration(best['hold'])}, it would have fired "
+            f"{short_duration(best['hold'])}, it would have fired "
             f"{_plural(int(best['firings']), 'time')} ({best['pages_per_week']:.1f} per week) "
             f"and still caught every incident the current rule caught "
-            f"(median delay {_duration(best['median_delay'])})."
+            f"(median delay {rough_duration(best['median_delay'])})."
         )
     elif report.caught:
         sentences.append(
@@ -248,7 +233,7 @@ def _catches_more(report: ReplayReport, sweep: pd.DataFrame, rule: Rule) -> list
     in_range = sum(1 for i in report.incidents if i["in_range"])
     return [
         f"Of the what-if settings that catch the most incidents, the quietest ({column} "
-        f"{best[column]:g}, hold {_format_duration(best['hold'])}) catches "
+        f"{best[column]:g}, hold {short_duration(best['hold'])}) catches "
         f"{best['incidents_caught']} of the {in_range} recorded incidents at "
         f"{best['pages_per_week']:.1f} pages per week."
     ]

@@ -24,6 +24,7 @@ from collections.abc import Callable, Iterable, Sequence
 import numpy as np
 import pandas as pd
 
+from webapp.analysis._incidents import DEFAULT_LEAD, WEEK, bounds_ns, catches, incident_windows
 from webapp.analysis._replay import (
     BandGrid,
     BandRule,
@@ -35,7 +36,6 @@ from webapp.analysis._replay import (
     hold_samples,
     runs,
 )
-from webapp.analysis._report import DEFAULT_LEAD, WEEK, _bounds_ns, catches, incident_windows
 
 SWEEP_COLUMNS = [
     "threshold",
@@ -140,7 +140,7 @@ def _sweep(
     level_name: str,
 ) -> pd.DataFrame:
     """The sweep proper: one condition and its runs per level, one cut per hold."""
-    inc_start, inc_end = _bounds_ns(windows)
+    inc_start, inc_end = bounds_ns(windows)
     grid_ns = times.asi8
     step_ns = int(step.value)
     data_end_ns = int(grid_ns[-1]) + step_ns

@@ -13,10 +13,11 @@ import pandas as pd
 from sqlalchemy import or_, select
 from sqlalchemy.orm import Session
 
+from webapp.analysis.times import to_utc
 from webapp.store import reviews
 from webapp.store._sql import delete_by_id
 from webapp.store.models import ExcludedPeriod
-from webapp.store.times import timestamp, utc
+from webapp.store.times import utc
 
 Span = tuple[pd.Timestamp, pd.Timestamp]
 
@@ -52,7 +53,7 @@ def delete_excluded(session: Session, excluded_id: int) -> None:
 
 def periods_for(session: Session, series_id: int) -> list[Span]:
     """Every span to leave out of ``series_id``'s baselines, sorted, overlaps merged."""
-    spans = [(timestamp(r.start), timestamp(r.end)) for r in list_excluded(session, series_id)]
+    spans = [(to_utc(r.start), to_utc(r.end)) for r in list_excluded(session, series_id)]
     spans.extend(span for _, span in review_windows(session, series_id))
     return _merge(spans)
 
@@ -61,7 +62,7 @@ def review_windows(session: Session, series_id: int) -> list[tuple[int, Span]]:
     """(review id, incident window) of every review touching ``series_id`` that leaves its
     incident out of baselines; such a window is switched off in the review, not here."""
     return [
-        (r.id, (timestamp(r.incident_start), timestamp(r.incident_end)))
+        (r.id, (to_utc(r.incident_start), to_utc(r.incident_end)))
         for r in reviews.reviews_for_series(session, series_id)
         if r.exclude_from_baselines
         and r.incident_start is not None

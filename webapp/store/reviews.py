@@ -18,6 +18,7 @@ import pandas as pd
 from sqlalchemy import or_, select
 from sqlalchemy.orm import Session
 
+from webapp.analysis.vocabulary import VERDICTS
 from webapp.store.models import (
     ActionItem,
     Explanation,
@@ -28,7 +29,6 @@ from webapp.store.models import (
 )
 
 STATUSES = ("draft", "final")
-VERDICTS = ("keep", "tune", "retire")
 ACTION_STATES = ("open", "in progress", "done")
 TEXT_FIELDS = ("summary", "impact", "trigger", "root_cause", "detection", "resolution", "lessons")
 REVIEW_FIELDS = (
@@ -45,11 +45,6 @@ CHECKBOX_SHOWN = "exclude_from_baselines_shown"
 TITLE_MAX = 300
 SEVERITY_MAX = 20
 OWNER_MAX = 200
-VERDICT_WARNING = (
-    "whyfired drafts this verdict from the replay's numbers; it does not decide. Retiring an "
-    "alert can hide a real failure: the service owner and the team's own paging policy "
-    "decide whether the alert is kept, tuned or retired."
-)
 _ISO_TIME = re.compile(r"^\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}")
 
 

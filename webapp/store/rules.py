@@ -8,32 +8,17 @@ from typing import Any
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from webapp.analysis.vocabulary import DIRECTIONS, RULE_FIELDS, RULE_KINDS
 from webapp.store._sql import delete_by_id, require
 from webapp.store.models import AlertRule
-
-KINDS = ("threshold", "band")
-DIRECTIONS = {"threshold": ("above", "below"), "band": ("above", "below", "both")}
-FIELDS = (
-    "name",
-    "series_id",
-    "metric",
-    "label_filter",
-    "kind",
-    "direction",
-    "threshold",
-    "tolerance",
-    "hold_seconds",
-    "check_every_seconds",
-    "description",
-)
 
 
 def _check(rule: AlertRule) -> None:
     """Raise ValueError naming the first field that makes ``rule`` unusable."""
     if not (rule.name or "").strip():
         raise ValueError("an alert rule needs a name")
-    if rule.kind not in KINDS:
-        raise ValueError(f"kind must be one of {', '.join(KINDS)}, got {rule.kind!r}")
+    if rule.kind not in RULE_KINDS:
+        raise ValueError(f"kind must be one of {', '.join(RULE_KINDS)}, got {rule.kind!r}")
     allowed = DIRECTIONS[rule.kind]
     if rule.direction not in allowed:
         raise ValueError(
@@ -57,7 +42,7 @@ def _finite(value: Any) -> bool:
 
 
 def _assign(rule: AlertRule, fields: dict[str, Any]) -> None:
-    unknown = sorted(set(fields) - set(FIELDS))
+    unknown = sorted(set(fields) - set(RULE_FIELDS))
     if unknown:
         raise ValueError(f"unknown alert rule field(s): {', '.join(unknown)}")
     for name, value in fields.items():
@@ -65,7 +50,7 @@ def _assign(rule: AlertRule, fields: dict[str, Any]) -> None:
 
 
 def create_rule(session: Session, **fields: Any) -> AlertRule:
-    """Add an alert rule from the fields named in :data:`FIELDS`."""
+    """Add an alert rule from the fields named in :data:`RULE_FIELDS`."""
     rule = AlertRule(kind="threshold", direction="above", hold_seconds=0, label_filter={})
     _assign(rule, fields)
     _check(rule)
@@ -88,7 +73,7 @@ def get_rule(session: Session, rule_id: int) -> AlertRule | None:
 def update_rule(session: Session, rule_id: int, **fields: Any) -> AlertRule:
     """Change some fields; nothing changes when the result would be invalid."""
     rule = require(session, AlertRule, rule_id, "alert rule")
-    previous = {name: getattr(rule, name) for name in FIELDS}
+    previous = {name: getattr(rule, name) for name in RULE_FIELDS}
     _assign(rule, fields)
     try:
         _check(rule)

@@ -71,13 +71,13 @@ class StoredExclusion:
 
 def stored_list(series_id: int) -> list[StoredExclusion]:
     """The stored spans left out of this series' baselines, unmerged, by start."""
+    from webapp.analysis.times import to_utc
     from webapp.store import excluded
-    from webapp.store.times import timestamp
 
     session = db.get_session()
     rows = [
         StoredExclusion(
-            span=(timestamp(row.start), timestamp(row.end)),
+            span=(to_utc(row.start), to_utc(row.end)),
             excluded_id=row.id,
             every_series=row.series_id is None,
             reason=row.reason or "",

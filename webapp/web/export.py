@@ -23,6 +23,8 @@ import plotly.io as pio
 from sqlalchemy.orm import Session
 
 from webapp import resource_dir
+from webapp.analysis.times import long_duration
+from webapp.analysis.vocabulary import OWNER_DECIDES
 from webapp.store import reviews as store_reviews
 from webapp.store.models import AlertRule, Page, Review, ReviewExplanation, Series
 from webapp.web import figures, filters
@@ -126,7 +128,7 @@ def header_lines(review: Review, page: Page | None, rule: AlertRule | None) -> l
         rows.append(("Severity", review.severity, ""))
     window = "not recorded"
     if review.incident_start and review.incident_end:
-        length = filters.duration(review.incident_end - review.incident_start)
+        length = long_duration(review.incident_end - review.incident_start)
         start, end = (
             filters.local_time(review.incident_start),
             filters.local_time(review.incident_end),
@@ -136,7 +138,7 @@ def header_lines(review: Review, page: Page | None, rule: AlertRule | None) -> l
     if page is not None:
         text = f"#{page.id} fired {filters.local_time(page.fired_at)} UTC"
         if review.incident_start and page.fired_at >= review.incident_start:
-            text += f", {filters.duration(page.fired_at - review.incident_start)} after it began"
+            text += f", {long_duration(page.fired_at - review.incident_start)} after it began"
         if page.resolved_at:
             text += f", resolved {filters.local_time(page.resolved_at)} UTC"
         rows.append(("Page", text, page.rule_text or ""))
@@ -157,7 +159,7 @@ def review_context(session: Session, review: Review, tz: str = "UTC") -> dict[st
         "rule": rule,
         "sections": [(label, getattr(review, name)) for name, label in SECTIONS],
         "evidence": review_evidence(session, review, tz),
-        "verdict_warning": store_reviews.VERDICT_WARNING,
+        "verdict_warning": OWNER_DECIDES,
         "exported_at": dt.datetime.now(dt.UTC),
         "tz": tz,
     }
@@ -173,7 +175,7 @@ def _environment() -> jinja2.Environment:
     )
     env.filters.update(
         local_time=filters.local_time,
-        duration=filters.duration,
+        duration=long_duration,
         number=filters.number,
         markdown=render_markdown,
         cell=markdown_cell,

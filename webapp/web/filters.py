@@ -13,6 +13,8 @@ import pandas as pd
 from flask import Flask, url_for
 from werkzeug.routing import BuildError
 
+from webapp.analysis.times import long_duration
+
 
 def to_timestamp(value: Any) -> pd.Timestamp | None:
     """A UTC Timestamp from a Timestamp, datetime, ISO string or epoch milliseconds."""
@@ -57,21 +59,6 @@ def number(value: Any, digits: int = 4) -> str:
     return f"{value:,.{digits}g}" if abs(value) >= 1 else f"{value:.{digits}g}"
 
 
-def duration(value: Any) -> str:
-    if value is None:
-        return "—"
-    td = pd.Timedelta(value) if not isinstance(value, int | float) else pd.Timedelta(seconds=value)
-    if td is pd.NaT:
-        return "—"
-    seconds = int(td.total_seconds())
-    parts = []
-    for unit, size in (("d", 86400), ("h", 3600), ("min", 60), ("s", 1)):
-        if seconds >= size:
-            parts.append(f"{seconds // size} {unit}")
-            seconds %= size
-    return " ".join(parts[:2]) if parts else "0 s"
-
-
 def percent(value: Any) -> str:
     if value is None:
         return "—"
@@ -93,7 +80,7 @@ def fact_value(value: Any, tz: str = "UTC", name: str = "") -> str:
     ):
         return local_time(value, tz, with_zone=True)
     if name.endswith("_seconds") and isinstance(value, int | float) and not isinstance(value, bool):
-        return duration(value)
+        return long_duration(value)
     if value is None or value == "":
         return "—"
     return number(value)
@@ -120,7 +107,7 @@ def init_app(app: Flask) -> None:
         "local_time": local_time,
         "input_time": input_time,
         "number": number,
-        "duration": duration,
+        "duration": long_duration,
         "percent": percent,
         "fact_value": fact_value,
     }.items():

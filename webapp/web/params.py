@@ -12,10 +12,12 @@ import pandas as pd
 from flask import abort
 from werkzeug.datastructures import MultiDict
 
+from webapp.analysis import times
+from webapp.analysis.times import TIME_FORMAT_HELP
+
 MIN_TOLERANCE = 0.5
 MAX_TOLERANCE = 20.0
 MIN_WEEKS, MAX_WEEKS = 1, 8
-TIME_FORMAT_HELP = "a date and time such as 2026-11-30T14:05 (or ISO 8601 with an offset)"
 
 Span = tuple[pd.Timestamp, pd.Timestamp]
 
@@ -39,14 +41,9 @@ def parse_time(text: str | None, tz: str, what: str) -> pd.Timestamp:
     if not raw:
         bad_request(f"The {what} is missing: give {TIME_FORMAT_HELP}.")
     try:
-        ts = pd.Timestamp(raw)
-    except (ValueError, TypeError, OverflowError):
-        ts = None
-    if ts is None or ts is pd.NaT:
+        return times.parse_time(raw, tz)
+    except ValueError:
         bad_request(f"The {what} {raw!r} is not a time: give {TIME_FORMAT_HELP}.")
-    if ts.tzinfo is None:
-        ts = ts.tz_localize(tz, ambiguous=True, nonexistent="shift_forward")
-    return ts.tz_convert("UTC")
 
 
 def parse_window(start: str | None, end: str | None, tz: str) -> Span:

@@ -13,6 +13,7 @@ from typing import Any
 from flask import Blueprint, abort, flash, redirect, render_template, request, send_file, url_for
 from werkzeug.wrappers import Response
 
+from webapp.analysis.vocabulary import OWNER_DECIDES
 from webapp.store import db
 from webapp.store import reviews as store
 from webapp.store.models import AlertRule, Explanation, Page, Review
@@ -137,7 +138,7 @@ def _show(
         rules=list(session.query(AlertRule).order_by(AlertRule.name)),
         forms=forms or {},
         errors=errors or {},
-        verdict_warning=store.VERDICT_WARNING,
+        verdict_warning=OWNER_DECIDES,
         format_parameters=store.format_parameters,
         fact_label=store.fact_label,
         tz=TZ,

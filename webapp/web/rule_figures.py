@@ -9,6 +9,7 @@ import pandas as pd
 import plotly.graph_objects as go
 
 from webapp.analysis import BandGrid
+from webapp.analysis.times import short_duration
 from webapp.web import palette
 from webapp.web.downsample import minmax_indices, reduce_together
 from webapp.web.figures import FONT, wall_clock
@@ -211,14 +212,3 @@ def _row(sweep: pd.DataFrame, point: tuple[float, pd.Timedelta] | None) -> pd.Se
     level = level_column(sweep)
     match = sweep[np.isclose(sweep[level], point[0]) & (sweep["hold"] == point[1])]
     return None if match.empty else match.iloc[0]
-
-
-def short_duration(delta: pd.Timedelta) -> str:
-    """``0``, ``90s``, ``10min``, ``2h``: short, and readable back by the sweep form."""
-    seconds = int(pd.Timedelta(delta).total_seconds())
-    if seconds == 0:
-        return "0"
-    for unit, size in (("h", 3600), ("min", 60)):
-        if seconds % size == 0:
-            return f"{seconds // size}{unit}"
-    return f"{seconds}s"

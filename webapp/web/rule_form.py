@@ -8,11 +8,10 @@ from typing import Any
 import pandas as pd
 from sqlalchemy.orm import Session
 
+from webapp.analysis import times
+from webapp.analysis.vocabulary import DIRECTIONS, RULE_KINDS, SWEEP_LEVEL
 from webapp.store import series as store_series
 from webapp.store.models import AlertRule
-
-KINDS = ("threshold", "band")
-DIRECTIONS = {"threshold": ("above", "below"), "band": ("both", "above", "below")}
 
 
 class RuleFormInvalid(ValueError):
@@ -22,19 +21,17 @@ class RuleFormInvalid(ValueError):
 
 
 def parse_duration(text: str, field: str, errors: dict[str, str], *, optional: bool) -> int | None:
-    """Seconds from ``10min``, ``90s``, ``1h`` or a bare number of seconds."""
-    text = (text or "").strip()
-    if not text:
-        if not optional:
-            return 0
-        return None
+    """Seconds from ``10min``, ``90s``, ``1h`` or a bare number of seconds; a problem goes
+    into ``errors[field]``. Empty is 0 for a required field, None for an optional one."""
     try:
-        delta = pd.Timedelta(float(text), unit="s") if _is_number(text) else pd.Timedelta(text)
-    except (ValueError, TypeError):
-        errors[field] = f"{text!r} is not a duration; write e.g. 10min, 90s or 1h."
+        delta = times.parse_duration(text)
+    except ValueError as err:
+        errors[field] = "It cannot be negative." if "negative" in str(err) else str(err)
         return None
-    if pd.isna(delta) or delta < pd.Timedelta(0) or (optional and delta == pd.Timedelta(0)):
-        errors[field] = "Give a duration above zero." if optional else "It cannot be negative."
+    if delta is None:
+        return None if optional else 0
+    if optional and delta == pd.Timedelta(0):
+        errors[field] = "Give a duration above zero."
         return None
     return int(delta.total_seconds())
 
@@ -64,7 +61,7 @@ def parse_rule_form(session: Session, form: Mapping[str, str]) -> dict[str, Any]
     """The alert-rule fields from the form; raises RuleFormInvalid with one message per field."""
     errors: dict[str, str] = {}
     kind = form.get("kind", "threshold")
-    if kind not in KINDS:
+    if kind not in RULE_KINDS:
         errors["kind"] = "Choose a threshold rule or a band rule."
         kind = "threshold"
     fields: dict[str, Any] = {
@@ -149,7 +146,7 @@ EXAMPLES = {"threshold": "600, 700, 800", "tolerance": "2, 3, 4"}
 
 def sweep_level(kind: str | None) -> str:
     """The setting a rule's what-if sweep varies besides the hold."""
-    return "tolerance" if kind == "band" else "threshold"
+    return SWEEP_LEVEL.get(kind or "threshold", "threshold")
 
 
 def parse_sweep(

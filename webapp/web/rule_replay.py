@@ -21,9 +21,9 @@ from webapp.analysis import (
     sweep_grid,
     whatif_sweep,
 )
+from webapp.analysis.vocabulary import RULE_FIELDS
 from webapp.store import excluded as store_excluded
 from webapp.store import reviews as store_reviews
-from webapp.store import rules as store_rules
 from webapp.store import series as store_series
 from webapp.store.models import AlertRule
 from webapp.web import rule_figures
@@ -50,7 +50,7 @@ def rule_text(rule: AlertRule) -> str:
 
 
 def _fields(rule: AlertRule) -> dict[str, Any]:
-    return {name: getattr(rule, name) for name in store_rules.FIELDS} | {"tz": TZ}
+    return {name: getattr(rule, name) for name in RULE_FIELDS} | {"tz": TZ}
 
 
 def firing_rows(firings: pd.DataFrame, limit: int = 500) -> list[dict[str, Any]]:

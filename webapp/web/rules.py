@@ -10,6 +10,8 @@ import pandas as pd
 from flask import Blueprint, abort, flash, redirect, render_template, request, url_for
 from sqlalchemy.orm import Session
 
+from webapp.analysis.times import short_duration
+from webapp.analysis.vocabulary import OWNER_DECIDES
 from webapp.store import db
 from webapp.store import reviews as store_reviews
 from webapp.store import rules as store_rules
@@ -17,7 +19,6 @@ from webapp.store import series as store_series
 from webapp.store.models import AlertRule, Review
 from webapp.store.reviews import ReviewInvalid
 from webapp.web.htmx import render
-from webapp.web.rule_figures import short_duration
 from webapp.web.rule_form import (
     RuleFormInvalid,
     parse_rule_form,
@@ -157,7 +158,7 @@ def _show(
         sweep_values=_sweep_values(replay, request.args, f"{level}s"),
         sweep_errors=sweep_errors,
         scope=scope,
-        verdict_warning=store_reviews.VERDICT_WARNING,
+        verdict_warning=OWNER_DECIDES,
         tz=TZ,
     )
     return html, 422 if errors else 200
