@@ -71,7 +71,7 @@ def demo_db_url(tmp_path_factory: pytest.TempPathFactory) -> str:
     Tests must not write to it; use ``demo_app`` / ``demo_client`` for a private copy.
     """
     from webapp.demo import build_demo
-    from webapp.store.seed import load_demo
+    from webapp.services.demo import load_demo
 
     path = tmp_path_factory.mktemp("demo") / "demo.sqlite"
     eng = db.make_engine(sqlite_url(path))

@@ -276,7 +276,7 @@ def demo(
 ) -> None:
     """Load the invented demo scenario into a fresh database and serve it."""
     from webapp.demo import build_demo
-    from webapp.store.seed import load_demo
+    from webapp.services.demo import load_demo
 
     chosen = db_url or os.environ.get("WHYFIRED_DATABASE_URL")
     url = _announce(chosen or demo_database_url())
@@ -370,25 +370,21 @@ def export_group() -> None:
 @db_option
 def export_review_cmd(review_id: int, fmt: str, out_path: Path, db_url: str | None) -> None:
     """Export one review."""
-    from webapp import create_app
-    from webapp.store.models import Review
-    from webapp.web.export import ExportError, export_review
+    from webapp.services.review_export import ExportError
+    from webapp.web.export import export_review
 
     url = _announce(settings.database_url(db_url))
     with _database_errors(url):
-        app = create_app({"DATABASE_URL": url})
+        engine = _open(url)
         try:
-            with app.app_context():
-                session = db.get_session()
-                if session.get(Review, review_id) is None:
-                    raise click.ClickException(f"there is no review #{review_id} in this database")
+            with db.session_scope(engine) as session:
                 written = export_review(session, review_id, fmt, out_path)
         except ExportError as err:
             raise click.ClickException(str(err)) from None
         except OSError as err:
             raise click.ClickException(f"cannot write {out_path}: {err.strerror or err}") from None
         finally:
-            db.get_engine(app).dispose()
+            engine.dispose()
     for path in written:
         click.echo(f"Wrote {path}")
 

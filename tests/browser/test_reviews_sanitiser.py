@@ -9,6 +9,7 @@ from pathlib import Path
 import pytest
 
 from webapp.store import reviews as store_reviews
+from webapp.store import verdicts as store_verdicts
 from webapp.web.export import export_review
 
 pytestmark = pytest.mark.browser
@@ -38,7 +39,7 @@ def hostile_review(session):
     review = store_reviews.create_review(
         session, {"title": "Injection corpus", "summary": text, "lessons": text}
     )
-    store_reviews.set_verdict(session, review, "keep", rationale=text)
+    store_verdicts.set_verdict(session, review, "keep", rationale=text)
     session.commit()
     return review
 

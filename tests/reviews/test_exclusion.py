@@ -5,7 +5,9 @@ from __future__ import annotations
 
 import pandas as pd
 
+from webapp.store import attachments as store_attachments
 from webapp.store import excluded, reviews
+from webapp.web.forms import reviews as review_forms
 
 WINDOW = {"incident_start": "2026-11-30T14:00", "incident_end": "2026-11-30T16:00"}
 SPAN = (pd.Timestamp("2026-11-30 14:00", tz="UTC"), pd.Timestamp("2026-11-30 16:00", tz="UTC"))
@@ -22,7 +24,7 @@ def test_on_by_default_through_the_page(session, make_series, make_page) -> None
 def test_code_callers_get_the_default_on(session, make_series, make_explanation) -> None:
     series = make_series()
     review = reviews.create_review(session, {"title": "t", **WINDOW})
-    reviews.attach_explanation(session, review, make_explanation(series).id)
+    store_attachments.attach_explanation(session, review, make_explanation(series).id)
     assert review.exclude_from_baselines is True
     assert excluded.periods_for(session, series.id) == [SPAN]
 
@@ -32,18 +34,20 @@ def test_switching_off_and_on_again(session, make_series, make_explanation) -> N
     review = reviews.create_review(
         session, {"title": "t", **WINDOW, "exclude_from_baselines": "on"}
     )
-    reviews.attach_explanation(session, review, make_explanation(series).id)
+    store_attachments.attach_explanation(session, review, make_explanation(series).id)
     session.commit()
     assert excluded.periods_for(session, series.id) == [SPAN]
     assert excluded.periods_for(session, other.id) == []  # only the series it is tied to
 
     # the box unticked: a browser sends no value for it, only the form's marker
-    form = {"title": "t", **WINDOW, reviews.CHECKBOX_SHOWN: "1"}
-    reviews.update_review(session, review, form)
+    form = {"title": "t", **WINDOW, review_forms.CHECKBOX_SHOWN: "1"}
+    reviews.update_review(session, review, review_forms.review_data(form))
     session.commit()
     assert excluded.periods_for(session, series.id) == []
 
-    reviews.autosave_review(session, review, form | {"exclude_from_baselines": "on"})
+    reviews.autosave_review(
+        session, review, review_forms.review_data(form | {"exclude_from_baselines": "on"})
+    )
     session.commit()
     assert excluded.periods_for(session, series.id) == [SPAN]
 

@@ -9,7 +9,11 @@ import pandas as pd
 import plotly
 import pytest
 
+from webapp.store import action_items as store_actions
+from webapp.store import attachments as store_attachments
 from webapp.store import reviews
+from webapp.store import timeline as store_timeline
+from webapp.store import verdicts as store_verdicts
 from webapp.web.export import ExportError, export_review
 
 PAYLOAD = '<script>alert("from the summary")</script><img src=x onerror=alert(2)>'
@@ -32,12 +36,16 @@ def full_review(session, make_series, make_explanation, make_real_explanation):
             "root_cause": "A cold cache.",
         },
     )
-    reviews.attach_explanation(session, review, computed.id, caption="p95 against its band")
-    reviews.attach_explanation(session, review, synthetic.id, caption="errors | rate")
-    reviews.timeline_entry_from_fact(session, review, synthetic, "first_outside")
-    reviews.add_timeline_entry(session, review, "2026-11-30 14:05", "Paged | on-call")
-    reviews.add_action_item(session, review, {"text": "Warm the cache", "owner": "Dana"})
-    reviews.set_verdict(session, review, "tune", parameters={"threshold": 650.0}, rationale="r")
+    store_attachments.attach_explanation(
+        session, review, computed.id, caption="p95 against its band"
+    )
+    store_attachments.attach_explanation(session, review, synthetic.id, caption="errors | rate")
+    store_timeline.timeline_entry_from_fact(session, review, synthetic, "first_outside")
+    store_timeline.add_timeline_entry(session, review, "2026-11-30 14:05", "Paged | on-call")
+    store_actions.add_action_item(session, review, {"text": "Warm the cache", "owner": "Dana"})
+    store_verdicts.set_verdict(
+        session, review, "tune", parameters={"threshold": 650.0}, rationale="r"
+    )
     session.commit()
     return review
 
@@ -131,7 +139,7 @@ def test_a_frame_that_cannot_be_drawn_is_named_not_fatal(
     exp.frame = frame_to_parquet(pd.DataFrame({"value": [1.0]}, index=pd.DatetimeIndex(
         ["2026-11-30"], tz="UTC")))  # fmt: skip
     review = reviews.create_review(session, {"title": "old frame"})
-    reviews.attach_explanation(session, review, exp.id)
+    store_attachments.attach_explanation(session, review, exp.id)
     session.commit()
     page = client.get(f"/reviews/{review.id}")
     assert page.status_code == 200

@@ -7,8 +7,11 @@ import html
 
 import pytest
 
+from webapp.store import attachments as store_attachments
 from webapp.store import reviews
+from webapp.store import timeline as store_timeline
 from webapp.store.models import Review
+from webapp.web.forms import reviews as review_forms
 
 FORM = {
     "title": "Checkout latency over the lunch peak",
@@ -150,7 +153,7 @@ def test_timeline_entry_errors_keep_the_text(client, csrf, review) -> None:
 
 def test_timeline_entry_and_one_from_a_fact(client, csrf, review, make_explanation, session):
     exp = make_explanation()
-    reviews.attach_explanation(session, review, exp.id)
+    store_attachments.attach_explanation(session, review, exp.id)
     session.commit()
     ok = post(client, f"/reviews/{review.id}/timeline", csrf, at="2026-11-30T14:20", text="Paged")
     assert ok.status_code == 302
@@ -263,7 +266,7 @@ def test_post_without_token_is_refused(client, review) -> None:
 
 def test_unticking_the_exclusion_box_switches_it_off(client, csrf, review, session) -> None:
     form = {k: v for k, v in FORM.items() if k != "exclude_from_baselines"}
-    form[reviews.CHECKBOX_SHOWN] = "1"  # what the browser sends for an unticked box
+    form[review_forms.CHECKBOX_SHOWN] = "1"  # what the browser sends for an unticked box
     assert post(client, f"/reviews/{review.id}/edit", csrf, **form).status_code == 302
     session.rollback()
     session.expire_all()
@@ -276,8 +279,8 @@ def test_hostile_names_stay_text_on_the_page_and_in_the_export(
 ) -> None:
     hostile = "</script><script>alert(2)</script>"
     exp = make_explanation(make_series(f"queue.depth{{host={hostile}}}"), title=hostile)
-    reviews.attach_explanation(session, review, exp.id, caption=hostile)
-    reviews.add_timeline_entry(session, review, "2026-11-30 14:05", hostile)
+    store_attachments.attach_explanation(session, review, exp.id, caption=hostile)
+    store_timeline.add_timeline_entry(session, review, "2026-11-30 14:05", hostile)
     session.commit()
     for url in (f"/reviews/{review.id}", f"/reviews/{review.id}/export.html"):
         body = client.get(url).get_data(as_text=True)

@@ -14,6 +14,7 @@ import pandas as pd
 import pytest
 from sqlalchemy import insert
 
+from webapp.store import attachments as store_attachments
 from webapp.store import reviews
 from webapp.store import rules as store_rules
 from webapp.store.models import Point, Review, Series
@@ -52,7 +53,7 @@ def incident_review(session, watched, make_explanation) -> Review:
             "incident_end": BURSTS[1] + pd.Timedelta("1h"),
         },
     )
-    reviews.attach_explanation(session, review, make_explanation(watched).id)
+    store_attachments.attach_explanation(session, review, make_explanation(watched).id)
     session.commit()
     return review
 
@@ -480,7 +481,7 @@ def test_the_replay_band_is_downsampled_keeping_its_extremes() -> None:
     """A week of one-minute band reduced to about 400 points still reaches its highest and
     lowest edge (a synthetic grid: level 50, one hour of a wide band)."""
     from webapp.analysis import BandGrid
-    from webapp.web.rule_figures import replay_figure
+    from webapp.web.charts.rules import replay_figure
 
     times = pd.date_range(START, periods=7 * 1440, freq="1min")
     scale = np.ones(len(times))

@@ -7,9 +7,16 @@ import datetime as dt
 import pandas as pd
 import pytest
 
+from webapp.store import action_items as store_actions
+from webapp.store import attachments as store_attachments
+from webapp.store import incidents as store_incidents
 from webapp.store import reviews
+from webapp.store import timeline as store_timeline
+from webapp.store import verdicts as store_verdicts
 from webapp.store.models import Review
 from webapp.store.reviews import ReviewInvalid
+from webapp.store.times import utc_datetime
+from webapp.web.forms import reviews as review_forms
 
 UTC = dt.UTC
 
@@ -53,9 +60,11 @@ def test_form_times_follow_the_given_zone(session) -> None:
 def test_unchecked_box_turns_exclusion_off(session) -> None:
     form = good_form()
     del form["exclude_from_baselines"]
-    assert reviews.create_review(session, form).exclude_from_baselines is True  # not shown
-    form[reviews.CHECKBOX_SHOWN] = "1"
-    assert reviews.create_review(session, form).exclude_from_baselines is False
+    data = review_forms.review_data(form)
+    assert reviews.create_review(session, data).exclude_from_baselines is True  # not shown
+    form[review_forms.CHECKBOX_SHOWN] = "1"
+    data = review_forms.review_data(form)
+    assert reviews.create_review(session, data).exclude_from_baselines is False
 
 
 @pytest.mark.parametrize(
@@ -127,8 +136,8 @@ def test_search_matches_every_word_in_any_text_field(session) -> None:
 def test_search_reaches_timeline_and_action_items(session) -> None:
     found = reviews.create_review(session, good_form(title="Checkout slowdown"))
     reviews.create_review(session, good_form(title="Queue backlog"))
-    reviews.add_timeline_entry(session, found, "2026-11-30 14:20", "Rolled back the deploy")
-    reviews.add_action_item(session, found, {"text": "Warm the cache", "owner": "Dana"})
+    store_timeline.add_timeline_entry(session, found, "2026-11-30 14:20", "Rolled back the deploy")
+    store_actions.add_action_item(session, found, {"text": "Warm the cache", "owner": "Dana"})
     for q in ("rolled", "WARM", "dana", "deploy checkout"):
         assert [r.title for r in reviews.list_reviews(session, q)] == ["Checkout slowdown"], q
 
@@ -146,8 +155,8 @@ def test_list_puts_latest_incident_first_and_filters_status(session) -> None:
 
 def test_timeline_is_kept_in_time_order(session) -> None:
     review = reviews.create_review(session, good_form())
-    reviews.add_timeline_entry(session, review, "2026-11-30 14:20", "Rolled back")
-    reviews.add_timeline_entry(session, review, "2026-11-30 14:05", "Paged")
+    store_timeline.add_timeline_entry(session, review, "2026-11-30 14:20", "Rolled back")
+    store_timeline.add_timeline_entry(session, review, "2026-11-30 14:05", "Paged")
     session.commit()
     session.expire_all()
     assert [e.text for e in reviews.get_review(session, review.id).timeline] == [
@@ -159,27 +168,29 @@ def test_timeline_is_kept_in_time_order(session) -> None:
 def test_timeline_entry_needs_time_and_text(session) -> None:
     review = reviews.create_review(session, good_form())
     with pytest.raises(ReviewInvalid) as info:
-        reviews.add_timeline_entry(session, review, "", "  ")
+        store_timeline.add_timeline_entry(session, review, "", "  ")
     assert set(info.value.errors) == {"at", "text"}
 
 
 def test_timeline_entry_from_a_fact(session, make_explanation) -> None:
     review = reviews.create_review(session, good_form())
     exp = make_explanation()
-    assert set(reviews.time_facts(exp)) == {"first_outside", "peak_at"}
-    entry = reviews.timeline_entry_from_fact(session, review, exp, "first_outside")
+    assert set(store_timeline.time_facts(exp)) == {"first_outside", "peak_at"}
+    entry = store_timeline.timeline_entry_from_fact(session, review, exp, "first_outside")
     assert entry.at == pd.Timestamp(exp.facts["first_outside"]).to_pydatetime()
     assert entry.explanation_id == exp.id and entry.fact == "first_outside"
     assert "First outside" in entry.text and exp.series_key in entry.text
     with pytest.raises(ReviewInvalid, match="no time fact 'peak_value'"):
-        reviews.timeline_entry_from_fact(session, review, exp, "peak_value")
+        store_timeline.timeline_entry_from_fact(session, review, exp, "peak_value")
 
 
 def test_attachments_keep_caption_and_order(session, make_explanation) -> None:
     review = reviews.create_review(session, good_form())
     a, b, c = (make_explanation(title=t) for t in "abc")
     for exp in (a, b, c):
-        reviews.attach_explanation(session, review, exp.id, caption=f"caption {exp.title}")
+        store_attachments.attach_explanation(
+            session, review, exp.id, caption=f"caption {exp.title}"
+        )
     session.commit()
 
     def order() -> list[str]:
@@ -187,17 +198,17 @@ def test_attachments_keep_caption_and_order(session, make_explanation) -> None:
 
     assert order() == ["a", "b", "c"]
     c_att = review.attachments[2]
-    reviews.move_attachment(session, review, c_att.id, -1)
+    store_attachments.move_attachment(session, review, c_att.id, -1)
     session.commit()
     assert order() == ["a", "c", "b"]
-    reviews.move_attachment(session, review, c_att.id, -5)
+    store_attachments.move_attachment(session, review, c_att.id, -5)
     assert order() == ["c", "a", "b"]
     ids = {x.explanation.title: x.id for x in review.attachments}
-    reviews.reorder_attachments(session, review, [ids["b"], ids["c"], ids["a"]])
+    store_attachments.reorder_attachments(session, review, [ids["b"], ids["c"], ids["a"]])
     session.commit()
     assert order() == ["b", "c", "a"]
-    reviews.set_caption(session, review, ids["a"], "  the band  ")
-    reviews.detach_explanation(session, review, ids["c"])
+    store_attachments.set_caption(session, review, ids["a"], "  the band  ")
+    store_attachments.detach_explanation(session, review, ids["c"])
     session.commit()
     session.expire_all()
     got = reviews.get_review(session, review.id).attachments
@@ -209,47 +220,51 @@ def test_attach_refuses_unknown_and_twice(session, make_explanation) -> None:
     review = reviews.create_review(session, good_form())
     exp = make_explanation()
     with pytest.raises(ReviewInvalid, match="no saved explanation #999"):
-        reviews.attach_explanation(session, review, 999)
-    reviews.attach_explanation(session, review, exp.id)
+        store_attachments.attach_explanation(session, review, 999)
+    store_attachments.attach_explanation(session, review, exp.id)
     with pytest.raises(ReviewInvalid, match="already attached"):
-        reviews.attach_explanation(session, review, exp.id)
+        store_attachments.attach_explanation(session, review, exp.id)
 
 
 def test_reorder_must_name_every_attachment(session, make_explanation) -> None:
     review = reviews.create_review(session, good_form())
     for _ in range(2):
-        reviews.attach_explanation(session, review, make_explanation().id)
+        store_attachments.attach_explanation(session, review, make_explanation().id)
     first = review.attachments[0].id
     with pytest.raises(ReviewInvalid, match="exactly once"):
-        reviews.reorder_attachments(session, review, [first, first])
+        store_attachments.reorder_attachments(session, review, [first, first])
 
 
 def test_action_items(session) -> None:
     review = reviews.create_review(session, good_form())
-    item = reviews.add_action_item(
+    item = store_actions.add_action_item(
         session, review, {"text": "Add a cache warm-up", "owner": "Dana", "due_date": "2026-12-15"}
     )
     assert item.due_date == dt.date(2026, 12, 15) and item.state == "open"
-    reviews.update_action_item(session, review, item.id, {"text": "Warm-up", "state": "done"})
+    store_actions.update_action_item(session, review, item.id, {"text": "Warm-up", "state": "done"})
     assert item.state == "done" and item.due_date is None
     with pytest.raises(ReviewInvalid) as info:
-        reviews.add_action_item(session, review, {"text": "", "due_date": "15/12", "state": "x"})
+        store_actions.add_action_item(
+            session, review, {"text": "", "due_date": "15/12", "state": "x"}
+        )
     assert set(info.value.errors) == {"text", "due_date", "state"}
-    reviews.delete_action_item(session, review, item.id)
+    store_actions.delete_action_item(session, review, item.id)
     assert review.action_items == []
 
 
 def test_verdict(session) -> None:
     review = reviews.create_review(session, good_form())
-    reviews.set_verdict(session, review, "tune", parameters={"threshold": 650.0}, rationale="r")
+    store_verdicts.set_verdict(
+        session, review, "tune", parameters={"threshold": 650.0}, rationale="r"
+    )
     assert review.verdict == "tune" and review.verdict_parameters == {"threshold": 650.0}
-    reviews.set_verdict(session, review, "keep", parameters={"threshold": 1.0})
+    store_verdicts.set_verdict(session, review, "keep", parameters={"threshold": 1.0})
     assert review.verdict_parameters == {}
     with pytest.raises(ReviewInvalid, match="new parameters"):
-        reviews.set_verdict(session, review, "tune")
+        store_verdicts.set_verdict(session, review, "tune")
     with pytest.raises(ReviewInvalid, match="keep, tune, retire"):
-        reviews.set_verdict(session, review, "silence")
-    reviews.set_verdict(session, review, None)
+        store_verdicts.set_verdict(session, review, "silence")
+    store_verdicts.set_verdict(session, review, None)
     assert review.verdict is None
 
 
@@ -261,18 +276,18 @@ def test_incident_windows_by_page_and_by_attachment(
     by_attachment = reviews.create_review(
         session, good_form(incident_start="2026-12-01T10:00", incident_end="2026-12-01T11:00")
     )
-    reviews.attach_explanation(session, by_attachment, make_explanation(series).id)
+    store_attachments.attach_explanation(session, by_attachment, make_explanation(series).id)
     reviews.create_review(session, good_form(title="unrelated"))
-    reviews.attach_explanation(
+    store_attachments.attach_explanation(
         session, reviews.list_reviews(session, "unrelated")[0], make_explanation(other).id
     )
-    windows = reviews.incident_windows(session, series.id)
+    windows = store_incidents.incident_windows(session, series.id)
     assert windows == [
         (pd.Timestamp("2026-11-30 14:00", tz="UTC"), pd.Timestamp("2026-11-30 16:00", tz="UTC")),
         (pd.Timestamp("2026-12-01 10:00", tz="UTC"), pd.Timestamp("2026-12-01 11:00", tz="UTC")),
     ]
-    assert reviews.series_ids_of(session, by_page) == {series.id}
-    every = reviews.incident_windows(session)  # no series: every review with a window
+    assert store_incidents.series_ids_of(session, by_page) == {series.id}
+    every = store_incidents.incident_windows(session)  # no series: every review with a window
     assert len(every) == 3 and all(w in every for w in windows)  # "unrelated" shares a window
 
 
@@ -280,12 +295,12 @@ def test_time_facts_of_a_computed_explanation_put_the_first_outside_first(
     session, make_series, make_real_explanation
 ) -> None:
     exp = make_real_explanation(make_series())
-    facts = reviews.time_facts(exp)
+    facts = store_timeline.time_facts(exp)
     assert next(iter(facts)) == "first_outside"
     # the synthetic burst starts with the window (conftest): the first time outside is in it
-    assert reviews.parse_time(exp.facts["first_outside"]) == facts["first_outside"]
+    assert utc_datetime(exp.facts["first_outside"]) == facts["first_outside"]
     assert exp.window_start <= facts["first_outside"] <= exp.window_end
-    entry = reviews.timeline_entry_from_fact(
+    entry = store_timeline.timeline_entry_from_fact(
         session, reviews.create_review(session, {"title": "t"}), exp, "first_outside"
     )
     assert entry.text.startswith("First outside the expected band on ")

@@ -137,7 +137,7 @@ def test_zoom_returns_finer_data_for_the_range(client, stored, url_for_explain):
 
 
 def test_one_failing_panel_leaves_the_others(client, stored, url_for_explain, monkeypatch):
-    from webapp.web import figures
+    from webapp.web.charts import explain as figures
 
     def broken(*args, **kwargs):
         raise RuntimeError("overlay exploded")

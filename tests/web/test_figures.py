@@ -6,8 +6,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from webapp.web import figures
-from webapp.web.downsample import minmax_indices
+from webapp.web.charts import explain as figures
+from webapp.web.charts.downsample import minmax_indices
 
 
 def synthetic_frame(weeks: int = 8, step: str = "1min") -> pd.DataFrame:

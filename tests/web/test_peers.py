@@ -7,7 +7,7 @@ import re
 
 import pytest
 
-from webapp.web import peers as peers_module
+from webapp.web.views import peers as peers_module
 
 PEER_URL = re.compile(r'hx-get="(/explain/peers\?[^"]+)"')
 

@@ -76,7 +76,7 @@ def test_user_strings_are_escaped(client, csrf, upload_files, make_csv):
 
 
 def test_unexpected_error_is_a_readable_500(app, client, monkeypatch):
-    from webapp.web import home
+    from webapp.web.views import home
 
     def broken(session):
         raise RuntimeError("disk on fire")

@@ -36,7 +36,7 @@ def test_unknown_series_is_a_404(client):
 
 
 def test_sparkline_path_lifts_the_pen_at_gaps():
-    from webapp.web.sparkline import sparkline_path
+    from webapp.web.charts.sparkline import sparkline_path
 
     path = sparkline_path([1.0, 2.0, None, 3.0, 4.0])
     assert path.count("M") == 2 and path.count("L") == 2

@@ -6,8 +6,12 @@
 To fit on one history and forecast on another grid without the facts and sentences:
 `expected_band(history, grid_index, tolerance=3.0, tz="UTC")`, or `fit_baseline(baseline)`
 then `.band(grid_index, tolerance)` (see `webapp.analysis._band`).
+
+To replay an alert rule with its report, what-if sweep and drafted verdict:
+`RuleReplay(series, ThresholdRule(above=800, hold="10min"), incidents).fit()`.
 """
 
+from ._alert_replay import RuleReplay, RuleReplayResult
 from ._band import expected_band, fit_baseline
 from ._explain import ENGINE_VERSION, Explanation, explain
 from ._grid import infer_step, regularize
@@ -21,6 +25,8 @@ from ._whatif import band_sweep, sweep_grid, whatif_sweep
 
 __all__ = [
     "ENGINE_VERSION",
+    "RuleReplay",
+    "RuleReplayResult",
     "Explanation",
     "expected_band",
     "explain",

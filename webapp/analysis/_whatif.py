@@ -48,7 +48,7 @@ SWEEP_COLUMNS = [
     "median_delay",
     "caught",
 ]
-DEFAULT_PENDINGS = tuple(pd.Timedelta(minutes=m) for m in (0, 1, 2, 5, 10, 15, 30))
+DEFAULT_HOLDS = tuple(pd.Timedelta(minutes=m) for m in (0, 1, 2, 5, 10, 15, 30))
 
 
 def _check_thresholds(thresholds: Iterable[float]) -> np.ndarray:
@@ -193,7 +193,7 @@ def sweep_grid(series: pd.Series, rule: Rule) -> tuple[list[float], list[pd.Time
     the current one; for a threshold rule, thresholds from half to twice the current one
     plus the series' upper (or lower) tail quantiles; for a band rule, tolerances from 2 to 8
     plus the current one."""
-    holds: Sequence[pd.Timedelta] = sorted(set(DEFAULT_PENDINGS) | {rule.hold})
+    holds: Sequence[pd.Timedelta] = sorted(set(DEFAULT_HOLDS) | {rule.hold})
     if isinstance(rule, BandRule):
         return sorted(set(DEFAULT_TOLERANCES) | {float(rule.tolerance)}), list(holds)
     if not isinstance(rule, ThresholdRule):

@@ -6,12 +6,16 @@ UTC columns, the forms for what a reader types, the screens and exports for what
 
 from __future__ import annotations
 
+import math
 from typing import Any
+from zoneinfo import ZoneInfo
 
 import pandas as pd
 
 __all__ = [
     "to_utc",
+    "to_timestamp",
+    "local_time",
     "parse_time",
     "parse_duration",
     "short_duration",
@@ -21,7 +25,7 @@ __all__ = [
     "DURATION_HELP",
 ]
 
-TIME_FORMAT_HELP = "a date and time such as 2026-11-30T14:05 (or ISO 8601 with an offset)"
+TIME_FORMAT_HELP = "a date and time, e.g. 2026-11-30 14:05 (or ISO 8601 with an offset)"
 DURATION_HELP = "10min, 90s or 1h"
 
 
@@ -111,6 +115,31 @@ def rough_duration(delta: pd.Timedelta | None) -> str:
     if seconds < 3600 * 2:
         return f"{sign}{seconds / 60:.0f} min"
     return f"{sign}{seconds / 3600:.1f} h"
+
+
+def to_timestamp(value: Any) -> pd.Timestamp | None:
+    """A UTC Timestamp from a Timestamp, datetime, ISO string or epoch milliseconds."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return None
+    if isinstance(value, int | float) and not isinstance(value, bool):
+        return pd.Timestamp(int(value), unit="ms", tz="UTC")
+    ts = pd.Timestamp(value)
+    if ts is pd.NaT:
+        return None
+    return ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
+
+
+def local_time(value: Any, tz: str = "UTC", with_zone: bool = False) -> str:
+    """``2026-11-30 14:05`` on the wall clock of ``tz`` (seconds only when not zero); a dash
+    for no time."""
+    ts = to_timestamp(value)
+    if ts is None:
+        return "—"
+    local = ts.tz_convert(ZoneInfo(tz))
+    text = local.strftime("%Y-%m-%d %H:%M")
+    if local.second:
+        text += local.strftime(":%S")
+    return f"{text} {local.strftime('%Z')}" if with_zone else text
 
 
 def _is_number(text: str) -> bool:

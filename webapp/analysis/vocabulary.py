@@ -13,6 +13,8 @@ __all__ = [
     "VERDICTS",
     "OWNER_DECIDES",
     "SWEEP_LEVEL",
+    "FACT_LABELS",
+    "fact_label",
 ]
 
 #: An alert rule compares the value with a fixed threshold or with the expected band.
@@ -51,3 +53,18 @@ OWNER_DECIDES = (
     "the service owner and the team's own paging policy decide whether the alert is kept, "
     "tuned or retired."
 )
+
+#: The explainer's time facts a review's timeline most often wants, in that order.
+FACT_LABELS = {
+    "first_outside": "First outside the expected band",
+    "peak_time": "Peak value",
+    "strongest_time": "Furthest from the expected value",
+    "last_outside": "Last outside the expected band",
+    "window_start": "Explained window starts",
+    "window_end": "Explained window ends",
+}
+
+
+def fact_label(name: str) -> str:
+    """The label of a time fact (an explanation's facts, a timeline entry's source)."""
+    return FACT_LABELS.get(name) or name.replace("_", " ").strip().capitalize()

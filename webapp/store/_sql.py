@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from collections.abc import Iterator, Sequence
+from collections.abc import Iterable, Iterator, Mapping, Sequence
 from contextlib import contextmanager
 from typing import Any, TypeVar
 
@@ -55,3 +55,19 @@ def driver_cursor(connection: Connection, statement: str) -> Iterator[Any]:
         raise DBAPIError.instance(statement, None, err, dbapi_error) from err
     finally:
         cursor.close()
+
+
+class ReviewInvalid(ValueError):
+    """Raised with ``errors``: field name -> what was wrong and what is expected."""
+
+    def __init__(self, errors: Mapping[str, str]) -> None:
+        self.errors = dict(errors)
+        super().__init__("; ".join(f"{k}: {v}" for k, v in self.errors.items()))
+
+
+def child_of(items: Iterable[Any], item_id: int, what: str) -> Any:
+    """The item of a review's ``items`` with ``item_id``; ReviewInvalid when it has none."""
+    for item in items:
+        if item.id == int(item_id):
+            return item
+    raise ReviewInvalid({"id": f"This review has no {what} #{item_id}."})

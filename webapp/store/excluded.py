@@ -14,7 +14,7 @@ from sqlalchemy import or_, select
 from sqlalchemy.orm import Session
 
 from webapp.analysis.times import to_utc
-from webapp.store import reviews
+from webapp.store import incidents as store_incidents
 from webapp.store._sql import delete_by_id
 from webapp.store.models import ExcludedPeriod
 from webapp.store.times import utc
@@ -63,7 +63,7 @@ def review_windows(session: Session, series_id: int) -> list[tuple[int, Span]]:
     incident out of baselines; such a window is switched off in the review, not here."""
     return [
         (r.id, (to_utc(r.incident_start), to_utc(r.incident_end)))
-        for r in reviews.reviews_for_series(session, series_id)
+        for r in store_incidents.reviews_for_series(session, series_id)
         if r.exclude_from_baselines
         and r.incident_start is not None
         and r.incident_end is not None

@@ -1,4 +1,6 @@
-"""The web layer: one blueprint per screen, registered by :func:`register_web`."""
+"""The web layer: screens in ``views/`` (one blueprint each), figure builders in
+``charts/``, request parsing in ``forms/``; at this level the plumbing every screen shares
+(CSRF, errors, template filters, htmx, Markdown, assets) and the review export writer."""
 
 from __future__ import annotations
 
@@ -6,12 +8,9 @@ from flask import Flask
 
 
 def register_web(app: Flask) -> None:
-    from webapp.web import (
-        assets,
-        csrf,
-        errors,
+    from webapp.web import assets, csrf, errors, filters
+    from webapp.web.views import (
         explain,
-        filters,
         home,
         imports,
         pages,

@@ -13,30 +13,7 @@ import pandas as pd
 from flask import Flask, url_for
 from werkzeug.routing import BuildError
 
-from webapp.analysis.times import long_duration
-
-
-def to_timestamp(value: Any) -> pd.Timestamp | None:
-    """A UTC Timestamp from a Timestamp, datetime, ISO string or epoch milliseconds."""
-    if value is None or (isinstance(value, float) and math.isnan(value)):
-        return None
-    if isinstance(value, int | float) and not isinstance(value, bool):
-        return pd.Timestamp(int(value), unit="ms", tz="UTC")
-    ts = pd.Timestamp(value)
-    if ts is pd.NaT:
-        return None
-    return ts.tz_localize("UTC") if ts.tzinfo is None else ts.tz_convert("UTC")
-
-
-def local_time(value: Any, tz: str = "UTC", with_zone: bool = False) -> str:
-    ts = to_timestamp(value)
-    if ts is None:
-        return "—"
-    local = ts.tz_convert(ZoneInfo(tz))
-    text = local.strftime("%Y-%m-%d %H:%M")
-    if local.second:
-        text += local.strftime(":%S")
-    return f"{text} {local.strftime('%Z')}" if with_zone else text
+from webapp.analysis.times import local_time, long_duration, to_timestamp
 
 
 def input_time(value: Any, tz: str = "UTC") -> str:

@@ -1,31 +1,74 @@
-"""The evidence behind an Explain screen, live or frozen, and its panels.
+"""Explain a series, alone or beside its peers: the evidence behind an Explain screen, live or
+frozen, and the peer comparison of its Peers panel.
 
 Live evidence is computed from the store (and kept in a small cache, so zooming in and
 saving do not recompute); frozen evidence is read back from a saved explanation and is
-never recomputed. Each panel is built on its own: one that fails shows its message and
-the others still draw.
+never recomputed. The screen draws its panels from it (``webapp.web.charts.evidence``).
 """
 
 from __future__ import annotations
 
 import logging
+from collections import Counter
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import pandas as pd
-import plotly.graph_objects as go
-from markupsafe import Markup
 from sqlalchemy.orm import Session
 
-from webapp.web import figures
-from webapp.web.cache import Recent
-from webapp.web.params import ExplainQuery, Span
+from webapp.analysis import compare_peers, explain, past_weeks_overlay
+from webapp.analysis.times import local_time
+from webapp.services.cache import Recent
+from webapp.store import explanations as store_explanations
+from webapp.store import imports as store_imports
+from webapp.store import series as store_series
 
 log = logging.getLogger(__name__)
 
-PANELS = ("band", "overlay", "components")
+Span = tuple[pd.Timestamp, pd.Timestamp]
+
 CACHE_SIZE = 6
+
+
+def format_span(span: Span) -> str:
+    return f"{span[0].isoformat()}/{span[1].isoformat()}"
+
+
+@dataclass(frozen=True)
+class ExplainQuery:
+    """Everything that decides one explanation, as read from the request."""
+
+    series_id: int
+    window: Span
+    tolerance: float
+    weeks: int
+    tz: str
+    exclude: tuple[Span, ...] = field(default=())
+    page_id: int | None = None
+
+    @property
+    def history(self) -> pd.Timedelta:
+        return pd.Timedelta(weeks=self.weeks)
+
+    def args(self) -> dict[str, Any]:
+        """The query string that reproduces this explanation (for links and hx-push-url)."""
+        args: dict[str, Any] = {
+            "series": self.series_id,
+            "start": self.window[0].isoformat(),
+            "end": self.window[1].isoformat(),
+            "tolerance": f"{self.tolerance:g}",
+            "weeks": self.weeks,
+            "tz": self.tz,
+        }
+        if self.exclude:
+            args["exclude"] = [format_span(s) for s in self.exclude]
+        if self.page_id is not None:
+            args["page"] = self.page_id
+        return args
+
+    def with_window(self, window: Span) -> ExplainQuery:
+        return replace(self, window=window)
 
 
 @dataclass
@@ -47,28 +90,13 @@ class Evidence:
     marks: list[tuple[pd.Timestamp, str]] = field(default_factory=list)
 
 
-@dataclass(frozen=True)
-class Panel:
-    name: str
-    figure: Markup | None = None
-    error: str | None = None
-    payload_bytes: int = 0
-
-
-def figure_json(fig: go.Figure) -> Markup:
-    """A figure's JSON, safe inside ``<script type="application/json">`` (no ``<``, ``>``
-    or ``&`` left that could end the script element)."""
-    text = fig.to_json()
-    return Markup(text.replace("&", "\\u0026").replace("<", "\\u003c").replace(">", "\\u003e"))
-
-
 _explanations = Recent(CACHE_SIZE)
+_comparisons = Recent(4)
 _points = Recent(2)  # moving a control re-explains without reading the points again
 
 
 def imports_version(session: Session) -> tuple:
     """Changes whenever an import is recorded or undone, in whichever database."""
-    from webapp.store import imports as store_imports
 
     ids = [row.id for row in store_imports.list_imports(session)]
     return (
@@ -91,7 +119,6 @@ def data_version(session: Session, series: Any) -> tuple:
 def live_evidence(
     session: Session, series: Any, query: ExplainQuery, stored_exclusions: Sequence[Span]
 ) -> Evidence:
-    from webapp.store import series as store_series
 
     exclude = tuple(query.exclude) + tuple(stored_exclusions)
     version = data_version(session, series)
@@ -107,8 +134,6 @@ def live_evidence(
 
 
 def _compute(series: Any, values: pd.Series, query: ExplainQuery, exclude: list[Span]) -> Evidence:
-    from webapp.analysis import explain, past_weeks_overlay
-
     evidence = Evidence(series_key=series.key, unit=series.unit, tz=query.tz)
     if values.dropna().empty:
         evidence.errors["explain"] = no_data_message(series, query)
@@ -143,8 +168,6 @@ def _compute(series: Any, values: pd.Series, query: ExplainQuery, exclude: list[
 
 
 def no_data_message(series: Any, query: ExplainQuery) -> str:
-    from webapp.web.filters import local_time
-
     start, end = query.window[0] - query.history, query.window[1]
     message = (
         f"{series.key} has no data from {local_time(start, query.tz)} to "
@@ -160,7 +183,6 @@ def no_data_message(series: Any, query: ExplainQuery) -> str:
 
 def frozen_evidence(row: Any, unit: str | None) -> Evidence:
     """Evidence read back from a saved explanation, exactly as it was saved."""
-    from webapp.store import explanations as store_explanations
 
     parameters = dict(row.parameters or {})
     evidence = Evidence(
@@ -185,41 +207,66 @@ def frozen_evidence(row: Any, unit: str | None) -> Evidence:
     return evidence
 
 
-def build_figure(evidence: Evidence, name: str, view: Span | None = None) -> go.Figure:
-    """One panel's figure; raises ValueError when the evidence has nothing for it."""
-    frame = evidence.frame
-    if frame is None:
-        raise ValueError("Nothing to draw: the reason is given at the top of the page.")
-    if view is not None:
-        margin = (view[1] - view[0]) * 0.05
-        frame = frame[(frame.index >= view[0] - margin) & (frame.index <= view[1] + margin)]
-        if frame.empty:
-            raise ValueError("No data in that time range.")
-    if name == "band":
-        return figures.band_figure(
-            frame, evidence.tz, evidence.unit, evidence.series_key, view=view, marks=evidence.marks
+@dataclass(frozen=True)
+class Peers:
+    """The stored series of the group: the target's row plus its peers, and the label
+    they differ in."""
+
+    label: str
+    rows: dict[str, Any]  # series key -> SeriesInfo, the target included
+    names: dict[str, str]  # series key -> the differing label's value
+
+
+def find_peers(session: Session, series: Any) -> Peers | None:
+    """The series of the same metric whose labels differ from `series` in exactly one
+    label. When peers differ in different labels (some in host, some in region), the label
+    shared by most of them wins (ties by name). None when there are no peers."""
+    mine = dict(series.labels or {})
+    if not mine:
+        return None
+    candidates = [
+        row
+        for row in store_series.list_series(session, q=series.metric)
+        if row.metric == series.metric and row.id != series.id and set(row.labels) == set(mine)
+    ]
+    by_label: dict[str, list[Any]] = {}
+    for row in candidates:
+        differing = [k for k in mine if row.labels[k] != mine[k]]
+        if len(differing) == 1:
+            by_label.setdefault(differing[0], []).append(row)
+    if not by_label:
+        return None
+    counts = Counter({label: len(rows) for label, rows in by_label.items()})
+    label = min(counts, key=lambda k: (-counts[k], k))
+    rows = {series.key: series, **{row.key: row for row in by_label[label]}}
+    names = {key: str((row.labels or {}).get(label, key)) for key, row in rows.items()}
+    return Peers(label=label, rows=rows, names=names)
+
+
+def compare_with_peers(
+    session: Session, series: Any, query: ExplainQuery, peers: Peers, exclude: list
+) -> Any:
+    """The series and its peers explained side by side over the query's window (cached)."""
+
+    version = (*imports_version(session), tuple(sorted(peers.rows)))
+    start = query.window[0] - query.history
+
+    def build() -> Any:
+        points = {
+            key: store_series.read_series(session, row.id, start, query.window[1])
+            for key, row in peers.rows.items()
+        }
+        return compare_peers(
+            series.key,
+            points,
+            window=query.window,
+            history=query.history,
+            tolerance=query.tolerance,
+            exclude=exclude,
+            tz=query.tz,
+            unit=series.unit or "",
+            names=peers.names,
+            label=peers.label,
         )
-    if name == "components":
-        return figures.components_figure(frame, evidence.tz, evidence.unit, view=view)
-    if name == "overlay":
-        if evidence.overlay is None or evidence.overlay.empty:
-            raise ValueError(
-                evidence.errors.get("overlay", "There is no earlier week to lay over this one.")
-            )
-        return figures.overlay_figure(evidence.overlay, evidence.frame, evidence.tz, evidence.unit)
-    raise ValueError(f"Unknown figure {name!r}.")
 
-
-def build_panels(evidence: Evidence) -> dict[str, Panel]:
-    panels = {}
-    for name in PANELS:
-        try:
-            payload = figure_json(build_figure(evidence, name))
-        except ValueError as error:
-            panels[name] = Panel(name, error=str(error))
-        except Exception:
-            log.exception("panel %s failed for %s", name, evidence.series_key)
-            panels[name] = Panel(name, error="This figure could not be drawn; see the server log.")
-        else:
-            panels[name] = Panel(name, figure=payload, payload_bytes=len(payload))
-    return panels
+    return _comparisons.get((series.id, version, query, tuple(exclude)), build)

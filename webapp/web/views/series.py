@@ -5,11 +5,11 @@ from __future__ import annotations
 from flask import Blueprint, abort, redirect, request, url_for
 from werkzeug.wrappers import Response
 
+from webapp.services.cache import Recent
+from webapp.services.explain import imports_version
 from webapp.store import db
-from webapp.web.cache import Recent
-from webapp.web.evidence import imports_version
+from webapp.web.charts.sparkline import sparkline_path
 from webapp.web.htmx import render
-from webapp.web.sparkline import sparkline_path
 
 bp = Blueprint("series", __name__)
 

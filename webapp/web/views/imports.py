@@ -13,8 +13,8 @@ from werkzeug.wrappers import Response
 
 from webapp import resource_dir
 from webapp.store import db
+from webapp.web.forms.params import parse_tz
 from webapp.web.htmx import render
-from webapp.web.params import parse_tz
 
 bp = Blueprint("imports", __name__)
 

@@ -10,12 +10,11 @@ import pandas as pd
 from flask import Blueprint, Response, abort, current_app, jsonify, redirect, request, url_for
 from werkzeug.wrappers import Response as WerkzeugResponse
 
+from webapp.services import explain as ev
 from webapp.store import db
-from webapp.web import evidence as ev
-from webapp.web import peers
-from webapp.web.figures import from_wall_clock
-from webapp.web.htmx import is_htmx, render
-from webapp.web.params import (
+from webapp.web.charts import evidence as panels
+from webapp.web.charts.explain import from_wall_clock
+from webapp.web.forms.params import (
     ExplainQuery,
     Span,
     bad_request,
@@ -24,6 +23,7 @@ from webapp.web.params import (
     parse_tz,
     read_query,
 )
+from webapp.web.htmx import is_htmx, render
 
 bp = Blueprint("explain", __name__)
 
@@ -105,6 +105,13 @@ def page_marks(page_id: int | None) -> list[tuple[pd.Timestamp, str]]:
     return marks
 
 
+def peers_panel_url(series: Any, query: ExplainQuery) -> str | None:
+    """Where the Explain screen loads the Peers panel from; None when there are no peers."""
+    if ev.find_peers(db.get_session(), series) is None:
+        return None
+    return url_for("peers.panel", **query.args())
+
+
 def current_query(args: Any) -> tuple[Any, ExplainQuery]:
     series = load_series(parse_int(args.get("series"), "series number"))
     if series.last_ts is None:
@@ -152,10 +159,10 @@ def explain_page(series: Any, query: ExplainQuery) -> Response:
         series=series,
         query=query,
         evidence=evidence,
-        panels=ev.build_panels(evidence),
+        panels=panels.build_panels(evidence),
         stored=stored_list(series.id),
         fine=lambda name: url_for("explain.live_figure", name=name, **query.args()),
-        peers_url=peers.panel_url(series, query),
+        peers_url=peers_panel_url(series, query),
     )
     # The address bar shows the canonical query (a period just added appears as exclude=).
     return Response(html, headers={"HX-Push-Url": url_for("explain.index", **query.args())})
@@ -176,14 +183,14 @@ def view_from_args(tz: str) -> Span | None:
 
 
 def figure_response(evidence: ev.Evidence, name: str) -> Response:
-    if name not in ev.PANELS:
+    if name not in panels.PANELS:
         abort(404, description=f"There is no figure called {name!r}.")
     view = view_from_args(evidence.tz)
     try:
-        fig = ev.build_figure(evidence, name, view=view)
+        fig = panels.build_figure(evidence, name, view=view)
     except ValueError as error:
         return jsonify(error=str(error)), 422
-    return Response(ev.figure_json(fig), mimetype="application/json")
+    return Response(panels.figure_json(fig), mimetype="application/json")
 
 
 @bp.get("/explain/figure/<name>")
@@ -298,7 +305,7 @@ def saved(explanation_id: int) -> str:
         row=row,
         again=again_args(row, evidence.tz),
         evidence=evidence,
-        panels=ev.build_panels(evidence),
+        panels=panels.build_panels(evidence),
         fine=lambda name: url_for("explain.saved_figure", explanation_id=row.id, name=name),
     )
 

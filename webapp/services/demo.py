@@ -1,4 +1,6 @@
-"""Loading the demo scenario (``webapp.demo.build_demo``) into a store.
+"""Loading the demo scenario (``webapp.demo.build_demo``) into a store, through the same
+store and analysis functions the app uses (the explanations are computed, then frozen).
+
 
 The scenario brings the points, alert rules, pages, excluded periods and incidents; each
 incident becomes a review tied to the page it caused, with a frozen explanation of the
@@ -13,7 +15,9 @@ import pandas as pd
 from sqlalchemy.orm import Session
 
 from webapp.analysis import explain, past_weeks_overlay
+from webapp.store import attachments as store_attachments
 from webapp.store import excluded, explanations, pages, reviews, rules
+from webapp.store import timeline as store_timeline
 from webapp.store.imports import record_import
 from webapp.store.models import Page, Series
 from webapp.store.series import read_series, series_by_keys
@@ -101,9 +105,13 @@ def _review(session: Session, incident: dict, page_rows: list[Page], ids: dict[s
     review = reviews.create_review(session, data)
     if page is not None:
         review.alert_rule_id = page.alert_rule_id
-        reviews.add_timeline_entry(session, review, page.fired_at, f"Paged: {page.rule_text}")
+        store_timeline.add_timeline_entry(
+            session, review, page.fired_at, f"Paged: {page.rule_text}"
+        )
         if page.resolved_at is not None:
-            reviews.add_timeline_entry(session, review, page.resolved_at, "The page resolved.")
+            store_timeline.add_timeline_entry(
+                session, review, page.resolved_at, "The page resolved."
+            )
     return review
 
 
@@ -134,7 +142,7 @@ def _attach_explanation(
     row = explanations.save_explanation(
         session, exp, series_id, overlay=overlay, title=incident["title"], page_id=review.page_id
     )
-    reviews.attach_explanation(
+    store_attachments.attach_explanation(
         session, review, row.id, caption=f"{row.series_key} against its expected band"
     )
     return 1

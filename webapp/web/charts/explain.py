@@ -3,7 +3,7 @@
 They take the explanation's frame (and the past-weeks overlay) as stored, so a saved
 explanation draws from its frozen frame exactly as it drew when it was saved. Times are
 shown as wall-clock time in the reader's time zone; every trace is reduced for display with
-its spikes kept (:mod:`webapp.web.downsample`), and a narrower ``view`` is drawn in full
+its spikes kept (:mod:`webapp.web.charts.downsample`), and a narrower ``view`` is drawn in full
 detail, which is how the page fetches finer data when the reader zooms in.
 """
 
@@ -15,8 +15,8 @@ import numpy as np
 import pandas as pd
 import plotly.graph_objects as go
 
-from webapp.web import palette
-from webapp.web.downsample import clip, minmax_indices, reduce_together
+from webapp.web.charts import palette
+from webapp.web.charts.downsample import clip, minmax_indices, reduce_together
 
 DEFAULT_POINTS = 2000
 Window = tuple[pd.Timestamp, pd.Timestamp]

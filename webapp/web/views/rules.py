@@ -12,21 +12,25 @@ from sqlalchemy.orm import Session
 
 from webapp.analysis.times import short_duration
 from webapp.analysis.vocabulary import OWNER_DECIDES
+from webapp.services.replay import TZ, Replay, firing_rows, matching_series, rule_text, run_replay
 from webapp.store import db
+from webapp.store import incidents as store_incidents
 from webapp.store import reviews as store_reviews
 from webapp.store import rules as store_rules
 from webapp.store import series as store_series
 from webapp.store.models import AlertRule, Review
 from webapp.store.reviews import ReviewInvalid
-from webapp.web.htmx import render
-from webapp.web.rule_form import (
+from webapp.web.charts import rules as rule_charts
+from webapp.web.export import figure_div
+from webapp.web.forms import reviews as review_forms
+from webapp.web.forms.rules import (
     RuleFormInvalid,
     parse_rule_form,
     parse_sweep,
     rule_form_values,
     sweep_level,
 )
-from webapp.web.rule_replay import TZ, Replay, firing_rows, matching_series, rule_text, run_replay
+from webapp.web.htmx import render
 
 bp = Blueprint("rules", __name__)
 
@@ -149,6 +153,7 @@ def _show(
         candidates=candidates,
         info=info,
         replay=replay,
+        figures=_figures(replay) if replay else {},
         problem=problem,
         reviews=reviews,
         form=form or _verdict_values(replay, rule, reviews),
@@ -162,6 +167,28 @@ def _show(
         tz=TZ,
     )
     return html, 422 if errors else 200
+
+
+def _figures(replay: Replay) -> dict[str, str]:
+    """The replay figure (a band rule's band drawn from the replay's own daily fits) and
+    the what-if figure with the rule's own and the drafted setting marked."""
+    result = replay.result
+    threshold = result.current[0] if result.bands is None else None
+    band = (result.bands, result.current[0]) if result.bands is not None else None
+    replay_fig = rule_charts.replay_figure(
+        replay.values,
+        result.firings,
+        result.incidents,
+        threshold,
+        replay.series.unit,
+        TZ,
+        band=band,
+    )
+    sweep_fig = rule_charts.sweep_figure(result.sweep, result.current, result.drafted)
+    return {
+        "replay": figure_div(replay_fig, "replay-figure", False),
+        "sweep": figure_div(sweep_fig, "sweep-figure", False),
+    }
 
 
 def _sweep_values(replay: Replay | None, args: Mapping[str, str], field: str) -> dict[str, str]:
@@ -180,7 +207,7 @@ def _sweep_values(replay: Replay | None, args: Mapping[str, str], field: str) ->
 
 def _reviews_for(session: Session, series_id: int | None) -> list[Review]:
     """This series' reviews first (latest incident first), then every other review."""
-    tied = store_reviews.reviews_for_series(session, series_id) if series_id else []
+    tied = store_incidents.reviews_for_series(session, series_id) if series_id else []
     tied_ids = {r.id for r in tied}
     return sorted(
         tied, key=lambda r: r.incident_start or pd.Timestamp.min.tz_localize("UTC"), reverse=True
@@ -197,7 +224,7 @@ def _verdict_values(
     return {
         "review_id": str((tied or reviews or [None])[0].id) if (tied or reviews) else "",
         "verdict": replay.draft.suggestion,
-        "verdict_parameters": store_reviews.format_parameters(parameters),
+        "verdict_parameters": review_forms.format_parameters(parameters),
         "verdict_rationale": replay.draft.rationale,
     }
 
@@ -213,7 +240,7 @@ def carry_verdict(rule_id: int) -> Any:
     try:
         if review is None:
             raise ReviewInvalid({"review_id": "Pick the review that records this verdict."})
-        store_reviews.record_verdict(session, review, f, rule.id)
+        review_forms.record_verdict(session, review, f, rule.id)
     except ReviewInvalid as err:
         session.rollback()
         return _show(load_rule(rule_id), f, err.errors)

@@ -13,12 +13,17 @@ from typing import Any
 from flask import Blueprint, abort, flash, redirect, render_template, request, send_file, url_for
 from werkzeug.wrappers import Response
 
-from webapp.analysis.vocabulary import OWNER_DECIDES
+from webapp.analysis.vocabulary import OWNER_DECIDES, fact_label
+from webapp.services import review_export
+from webapp.store import action_items as store_actions
+from webapp.store import attachments as store_attachments
 from webapp.store import db
 from webapp.store import reviews as store
+from webapp.store import timeline as store_timeline
 from webapp.store.models import AlertRule, Explanation, Page, Review
 from webapp.store.reviews import ReviewInvalid
 from webapp.web import export, filters
+from webapp.web.forms import reviews as review_forms
 from webapp.web.htmx import render
 from webapp.web.markdown import render_markdown
 
@@ -70,10 +75,10 @@ def new() -> Any:
     if request.method == "GET":
         return _form_page("reviews/new.html", None, _prefill(request.args), {})
     try:
-        review = store.create_review(session, request.form, TZ)
+        review = store.create_review(session, review_forms.review_data(request.form), TZ)
         explanation_id = request.form.get("explanation_id", "").strip()
         if explanation_id.isdigit():
-            store.attach_explanation(session, review, int(explanation_id))
+            store_attachments.attach_explanation(session, review, int(explanation_id))
     except ReviewInvalid as err:
         session.rollback()
         return _form_page("reviews/new.html", None, request.form, err.errors)
@@ -116,7 +121,8 @@ def _show(
 ) -> tuple[str, int]:
     """The review page; ``forms``/``errors`` carry a sub-form's typed values and messages."""
     session = db.get_session()
-    evidence = export.review_evidence(session, review, TZ)
+    evidence = review_export.review_evidence(session, review, TZ)
+    export.draw_evidence(evidence)
     for item in evidence:
         item.html = [(name, export.figure_div(fig, f"fig-{item.number}-{name}", False))
                      for name, fig in item.figures]  # fmt: skip
@@ -131,16 +137,18 @@ def _show(
     html = render_template(
         "reviews/show.html",
         review=review,
-        header=export.header_lines(review, page, rule),
+        header=review_export.header_lines(review, page, rule),
         evidence=evidence,
         available=available,
-        time_facts={a.explanation_id: store.time_facts(a.explanation) for a in review.attachments},
+        time_facts={
+            a.explanation_id: store_timeline.time_facts(a.explanation) for a in review.attachments
+        },
         rules=list(session.query(AlertRule).order_by(AlertRule.name)),
         forms=forms or {},
         errors=errors or {},
         verdict_warning=OWNER_DECIDES,
-        format_parameters=store.format_parameters,
-        fact_label=store.fact_label,
+        format_parameters=review_forms.format_parameters,
+        fact_label=fact_label,
         tz=TZ,
     )
     return html, 422 if errors else 200
@@ -153,7 +161,7 @@ def edit(review_id: int) -> Any:
         return _form_page("reviews/edit.html", review, form_values(review), {})
     session = db.get_session()
     try:
-        store.update_review(session, review, request.form, TZ)
+        store.update_review(session, review, review_forms.review_data(request.form), TZ)
     except ReviewInvalid as err:
         session.rollback()
         return _form_page("reviews/edit.html", review, request.form, err.errors)
@@ -167,7 +175,9 @@ def autosave(review_id: int) -> str:
     """Store what is valid of the draft; answer with the status line and the field errors."""
     session = db.get_session()
     review = load_review(review_id)
-    saved, errors = store.autosave_review(session, review, request.form, TZ)
+    saved, errors = store.autosave_review(
+        session, review, review_forms.review_data(request.form), TZ
+    )
     session.commit()
     return render_template(
         "reviews/_autosave.html",
@@ -211,7 +221,7 @@ def add_entry(review_id: int) -> Any:
         review_id,
         "timeline",
         "timeline",
-        lambda s, r: store.add_timeline_entry(s, r, f.get("at"), f.get("text", ""), tz=TZ),
+        lambda s, r: store_timeline.add_timeline_entry(s, r, f.get("at"), f.get("text", ""), tz=TZ),
         "Timeline entry added.",
     )
 
@@ -224,7 +234,7 @@ def add_fact_entry(review_id: int) -> Any:
         explanation = session.get(Explanation, _int(f.get("explanation_id"), "explanation_id"))
         if explanation is None:
             raise ReviewInvalid({"explanation_id": "Pick one of the attached explanations."})
-        store.timeline_entry_from_fact(
+        store_timeline.timeline_entry_from_fact(
             session, review, explanation, f.get("fact", ""), f.get("text", "")
         )
 
@@ -237,7 +247,7 @@ def delete_entry(review_id: int, entry_id: int) -> Any:
         review_id,
         "timeline",
         "timeline",
-        lambda s, r: store.delete_timeline_entry(s, r, entry_id),
+        lambda s, r: store_timeline.delete_timeline_entry(s, r, entry_id),
         "Timeline entry removed.",
     )
 
@@ -249,7 +259,7 @@ def attach(review_id: int) -> Any:
         review_id,
         "attach",
         "evidence",
-        lambda s, r: store.attach_explanation(
+        lambda s, r: store_attachments.attach_explanation(
             s, r, _int(f.get("explanation_id"), "explanation_id"), f.get("caption", "")
         ),
         "Explanation attached.",
@@ -263,7 +273,7 @@ def caption(review_id: int, attachment_id: int) -> Any:
         review_id,
         f"caption-{attachment_id}",
         f"attachment-{attachment_id}",
-        lambda s, r: store.set_caption(s, r, attachment_id, text),
+        lambda s, r: store_attachments.set_caption(s, r, attachment_id, text),
         "Caption saved.",
     )
 
@@ -275,7 +285,7 @@ def move(review_id: int, attachment_id: int) -> Any:
         review_id,
         "order",
         f"attachment-{attachment_id}",
-        lambda s, r: store.move_attachment(s, r, attachment_id, offset),
+        lambda s, r: store_attachments.move_attachment(s, r, attachment_id, offset),
         "Order changed.",
     )
 
@@ -286,7 +296,7 @@ def detach(review_id: int, attachment_id: int) -> Any:
         review_id,
         "order",
         "evidence",
-        lambda s, r: store.detach_explanation(s, r, attachment_id),
+        lambda s, r: store_attachments.detach_explanation(s, r, attachment_id),
         "Explanation detached from the review (it stays saved).",
     )
 
@@ -298,7 +308,7 @@ def add_action(review_id: int) -> Any:
         review_id,
         "action",
         "actions",
-        lambda s, r: store.add_action_item(s, r, form),
+        lambda s, r: store_actions.add_action_item(s, r, form),
         "Action item added.",
     )
 
@@ -310,7 +320,7 @@ def update_action(review_id: int, item_id: int) -> Any:
         review_id,
         f"action-{item_id}",
         "actions",
-        lambda s, r: store.update_action_item(s, r, item_id, form),
+        lambda s, r: store_actions.update_action_item(s, r, item_id, form),
         "Action item saved.",
     )
 
@@ -321,7 +331,7 @@ def delete_action(review_id: int, item_id: int) -> Any:
         review_id,
         "action",
         "actions",
-        lambda s, r: store.delete_action_item(s, r, item_id),
+        lambda s, r: store_actions.delete_action_item(s, r, item_id),
         "Action item removed.",
     )
 
@@ -332,7 +342,7 @@ def verdict(review_id: int) -> Any:
 
     def change(session: Any, review: Review) -> None:
         rule_id = f.get("alert_rule_id", "").strip()
-        store.record_verdict(
+        review_forms.record_verdict(
             session, review, f, _int(rule_id, "alert_rule_id") if rule_id else None
         )
 
@@ -359,7 +369,7 @@ def download(review_id: int, fmt: str) -> Response:
             files = export.export_review(
                 db.get_session(), review.id, kind, Path(tmp) / f"{name}.{kind}"
             )
-        except export.ExportError as err:
+        except review_export.ExportError as err:
             abort(500, description=f"The export failed: {err}.")
         if fmt == "html":
             payload = io.BytesIO(files[0].read_bytes())

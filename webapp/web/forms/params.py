@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping
-from dataclasses import dataclass, field, replace
 from typing import Any
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
@@ -14,12 +13,11 @@ from werkzeug.datastructures import MultiDict
 
 from webapp.analysis import times
 from webapp.analysis.times import TIME_FORMAT_HELP
+from webapp.services.explain import ExplainQuery, Span
 
 MIN_TOLERANCE = 0.5
 MAX_TOLERANCE = 20.0
 MIN_WEEKS, MAX_WEEKS = 1, 8
-
-Span = tuple[pd.Timestamp, pd.Timestamp]
 
 
 def bad_request(message: str) -> None:
@@ -96,10 +94,6 @@ def parse_int(text: str | None, what: str) -> int | None:
     return None
 
 
-def format_span(span: Span) -> str:
-    return f"{span[0].isoformat()}/{span[1].isoformat()}"
-
-
 def parse_spans(values: list[str], tz: str) -> list[Span]:
     """Excluded periods given as ``START/END`` strings."""
     spans = []
@@ -115,42 +109,6 @@ def parse_spans(values: list[str], tz: str) -> list[Span]:
             bad_request(f"The excluded period {text!r} must start before it ends.")
         spans.append((first, last))
     return spans
-
-
-@dataclass(frozen=True)
-class ExplainQuery:
-    """Everything that decides one explanation, as read from the request."""
-
-    series_id: int
-    window: Span
-    tolerance: float
-    weeks: int
-    tz: str
-    exclude: tuple[Span, ...] = field(default=())
-    page_id: int | None = None
-
-    @property
-    def history(self) -> pd.Timedelta:
-        return pd.Timedelta(weeks=self.weeks)
-
-    def args(self) -> dict[str, Any]:
-        """The query string that reproduces this explanation (for links and hx-push-url)."""
-        args: dict[str, Any] = {
-            "series": self.series_id,
-            "start": self.window[0].isoformat(),
-            "end": self.window[1].isoformat(),
-            "tolerance": f"{self.tolerance:g}",
-            "weeks": self.weeks,
-            "tz": self.tz,
-        }
-        if self.exclude:
-            args["exclude"] = [format_span(s) for s in self.exclude]
-        if self.page_id is not None:
-            args["page"] = self.page_id
-        return args
-
-    def with_window(self, window: Span) -> ExplainQuery:
-        return replace(self, window=window)
 
 
 def read_query(

@@ -9,8 +9,8 @@ from flask import Blueprint, abort, current_app, redirect, request, url_for
 from werkzeug.wrappers import Response
 
 from webapp.store import db
+from webapp.web.forms.params import bad_request, parse_int, parse_time, parse_tz
 from webapp.web.htmx import render
-from webapp.web.params import bad_request, parse_int, parse_time, parse_tz
 
 bp = Blueprint("pages", __name__)
 

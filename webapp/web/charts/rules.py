@@ -10,9 +10,9 @@ import plotly.graph_objects as go
 
 from webapp.analysis import BandGrid
 from webapp.analysis.times import short_duration
-from webapp.web import palette
-from webapp.web.downsample import minmax_indices, reduce_together
-from webapp.web.figures import FONT, wall_clock
+from webapp.web.charts import palette
+from webapp.web.charts.downsample import minmax_indices, reduce_together
+from webapp.web.charts.explain import FONT, wall_clock
 
 MAX_SHADES = 300
 # Holds are told apart by marker shape as well as colour.
