@@ -7,7 +7,7 @@ import re
 
 import pytest
 
-from webapp.web.views import peers as peers_module
+from webapp.services import explain as explain_service
 
 PEER_URL = re.compile(r'hx-get="(/explain/peers\?[^"]+)"')
 
@@ -94,7 +94,7 @@ def test_a_failing_comparison_leaves_the_other_panels_standing(
     def broken(*args, **kwargs):
         raise RuntimeError("disk on fire")
 
-    monkeypatch.setattr(peers_module, "compare", broken)
+    monkeypatch.setattr(explain_service, "compare_with_peers", broken)
     page = client.get(url_for_explain(hosts["api-3"], tolerance=3.5))
     assert page.status_code == 200
     text = page.get_data(as_text=True)
