@@ -1,6 +1,6 @@
 """Benchmark: explain on 8 and 16 weeks of 1-minute data, against statsmodels STL.
 
-Bars (DESIGN.md): explain on 8 weeks (80,640 points) takes at most 1/4 of the time of
+Bars (docs/design.md): explain on 8 weeks (80,640 points) takes at most 1/4 of the time of
 statsmodels STL(robust=True, period = one week, jumps at 10% of each span) on the same data
 in the same run; 16 weeks take at most 2.3x the 8-week time.
 

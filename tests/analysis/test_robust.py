@@ -9,7 +9,7 @@ from webapp.analysis._robust import MAD_TO_SD, band_scale_estimate, grouped_robu
 
 def test_constant_matches_scipy_normal_scale():
     # Source: SciPy reference, scipy.stats.median_abs_deviation(scale="normal") divides the
-    # raw MAD by Phi^-1(3/4) = 0.67449 (REFERENCES.md: 1.482602218505602, computed).
+    # raw MAD by Phi^-1(3/4) = 0.67449 (docs/references.md: 1.482602218505602, computed).
     assert_allclose(MAD_TO_SD, 1.482602218505602, rtol=1e-12)
     x = np.random.default_rng(0).standard_t(3, size=501)
     assert_allclose(robust_scale(x), median_abs_deviation(x, scale="normal"), rtol=1e-12)
@@ -17,7 +17,7 @@ def test_constant_matches_scipy_normal_scale():
 
 def test_textbook_example_shows_why_mad_is_robust():
     # Common practice: the textbook illustration 1, 2, 3, 4, 5, 6, 100 has median 4, raw MAD 2,
-    # and a population standard deviation of about 33.8 (REFERENCES.md, computed).
+    # and a population standard deviation of about 33.8 (docs/references.md, computed).
     x = np.array([1, 2, 3, 4, 5, 6, 100], dtype=float)
     assert np.median(x) == 4
     assert_allclose(robust_scale(x) / MAD_TO_SD, 2.0)
@@ -26,7 +26,7 @@ def test_textbook_example_shows_why_mad_is_robust():
 
 
 def test_pingouin_worked_example():
-    # Source: pingouin `mad` documentation (REFERENCES.md, read): raw MAD 2.0, normalised
+    # Source: pingouin `mad` documentation (docs/references.md, read): raw MAD 2.0, normalised
     # 2.965204437011204.
     assert_allclose(robust_scale([1.2, 5.4, 3.2, 7.8, 2.5]), 2.965204437011204, rtol=1e-12)
 

@@ -1,4 +1,4 @@
-"""webapp/imports reads files only: no database, no web framework (DESIGN.md layer rules)."""
+"""webapp/imports reads files only: no database, no web framework (docs/design.md, layers)."""
 
 import ast
 from pathlib import Path

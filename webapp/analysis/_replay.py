@@ -1,6 +1,6 @@
 """Replay: re-run an alert rule over stored history and list when it would have fired.
 
-Semantics (DESIGN.md). The condition is evaluated at every sample of an *evaluation grid*;
+Semantics (docs/design.md). The condition is evaluated at every sample of an *evaluation grid*;
 a firing starts at the first sample at which the condition has held continuously for the
 hold, and ends at the first later sample where it is false. ``end`` is NaT for a
 firing still going at the end of the data.

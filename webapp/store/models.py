@@ -1,4 +1,4 @@
-"""SQLAlchemy 2 models for the data model in DESIGN.md.
+"""SQLAlchemy 2 models for the data model in docs/design.md.
 
 Point timestamps are UTC epoch milliseconds (``BigInteger``); every other timestamp is
 a :class:`UTCDateTime`, stored naive in UTC and handed back timezone-aware, so the same
