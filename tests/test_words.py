@@ -7,11 +7,9 @@ import pytest
 
 ROOT = Path(__file__).resolve().parents[1]
 PLACES = ["webapp", "templates", "static", "docs", "README.md", "DEVELOPERS.md"]
-# Built from their words so that this file does not itself carry the phrases it bans.
-RETIRED = [
-    " ".join(pair)
-    for pair in (("pending", "period"), ("evaluated", "every"), ("evaluation", "step"))
-]
+# Stored back to front so that this file does not itself carry the phrases it bans.
+BACKWARDS = (("period", "pending"), ("every", "evaluated"), ("step", "evaluation"))
+RETIRED = [f"{second} {first}" for first, second in BACKWARDS]
 TEXT = {".py", ".html", ".md", ".js", ".css", ".txt", ".toml", ".json"}
 
 

@@ -1,4 +1,4 @@
-"""replay(): the replay semantics of docs/design.md, hand-worked examples and a brute-force property test.
+"""replay(): the semantics in docs/design.md, hand-worked examples, a brute-force property test.
 
 Every series here is synthetic (invented for the test)."""
 
