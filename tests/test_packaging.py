@@ -7,8 +7,11 @@ wheel must carry them inside the package, or an installed whyfired cannot start.
 from __future__ import annotations
 
 import importlib.util
+import os
+import site
 import subprocess
 import sys
+import sysconfig
 import textwrap
 import zipfile
 from pathlib import Path
@@ -44,11 +47,26 @@ CHECK = textwrap.dedent(
 
 
 def run(*args: str | Path, cwd: Path) -> subprocess.CompletedProcess[str]:
+    # Without PYTHONPATH: a checkout on the path would hide whether the wheel works.
+    env = {k: v for k, v in os.environ.items() if k != "PYTHONPATH"}
     result = subprocess.run(
-        [str(a) for a in args], cwd=cwd, capture_output=True, text=True, timeout=180
+        [str(a) for a in args], cwd=cwd, capture_output=True, text=True, timeout=180, env=env
     )
     assert result.returncode == 0, f"{args} failed:\n{result.stdout}\n{result.stderr}"
     return result
+
+
+def lend_dependencies(python: Path, cwd: Path) -> None:
+    """Let the new environment import the dependencies of the running one, whether the
+    suite runs in a virtual environment or not: a ``.pth`` file naming this interpreter's
+    site-packages. Paths named in a ``.pth`` are searched after the environment's own
+    site-packages, and the ``.pth`` files inside them are not read, so an editable install
+    of whyfired here cannot shadow the wheel there."""
+    paths = {sysconfig.get_paths()[name] for name in ("purelib", "platlib")}
+    paths |= set(site.getsitepackages())  # a venv made with --system-site-packages sees these
+    found = run(python, "-c", "import sysconfig; print(sysconfig.get_paths()['purelib'])", cwd=cwd)
+    site_packages = Path(found.stdout.strip())
+    (site_packages / "lent-dependencies.pth").write_text("\n".join(sorted(paths)) + "\n")
 
 
 @pytest.mark.slow
@@ -63,8 +81,9 @@ def test_an_installed_wheel_ships_templates_static_and_migrations(tmp_path):
         assert shipped in names, f"{shipped} missing from {wheel.name}"
 
     venv = tmp_path / "venv"
-    run(sys.executable, "-m", "venv", "--system-site-packages", venv, cwd=tmp_path)
+    run(sys.executable, "-m", "venv", venv, cwd=tmp_path)
     python = venv / "bin" / "python"
+    lend_dependencies(python, tmp_path)
     run(python, "-m", "pip", "install", "--no-deps", "--no-index", "--quiet", wheel, cwd=tmp_path)
 
     elsewhere = tmp_path / "elsewhere"  # not the checkout, so only the wheel can be imported
