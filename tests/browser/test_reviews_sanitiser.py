@@ -15,7 +15,7 @@ from webapp.web.export import export_review
 pytestmark = pytest.mark.browser
 
 PAYLOADS = json.loads(
-    (Path(__file__).parents[1] / "reviews" / "injection_payloads.json").read_text("utf-8")
+    (Path(__file__).parents[1] / "web" / "injection_payloads.json").read_text("utf-8")
 )
 # What a payload that ran would leave behind: a dialog, or an element able to run script.
 LIVE_SCRIPT = """() => {

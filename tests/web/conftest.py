@@ -1,4 +1,5 @@
-"""Web fixtures: a CSRF token for the test client and a store holding synthetic series."""
+"""Web fixtures: a store holding synthetic series, filled through the Imports screen (the
+CSRF token fixture is the shared one in tests/conftest.py)."""
 
 from __future__ import annotations
 
@@ -10,7 +11,6 @@ import pandas as pd
 import pytest
 from flask.testing import FlaskClient
 
-TOKEN = "token-for-tests"
 SERIES_KEY = "checkout.latency_p95{host=api-3}"
 END = pd.Timestamp("2026-11-30 18:00", tz="UTC")
 WINDOW = (END - pd.Timedelta(hours=6), END)
@@ -36,30 +36,22 @@ def synthetic_csv(
     return frame.to_csv(index=False).encode()
 
 
-@pytest.fixture
-def csrf(client: FlaskClient) -> str:
-    """Put a known CSRF token in the client's session and return it."""
-    with client.session_transaction() as session:
-        session["csrf_token"] = TOKEN
-    return TOKEN
-
-
-def upload(client: FlaskClient, files: list[tuple[bytes, str]], **form: str):
-    data = {"csrf_token": form.pop("csrf_token", TOKEN), "format": "auto", "tz": "UTC", **form}
+def upload(client: FlaskClient, token: str, files: list[tuple[bytes, str]], **form: str):
+    data = {"csrf_token": form.pop("csrf_token", token), "format": "auto", "tz": "UTC", **form}
     data["files"] = [(io.BytesIO(body), name) for body, name in files]
     return client.post("/imports", data=data, content_type="multipart/form-data")
 
 
 @pytest.fixture
 def upload_files(client: FlaskClient, csrf: str) -> Callable:
-    return lambda files, **form: upload(client, files, **form)
+    return lambda files, **form: upload(client, csrf, files, **form)
 
 
 @pytest.fixture
 def stored(client: FlaskClient, csrf: str) -> int:
     """Three weeks of 5-minute synthetic latency imported through the Imports screen;
     returns the series id."""
-    response = upload(client, [(synthetic_csv(), "latency.csv")])
+    response = upload(client, csrf, [(synthetic_csv(), "latency.csv")])
     assert response.status_code == 200, response.get_data(as_text=True)
     from webapp.store import db
     from webapp.store import series as store_series

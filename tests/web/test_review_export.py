@@ -9,6 +9,7 @@ import pandas as pd
 import plotly
 import pytest
 
+from webapp.analysis import ENGINE_VERSION
 from webapp.store import action_items as store_actions
 from webapp.store import attachments as store_attachments
 from webapp.store import reviews
@@ -20,12 +21,15 @@ PAYLOAD = '<script>alert("from the summary")</script><img src=x onerror=alert(2)
 
 
 @pytest.fixture
-def full_review(session, make_series, make_explanation, make_real_explanation):
-    """A review with two attachments: one computed by the analysis core (band and overlay
-    figures), one synthetic frame without an overlay (band figure only)."""
+def full_review(session, make_series, make_explanation):
+    """A review with two attachments, both computed by the analysis core and saved by the
+    store: one with its past-weeks overlay (band and overlay figures), one without (band
+    figure only)."""
     series = make_series("checkout.latency_p95{host=api-3}")
-    computed = make_real_explanation(series)
-    synthetic = make_explanation(make_series("checkout.errors{host=api-3}"), title="errors")
+    computed = make_explanation(series)
+    synthetic = make_explanation(
+        make_series("checkout.errors{host=api-3}"), title="errors", overlay=False
+    )
     review = reviews.create_review(
         session,
         {
@@ -65,7 +69,7 @@ def test_markdown_names_every_figure_and_each_exists(session, full_review, tmp_p
         assert figure.stat().st_size > 10_000
     assert sorted(out.parent / p for p in named) == sorted(files[1:])
     assert "### 1. p95 against its band" in text and "### 2. errors \\| rate" in text
-    assert "| engine version | `test-1` |" in text
+    assert f"| engine version | `{ENGINE_VERSION}` |" in text
     assert "| tolerance | `3.0` |" in text
     assert "Paged \\| on-call" in text and "First outside" in text
     assert "| 1 | Warm the cache | Dana |" in text
@@ -89,7 +93,7 @@ def test_html_is_one_self_contained_file(session, full_review, tmp_path) -> None
     assert PAYLOAD not in text
     assert "&lt;script&gt;alert(" in text  # shown as text, never run
     assert re.search(r"<[a-z][^>]*\sonerror", text.split("<main>")[1]) is None
-    assert "test-1" in text and "tolerance" in text
+    assert ENGINE_VERSION in text and "tolerance" in text
     assert "Retiring an alert can hide a real failure" in text
     assert out.stat().st_size > 3_000_000  # plotly.js alone is several megabytes
 
