@@ -7,6 +7,7 @@ import pandas as pd
 import pytest
 
 from webapp.web.charts import explain as figures
+from webapp.web.charts import style
 from webapp.web.charts.downsample import minmax_indices
 
 
@@ -95,8 +96,8 @@ def test_eight_weeks_of_minutes_fit_in_a_small_payload():
 
 def test_axes_show_wall_clock_time_in_the_chosen_zone():
     index = pd.DatetimeIndex(["2026-11-30 12:00", "2026-07-01 12:00"], tz="UTC")
-    berlin = figures.wall_clock(index, "Europe/Berlin")
-    utc = figures.wall_clock(index, "UTC")
+    berlin = style.wall_clock(index, "Europe/Berlin")
+    utc = style.wall_clock(index, "UTC")
     assert (berlin - utc).tolist() == [3_600_000.0, 7_200_000.0]  # CET, then CEST
     back = figures.from_wall_clock("2026-11-30 13:00", "Europe/Berlin")
     assert back == pd.Timestamp("2026-11-30 12:00", tz="UTC")

@@ -23,6 +23,7 @@ __all__ = [
     "rough_duration",
     "TIME_FORMAT_HELP",
     "DURATION_HELP",
+    "is_number",
 ]
 
 TIME_FORMAT_HELP = "a date and time, e.g. 2026-11-30 14:05 (or ISO 8601 with an offset)"
@@ -65,7 +66,7 @@ def parse_duration(text: Any) -> pd.Timedelta | None:
     if not raw:
         return None
     try:
-        delta = pd.Timedelta(float(raw), unit="s") if _is_number(raw) else pd.Timedelta(raw)
+        delta = pd.Timedelta(float(raw), unit="s") if is_number(raw) else pd.Timedelta(raw)
     except (TypeError, ValueError, OverflowError):
         delta = None
     if delta is None or pd.isna(delta):
@@ -142,7 +143,8 @@ def local_time(value: Any, tz: str = "UTC", with_zone: bool = False) -> str:
     return f"{text} {local.strftime('%Z')}" if with_zone else text
 
 
-def _is_number(text: str) -> bool:
+def is_number(text: str) -> bool:
+    """Whether ``text`` reads as a number (a bare number of seconds, a form's level)."""
     try:
         float(text)
     except ValueError:

@@ -67,6 +67,15 @@ class ExplainQuery:
             args["page"] = self.page_id
         return args
 
+    def options(self) -> dict[str, Any]:
+        """The core's options for this query: window, history, tolerance and time zone."""
+        return {
+            "window": self.window,
+            "history": self.history,
+            "tolerance": self.tolerance,
+            "tz": self.tz,
+        }
+
     def with_window(self, window: Span) -> ExplainQuery:
         return replace(self, window=window)
 
@@ -139,15 +148,7 @@ def _compute(series: Any, values: pd.Series, query: ExplainQuery, exclude: list[
         evidence.errors["explain"] = no_data_message(series, query)
         return evidence
     try:
-        exp = explain(
-            values,
-            window=query.window,
-            history=query.history,
-            tolerance=query.tolerance,
-            exclude=exclude,
-            tz=query.tz,
-            unit=series.unit or "",
-        )
+        exp = explain(values, **query.options(), exclude=exclude, unit=series.unit or "")
     except ValueError as error:
         evidence.errors["explain"] = f"{series.key}: {error}"
         return evidence
@@ -259,11 +260,8 @@ def compare_with_peers(
         return compare_peers(
             series.key,
             points,
-            window=query.window,
-            history=query.history,
-            tolerance=query.tolerance,
+            **query.options(),
             exclude=exclude,
-            tz=query.tz,
             unit=series.unit or "",
             names=peers.names,
             label=peers.label,

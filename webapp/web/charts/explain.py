@@ -15,23 +15,11 @@ import numpy as np
 import pandas as pd
 import plotly.graph_objects as go
 
-from webapp.web.charts import palette
+from webapp.web.charts import palette, style
 from webapp.web.charts.downsample import clip, minmax_indices, reduce_together
 
 DEFAULT_POINTS = 2000
 Window = tuple[pd.Timestamp, pd.Timestamp]
-
-FONT = "system-ui, 'DejaVu Sans', 'Noto Sans', sans-serif"
-
-
-def wall_clock(index: pd.DatetimeIndex, tz: str) -> np.ndarray:
-    """UTC instants as wall-clock milliseconds in ``tz`` (what a date axis shows)."""
-    local = index.tz_convert(tz).tz_localize(None)
-    return local.as_unit("ms").asi8.astype("float64")
-
-
-def wall_clock_ms(ts: pd.Timestamp, tz: str) -> float:
-    return float(wall_clock(pd.DatetimeIndex([ts]), tz)[0])
 
 
 def from_wall_clock(text: str, tz: str) -> pd.Timestamp:
@@ -59,48 +47,6 @@ def default_view(frame: pd.DataFrame) -> Window | None:
     start, end = window
     context = max(end - start, pd.Timedelta(hours=6))
     return max(frame.index[0], start - context), end
-
-
-def _axis(**extra: object) -> dict:
-    return {
-        "showgrid": True,
-        "gridcolor": "#ece8dd",
-        "linecolor": "#8e8877",
-        "ticks": "outside",
-        "zeroline": False,
-        **extra,
-    }
-
-
-def _time_axis(tz: str, title: bool = True, **extra: object) -> dict:
-    return _axis(
-        type="date",
-        hoverformat="%Y-%m-%d %H:%M",
-        title={"text": f"time ({tz})" if title else "", "standoff": 10},
-        automargin=True,  # two-line date ticks must not run into the axis title
-        **extra,
-    )
-
-
-def _layout(height: int, **extra: object) -> dict:
-    return {
-        "template": {},
-        "height": height,
-        "margin": {"l": 64, "r": 16, "t": 40, "b": 48},
-        "font": {"family": FONT, "size": 13, "color": palette.VALUE},
-        "paper_bgcolor": "#ffffff",
-        "plot_bgcolor": "#ffffff",
-        "hovermode": "x unified",
-        "legend": {"orientation": "h", "x": 0, "y": 1.0, "yanchor": "bottom", "font": {"size": 12}},
-        "dragmode": "zoom",
-        **extra,
-    }
-
-
-def _figure(traces: list[dict], layout: dict) -> go.Figure:
-    """A Figure from plain dicts, skipping plotly's per-attribute validation (the builders
-    here only use attributes they were written against; it is the slow part)."""
-    return go.Figure(data=traces, layout=layout, _validate=False)
 
 
 def _points(
@@ -133,23 +79,6 @@ def _rows(frame: pd.DataFrame, columns: list[str], n_out: int, view: Window | No
     ).sort_index()
 
 
-def _line(
-    index: pd.DatetimeIndex, values: np.ndarray, tz: str, name: str, colour: str, **kw: object
-) -> dict:
-    width = kw.pop("width", 1.6)
-    dash = kw.pop("dash", "solid")
-    return {
-        "type": "scatter",
-        "x": wall_clock(index, tz),
-        "y": np.asarray(values, dtype="float64"),
-        "name": name,
-        "mode": "lines",
-        "line": {"color": colour, "width": width, "dash": dash},
-        "connectgaps": False,
-        **kw,
-    }
-
-
 def _band_traces(
     rows: pd.DataFrame,
     low: str,
@@ -160,7 +89,7 @@ def _band_traces(
     alpha: float,
     **kw: object,
 ) -> list[dict]:
-    x = wall_clock(rows.index, tz)
+    x = style.wall_clock(rows.index, tz)
     edge = {"color": colour, "width": 0.6}
     common = {"type": "scatter", "x": x, "mode": "lines", "line": edge, "name": name}
     return [
@@ -217,7 +146,7 @@ def _out_of_band_markers(
         traces.append(
             {
                 "type": "scatter",
-                "x": wall_clock(hits.index, tz),
+                "x": style.wall_clock(hits.index, tz),
                 "y": hits.to_numpy(dtype="float64"),
                 "name": name,
                 "mode": "markers",
@@ -225,7 +154,7 @@ def _out_of_band_markers(
                     "symbol": symbol,
                     "size": 8,
                     "color": palette.OUT_OF_BAND,
-                    "line": {"color": "#5a2600", "width": 0.8},
+                    "line": {"color": palette.MARKER_EDGE, "width": 0.8},
                 },
                 **kw,
             }
@@ -251,8 +180,8 @@ def _shade(span: Window, tz: str, colour: str, alpha: float, **kw: object) -> di
         "type": "rect",
         "xref": "x",
         "yref": "paper",
-        "x0": wall_clock_ms(span[0], tz),
-        "x1": wall_clock_ms(span[1], tz),
+        "x0": style.wall_clock_ms(span[0], tz),
+        "x1": style.wall_clock_ms(span[1], tz),
         "y0": 0,
         "y1": 1,
         "fillcolor": palette.rgba(colour, alpha),
@@ -265,7 +194,7 @@ def _shade(span: Window, tz: str, colour: str, alpha: float, **kw: object) -> di
 def _range(view: Window | None, tz: str) -> dict:
     if view is None or view[0] >= view[1]:
         return {}
-    return {"range": [wall_clock_ms(view[0], tz), wall_clock_ms(view[1], tz)]}
+    return {"range": [style.wall_clock_ms(view[0], tz), style.wall_clock_ms(view[1], tz)]}
 
 
 def band_figure(
@@ -285,10 +214,10 @@ def band_figure(
     band = _rows(frame, ["lower", "upper", "expected"], n_out, view)
     traces = _band_traces(band, "lower", "upper", tz, "expected band", palette.BAND_EDGE, 0.32)
     traces.append(
-        _line(band.index, band["expected"], tz, "expected", palette.EXPECTED, dash="dash")
+        style.line(band.index, band["expected"], tz, "expected", palette.EXPECTED, dash="dash")
     )
     x, y = _points(frame, "value", n_out, view)
-    traces.append(_line(x, y, tz, "value", palette.VALUE, width=1.8))
+    traces.append(style.line(x, y, tz, "value", palette.VALUE, width=1.8))
     traces.extend(_out_of_band_markers(frame, "value", tz, n_out // 2, "upper", "lower", view))
     shapes, annotations = [], []
     window = window_of(frame)
@@ -300,7 +229,7 @@ def band_figure(
             for span in stretches(inside["outside"])[:200]
         )
     for at, label in marks:
-        x_mark = wall_clock_ms(pd.Timestamp(at), tz)
+        x_mark = style.wall_clock_ms(pd.Timestamp(at), tz)
         shapes.append(
             {
                 "type": "line",
@@ -324,10 +253,10 @@ def band_figure(
                 "xanchor": "left",
                 "yanchor": "top",
                 "font": {"size": 11},
-                "bgcolor": "rgba(255,255,255,0.8)",
+                "bgcolor": palette.LEGEND_BACKGROUND,
             }
         )
-    layout = _layout(
+    layout = style.layout(
         430,
         title={
             "text": title,
@@ -337,14 +266,14 @@ def band_figure(
             "yanchor": "top",
             "font": {"size": 13},
         },
-        xaxis=_time_axis(tz, **_range(view, tz)),
-        yaxis=_axis(title={"text": unit or "value"}),
+        xaxis=style.time_axis(tz, **_range(view, tz)),
+        yaxis=style.axis(title={"text": unit or "value"}),
         shapes=shapes,
         annotations=annotations,
     )
     layout["margin"]["t"] = 64
     layout["legend"]["y"] = 1.01
-    return _figure(traces, layout)
+    return style.figure(traces, layout)
 
 
 def overlay_figure(
@@ -369,12 +298,12 @@ def overlay_figure(
         x, y = _points(overlay, column, n_out, None)
         label = f"week {column[5:].replace('-', '−')}"
         traces.append(
-            _line(
+            style.line(
                 x,
                 y,
                 tz,
                 "past weeks" if i == 0 else label,
-                "#9a958a",
+                palette.PAST_WEEK,
                 width=0.9,
                 legendgroup="past weeks",
                 showlegend=i == 0,
@@ -383,13 +312,15 @@ def overlay_figure(
         )
     if "median" in overlay:
         x, y = _points(overlay, "median", n_out, None)
-        traces.append(_line(x, y, tz, "median of past weeks", palette.ORANGE, width=2.2))
+        traces.append(style.line(x, y, tz, "median of past weeks", palette.ORANGE, width=2.2))
     window = window_of(frame)
     if window is not None:
         x, y = _points(clip(frame, *window), "value", n_out, None)
-        traces.append(_line(x, y, tz, "this window", palette.VALUE, width=2))
-    layout = _layout(360, xaxis=_time_axis(tz), yaxis=_axis(title={"text": unit or "value"}))
-    return _figure(traces, layout)
+        traces.append(style.line(x, y, tz, "this window", palette.VALUE, width=2))
+    layout = style.layout(
+        360, xaxis=style.time_axis(tz), yaxis=style.axis(title={"text": unit or "value"})
+    )
+    return style.figure(traces, layout)
 
 
 def seasonal_columns(frame: pd.DataFrame) -> list[str]:
@@ -408,11 +339,11 @@ def _stacked_axes(titles: list[str], tz: str, unit: str | None, view: Window | N
     for i, title in enumerate(titles):
         top = 1 - i * (height + gap)
         suffix = "" if i == 0 else str(i + 1)
-        layout[f"yaxis{suffix}"] = _axis(
+        layout[f"yaxis{suffix}"] = style.axis(
             domain=[max(0.0, top - height), top],
             title={"text": unit or "value", "font": {"size": 11}},
         )
-        layout[f"xaxis{suffix}"] = _time_axis(
+        layout[f"xaxis{suffix}"] = style.time_axis(
             tz,
             title=i == rows - 1,
             anchor=f"y{suffix}",
@@ -456,11 +387,11 @@ def components_figure(
         return {**trace, "xaxis": f"x{suffix}", "yaxis": f"y{suffix}"}
 
     x, y = _points(frame, "trend", n_row, view)
-    traces = [on_row(_line(x, y, tz, "trend", palette.TREND, width=1.8), 1)]
+    traces = [on_row(style.line(x, y, tz, "trend", palette.TREND, width=1.8), 1)]
     for i, column in enumerate(seasonal, start=2):
         x, y = _points(frame, column, n_row, view)
         colour = palette.seasonal_colour(i - 2)
-        traces.append(on_row(_line(x, y, tz, titles[i - 1], colour, width=1.3), i))
+        traces.append(on_row(style.line(x, y, tz, titles[i - 1], colour, width=1.3), i))
     half = (frame["upper"] - frame["lower"]) / 2
     with_half = frame[["residual"]].assign(half=half, neg_half=-half)
     band = _rows(with_half, ["neg_half", "half"], n_row, view)
@@ -471,13 +402,15 @@ def components_figure(
         )
     )
     x, y = _points(frame, "residual", n_row, view)
-    traces.append(on_row(_line(x, y, tz, "residual", palette.RESIDUAL, width=1.1), rows))
+    traces.append(on_row(style.line(x, y, tz, "residual", palette.RESIDUAL, width=1.1), rows))
     window = window_of(frame)
     marked = clip(with_half, *window) if window is not None and view is None else with_half
     traces.extend(
         on_row(t, rows)
         for t in _out_of_band_markers(marked, "residual", tz, n_row // 2, "half", "neg_half", view)
     )
-    layout = _layout(165 * rows + 70, showlegend=False, **_stacked_axes(titles, tz, unit, view))
+    layout = style.layout(
+        165 * rows + 70, showlegend=False, **_stacked_axes(titles, tz, unit, view)
+    )
     layout["margin"]["t"] = 28
-    return _figure(traces, layout)
+    return style.figure(traces, layout)

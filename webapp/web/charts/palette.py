@@ -35,6 +35,14 @@ WINDOW = YELLOW
 TREND = BLUISH_GREEN
 RESIDUAL = REDDISH_PURPLE
 OVERLAY_MEDIAN = BLUE
+
+# The neutral greys and whites of every figure's frame.
+PAPER = "#ffffff"
+GRID = "#ece8dd"
+AXIS = "#8e8877"
+PAST_WEEK = "#9a958a"
+MARKER_EDGE = "#5a2600"
+LEGEND_BACKGROUND = "rgba(255,255,255,0.8)"
 SEASONAL: tuple[str, ...] = (ORANGE, SKY_BLUE, BLUISH_GREEN, REDDISH_PURPLE)
 
 

@@ -6,8 +6,7 @@ from typing import Any
 
 import plotly.graph_objects as go
 
-from webapp.web.charts import explain as figures
-from webapp.web.charts import palette
+from webapp.web.charts import palette, style
 from webapp.web.charts.downsample import reduce_together
 
 FIGURE_POINTS = 1200  # per peer; min/max buckets keep every spike
@@ -40,7 +39,7 @@ def deviation_figure(comparison: Any, tz: str, tolerance: float) -> go.Figure:
             others += 1
         name = f"{result.name} (explained)" if result.is_target else result.name
         traces.append(
-            figures._line(
+            style.line(
                 frame.index,
                 frame["z"].to_numpy(),
                 tz,
@@ -63,15 +62,15 @@ def deviation_figure(comparison: Any, tz: str, tolerance: float) -> go.Figure:
             "x1": 1,
             "y0": y,
             "y1": y,
-            "line": {"color": "#8e8877", "width": 1, "dash": "dot"},
+            "line": {"color": palette.AXIS, "width": 1, "dash": "dot"},
         }
         for y in (-tolerance, tolerance)
     ]
-    layout = figures._layout(
+    layout = style.layout(
         300,
-        xaxis=figures._time_axis(tz),
-        yaxis=figures._axis(title={"text": "deviation (robust sd)"}),
+        xaxis=style.time_axis(tz),
+        yaxis=style.axis(title={"text": "deviation (robust sd)"}),
         shapes=edges,
         hovermode="closest",
     )
-    return figures._figure(traces, layout)
+    return style.figure(traces, layout)

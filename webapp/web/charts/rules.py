@@ -10,9 +10,9 @@ import plotly.graph_objects as go
 
 from webapp.analysis import BandGrid
 from webapp.analysis.times import short_duration
-from webapp.web.charts import palette
+from webapp.web.charts import palette, style
 from webapp.web.charts.downsample import minmax_indices, reduce_together
-from webapp.web.charts.explain import FONT, wall_clock
+from webapp.web.charts.style import wall_clock
 
 MAX_SHADES = 300
 # Holds are told apart by marker shape as well as colour.
@@ -25,15 +25,15 @@ def _layout(fig: go.Figure, height: int, x_title: str, y_title: str) -> go.Figur
         template="none",
         height=height,
         margin={"l": 64, "r": 16, "t": 36, "b": 52},
-        font={"family": FONT, "size": 13, "color": palette.VALUE},
-        paper_bgcolor="#ffffff",
-        plot_bgcolor="#ffffff",
+        font=style.FONT_STYLE,
+        paper_bgcolor=palette.PAPER,
+        plot_bgcolor=palette.PAPER,
         legend={"orientation": "h", "x": 0, "y": 1.02, "yanchor": "bottom"},
         xaxis_title_text=x_title,
         yaxis_title_text=y_title,
     )
-    fig.update_xaxes(showgrid=True, gridcolor="#ece8dd", linecolor="#8e8877", ticks="outside")
-    fig.update_yaxes(showgrid=True, gridcolor="#ece8dd", linecolor="#8e8877", ticks="outside")
+    fig.update_xaxes(**style.AXIS_STYLE, ticks="outside")
+    fig.update_yaxes(**style.AXIS_STYLE, ticks="outside")
     return fig
 
 

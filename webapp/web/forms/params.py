@@ -8,7 +8,7 @@ from typing import Any
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
 import pandas as pd
-from flask import abort
+from flask import abort, current_app
 from werkzeug.datastructures import MultiDict
 
 from webapp.analysis import times
@@ -49,8 +49,11 @@ def parse_window(start: str | None, end: str | None, tz: str) -> Span:
     last = parse_time(end, tz, "window end")
     if first >= last:
         bad_request("The window must start before it ends.")
-    if last - first > pd.Timedelta(weeks=4):
-        bad_request("The window may span at most 4 weeks; history before it is read separately.")
+    weeks = int(current_app.config["MAX_WINDOW_WEEKS"])
+    if last - first > pd.Timedelta(weeks=weeks):
+        bad_request(
+            f"The window may span at most {weeks} weeks; history before it is read separately."
+        )
     return first, last
 
 

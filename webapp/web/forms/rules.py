@@ -8,6 +8,7 @@ from typing import Any
 import pandas as pd
 from sqlalchemy.orm import Session
 
+from webapp import settings
 from webapp.analysis import times
 from webapp.analysis.vocabulary import DIRECTIONS, RULE_KINDS, SWEEP_LEVEL
 from webapp.store import series as store_series
@@ -34,14 +35,6 @@ def parse_duration(text: str, field: str, errors: dict[str, str], *, optional: b
         errors[field] = "Give a duration above zero."
         return None
     return int(delta.total_seconds())
-
-
-def _is_number(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True
 
 
 def parse_labels(text: str, errors: dict[str, str]) -> dict[str, str]:
@@ -80,7 +73,9 @@ def parse_rule_form(session: Session, form: Mapping[str, str]) -> dict[str, Any]
         needed = (kind == "threshold") == (name == "threshold")
         if not needed:
             fields[name] = None
-        elif not _is_number(raw) or not pd.notna(float(raw)) or abs(float(raw)) == float("inf"):
+        elif (
+            not times.is_number(raw) or not pd.notna(float(raw)) or abs(float(raw)) == float("inf")
+        ):
             errors[name] = (
                 f"Give the {name} as a number, e.g. {'500' if name == 'threshold' else '3'}."
             )
@@ -140,7 +135,7 @@ def rule_form_values(rule: AlertRule | None) -> dict[str, str]:
     }
 
 
-MAX_LEVELS, MAX_HOLDS = 40, 12
+DEFAULTS = settings.defaults()
 EXAMPLES = {"threshold": "600, 700, 800", "tolerance": "2, 3, 4"}
 
 
@@ -150,11 +145,15 @@ def sweep_level(kind: str | None) -> str:
 
 
 def parse_sweep(
-    args: Mapping[str, str], level: str = "threshold"
+    args: Mapping[str, str],
+    level: str = "threshold",
+    max_levels: int = DEFAULTS["MAX_SWEEP_LEVELS"],
+    max_holds: int = DEFAULTS["MAX_SWEEP_HOLDS"],
 ) -> tuple[tuple[list[float], list[pd.Timedelta]] | None, dict[str, str]]:
     """A what-if grid typed by the reader: ``thresholds`` (numbers), or for ``level``
     "tolerance" ``tolerances`` (numbers above 0), and ``holds`` (durations), each separated
-    by commas or spaces. None when neither is given."""
+    by commas or spaces, at most ``max_levels`` and ``max_holds`` of them (settings). None
+    when neither is given."""
     errors: dict[str, str] = {}
     field, example = f"{level}s", EXAMPLES[level]
     raw_l, raw_p = args.get(field, "").strip(), args.get("holds", "").strip()
@@ -162,7 +161,11 @@ def parse_sweep(
         return None, errors
     levels = []
     for word in raw_l.replace(",", " ").split():
-        if not _is_number(word) or abs(float(word)) == float("inf") or float(word) != float(word):
+        if (
+            not times.is_number(word)
+            or abs(float(word)) == float("inf")
+            or float(word) != float(word)
+        ):
             errors[field] = f"{word!r} is not a number; list {field} like {example}."
             break
         if level == "tolerance" and float(word) <= 0:
@@ -182,8 +185,8 @@ def parse_sweep(
         errors[field] = f"List at least one {level}, e.g. {example}."
     if not holds and "holds" not in errors:
         errors["holds"] = "List at least one hold, e.g. 0, 5min, 10min."
-    if len(levels) > MAX_LEVELS:
-        errors[field] = f"At most {MAX_LEVELS} {field} at once."
-    if len(holds) > MAX_HOLDS:
-        errors["holds"] = f"At most {MAX_HOLDS} holds at once."
+    if len(levels) > max_levels:
+        errors[field] = f"At most {max_levels} {field} at once."
+    if len(holds) > max_holds:
+        errors["holds"] = f"At most {max_holds} holds at once."
     return (None if errors else (levels, holds)), errors

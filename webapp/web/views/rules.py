@@ -7,7 +7,7 @@ from collections.abc import Mapping
 from typing import Any
 
 import pandas as pd
-from flask import Blueprint, abort, flash, redirect, render_template, request, url_for
+from flask import Blueprint, abort, current_app, flash, redirect, render_template, request, url_for
 from sqlalchemy.orm import Session
 
 from webapp.analysis.times import short_duration
@@ -138,7 +138,8 @@ def _show(
             "No stored series matches this rule yet. Import its data, or edit the rule's series."
         )
     elif not lazy:
-        grid, sweep_errors = parse_sweep(request.args, level)
+        limits = (current_app.config["MAX_SWEEP_LEVELS"], current_app.config["MAX_SWEEP_HOLDS"])
+        grid, sweep_errors = parse_sweep(request.args, level, *limits)
         try:
             replay = run_replay(session, rule, info, grid, scope)
         except ValueError as err:
