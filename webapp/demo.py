@@ -1,5 +1,8 @@
 """The demo scenario: six weeks of an invented city's bus-ticketing checkout, seeded.
 
+(Over 400 lines on purpose: the whole invented story, its series, rules, pages and
+incidents, reads best in one place.)
+
 Harbourline Transit (invented) sells bus tickets through a checkout API on six hosts,
 ``api-1`` .. ``api-6``. The city keeps Lisbon's wall clock (``Europe/Lisbon``: UTC+1 in
 summer, UTC in winter; the clocks go back on 25 October 2026, inside the data), so daily

@@ -1,4 +1,6 @@
 """Replay: re-run an alert rule over stored history and list when it would have fired.
+(Just over 400 lines: the rules, the check grid and the daily bands share one set of
+semantics, written down here once.)
 
 Semantics (docs/design.md). The condition is evaluated at every sample of an *evaluation grid*;
 a firing starts at the first sample at which the condition has held continuously for the

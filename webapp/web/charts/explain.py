@@ -1,4 +1,6 @@
-"""Plotly figures built on the server from plain DataFrames.
+"""The Explain screen's plotly figures (band, past-weeks overlay, components), built on the
+server from plain DataFrames. (Over 400 lines: the three figures share their reduction and
+shading helpers, kept beside them.)
 
 They take the explanation's frame (and the past-weeks overlay) as stored, so a saved
 explanation draws from its frozen frame exactly as it drew when it was saved. Times are
