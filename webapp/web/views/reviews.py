@@ -18,9 +18,12 @@ from webapp.services import review_export
 from webapp.store import action_items as store_actions
 from webapp.store import attachments as store_attachments
 from webapp.store import db
+from webapp.store import explanations as store_explanations
+from webapp.store import pages as store_pages
 from webapp.store import reviews as store
+from webapp.store import rules as store_rules
 from webapp.store import timeline as store_timeline
-from webapp.store.models import AlertRule, Explanation, Page, Review
+from webapp.store.models import Review
 from webapp.store.reviews import ReviewInvalid
 from webapp.web import export, filters
 from webapp.web.forms import reviews as review_forms
@@ -54,7 +57,7 @@ def _form_page(
     template: str, review: Review | None, values: Mapping[str, Any], errors: Mapping[str, str]
 ) -> tuple[str, int]:
     session = db.get_session()
-    pages = list(session.query(Page).order_by(Page.fired_at.desc()).limit(200))
+    pages = store_pages.list_pages(session)[:200]
     html = render_template(
         template, review=review, values=values, errors=errors, pages=pages, tz=TZ
     )
@@ -92,9 +95,11 @@ def _prefill(args: Mapping[str, str]) -> dict[str, Any]:
     session = db.get_session()
     values: dict[str, Any] = {"status": "draft", "exclude_from_baselines": "on"}
     page_id, explanation_id = args.get("page_id", ""), args.get("explanation_id", "")
-    page = session.get(Page, int(page_id)) if page_id.isdigit() else None
+    page = store_pages.get_page(session, int(page_id)) if page_id.isdigit() else None
     explanation = (
-        session.get(Explanation, int(explanation_id)) if explanation_id.isdigit() else None
+        store_explanations.get_explanation(session, int(explanation_id))
+        if explanation_id.isdigit()
+        else None
     )
     if page is not None:
         values.update(
@@ -128,12 +133,10 @@ def _show(
                      for name, fig in item.figures]  # fmt: skip
     attached = {a.explanation_id for a in review.attachments}
     available = [
-        e
-        for e in session.query(Explanation).order_by(Explanation.created_at.desc()).limit(200)
-        if e.id not in attached
+        e for e in store_explanations.list_explanations(session)[:200] if e.id not in attached
     ]
-    page = session.get(Page, review.page_id) if review.page_id else None
-    rule = session.get(AlertRule, review.alert_rule_id) if review.alert_rule_id else None
+    page = store_pages.get_page(session, review.page_id) if review.page_id else None
+    rule = store_rules.get_rule(session, review.alert_rule_id) if review.alert_rule_id else None
     html = render_template(
         "reviews/show.html",
         review=review,
@@ -143,7 +146,7 @@ def _show(
         time_facts={
             a.explanation_id: store_timeline.time_facts(a.explanation) for a in review.attachments
         },
-        rules=list(session.query(AlertRule).order_by(AlertRule.name)),
+        rules=store_rules.list_rules(session),
         forms=forms or {},
         errors=errors or {},
         verdict_warning=OWNER_DECIDES,
@@ -231,7 +234,9 @@ def add_fact_entry(review_id: int) -> Any:
     f = request.form
 
     def change(session: Any, review: Review) -> None:
-        explanation = session.get(Explanation, _int(f.get("explanation_id"), "explanation_id"))
+        explanation = store_explanations.get_explanation(
+            session, _int(f.get("explanation_id"), "explanation_id")
+        )
         if explanation is None:
             raise ReviewInvalid({"explanation_id": "Pick one of the attached explanations."})
         store_timeline.timeline_entry_from_fact(
