@@ -69,6 +69,17 @@ def test_a_bad_file_gets_a_clear_message_and_a_failing_exit_code(runner, db_url,
     assert count(db_url, Import) == 0
 
 
+def test_a_file_with_thousands_of_bad_lines_counts_them_all(runner, db_url, tmp_path):
+    path = tmp_path / "bad-values.csv"
+    rows = "".join(f"{1796025600 + 60 * i},m,api-1,oops\n" for i in range(3000))
+    path.write_text("timestamp,metric,host,value\n" + rows, encoding="utf-8")
+    result = runner.invoke(cli, ["import", str(path), "--db", db_url])
+    assert result.exit_code == 1
+    listed = [line for line in result.output.splitlines() if line.startswith("  - ")]
+    assert len(listed) == 20
+    assert "  … and 2,980 more problems not listed" in result.output.splitlines()
+
+
 def test_good_files_are_stored_even_when_another_is_rejected(runner, db_url, tmp_path):
     missing = tmp_path / "nowhere.csv"
     args = ["import", str(bad_csv(tmp_path)), str(EXAMPLE_LONG), str(missing), "--db", db_url]

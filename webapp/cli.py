@@ -24,8 +24,6 @@ from webapp.imports import FORMATS, ImportRejected, parse_file
 from webapp.store import db
 from webapp.store.imports import record_import
 
-MAX_PROBLEMS_SHOWN = 20
-
 
 def _setting_help(name: str) -> str:
     return next(s.help for s in settings.SETTINGS if s.name == name)
@@ -193,12 +191,11 @@ def _import_one(
 
 
 def _report_rejection(path: Path, rejection: ImportRejected) -> None:
-    problems = rejection.problems
     click.echo(f"{path}: rejected, nothing stored:", err=True)
-    for problem in problems[:MAX_PROBLEMS_SHOWN]:
+    for problem in rejection.problems:  # the importer keeps the first few
         click.echo(f"  - {problem}", err=True)
-    if len(problems) > MAX_PROBLEMS_SHOWN:
-        click.echo(f"  ... and {len(problems) - MAX_PROBLEMS_SHOWN} more problems", err=True)
+    if rejection.more:
+        click.echo(f"  {rejection.more}", err=True)
 
 
 def demo_database_url() -> str:

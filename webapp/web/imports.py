@@ -33,6 +33,7 @@ class FileResult:
     summary: Any = None  # ImportSummary when it was stored
     series: list[dict[str, Any]] = field(default_factory=list)
     problems: list[Any] = field(default_factory=list)  # warnings, or the errors that refused it
+    more: str | None = None  # counts the errors not listed
     refused: bool = False
 
 
@@ -84,6 +85,7 @@ def import_one(upload: FileStorage, fmt: str | None, tz: str) -> FileResult:
     except ImportRejected as rejected:
         result.refused = True
         result.problems = list(rejected.problems)
+        result.more = rejected.more
         return result
     with db.session_scope(db.get_engine()) as session:
         result.summary = store_imports.record_import(session, parsed)
