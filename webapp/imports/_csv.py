@@ -20,7 +20,7 @@ from webapp.imports._assemble import assemble
 from webapp.imports._csvlines import CsvLines
 from webapp.imports._long import TIMESTAMP_NAMES, find_column, long_roles, parse_long_table
 from webapp.imports._problems import LineMap, ProblemLog
-from webapp.imports._text import reject_bad_encoding, without_bom
+from webapp.imports._text import first_line, reject_bad_encoding, without_bom
 from webapp.imports._timestamps import Timestamps, parse_timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports._values import parse_values
@@ -34,6 +34,16 @@ _TEXT = pa.dictionary(pa.int32(), pa.string())
 class Header:
     names: list[str]
     delimiter: str
+    length: int  # bytes on line 1
+
+
+def header_fields(header: str, delimiter: str) -> list[str]:
+    """Line 1 split into trimmed column names, quotes respected. A field longer than the
+    csv module's limit cannot be a column name; the line is then one field."""
+    try:
+        return [f.strip() for f in next(csv.reader([header], delimiter=delimiter))]
+    except csv.Error:
+        return [header]
 
 
 def sniff_delimiter(header: str) -> str:
@@ -41,7 +51,7 @@ def sniff_delimiter(header: str) -> str:
     one), quotes respected; failing that, the one giving the most fields. Commas win ties."""
 
     def fields(delimiter: str) -> list[str]:
-        return [f.strip().lower() for f in next(csv.reader([header], delimiter=delimiter))]
+        return [f.lower() for f in header_fields(header, delimiter)]
 
     return max(
         DELIMITERS,
@@ -52,8 +62,7 @@ def sniff_delimiter(header: str) -> str:
 def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
     """The first line: column names, the delimiter, and which columns play which role."""
     body = without_bom(data)
-    end = bytes(body[:65536]).find(b"\n")
-    first = bytes(body[: end if end >= 0 else 65536]).rstrip(b"\r")
+    first = first_line(body)
     try:
         text = first.decode("utf-8")
     except UnicodeDecodeError:
@@ -61,7 +70,7 @@ def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
     if not text.strip():
         log.reject("line 1 is empty; expected a header row naming the columns", line=1)
     delimiter = sniff_delimiter(text)
-    names = [name.strip() for name in next(csv.reader([text], delimiter=delimiter))]
+    names = header_fields(text, delimiter)
     if len(names) < 2:
         log.reject(
             "expected a header row with at least a timestamp and a value column, "
@@ -82,7 +91,7 @@ def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
             line=1,
         )
     log.check()
-    return Header(names=names, delimiter=delimiter)
+    return Header(names=names, delimiter=delimiter, length=len(first))
 
 
 def looks_like_data(names: list[str]) -> bool:
@@ -106,7 +115,9 @@ def _read_table(
     try:
         table = pcsv.read_csv(
             pa.BufferReader(pa.py_buffer(body)),
-            read_options=pcsv.ReadOptions(column_names=header.names, skip_rows=1),
+            read_options=pcsv.ReadOptions(
+                column_names=header.names, skip_rows=1, block_size=_block_size(header)
+            ),
             parse_options=pcsv.ParseOptions(
                 delimiter=header.delimiter, invalid_row_handler=on_invalid_row
             ),
@@ -128,6 +139,12 @@ def _read_table(
         )
     log.check()
     return table
+
+
+def _block_size(header: Header) -> int:
+    """Arrow's reader needs each row to fit in one block; a wide file's rows are about as
+    long as its header."""
+    return max(1 << 20, 4 * header.length)
 
 
 def _read_with_fallback(
