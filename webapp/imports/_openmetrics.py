@@ -3,7 +3,9 @@
 Reads ``# TYPE``, ``# UNIT`` and ``# HELP`` lines, samples ``name{label="value"} value
 timestamp`` (label values may escape ``\\"``, ``\\\\`` and ``\\n``; exemplars after `` # ``
 are ignored), and requires the closing ``# EOF`` line the standard ends every exposition
-with. Sample timestamps are seconds since the epoch, possibly fractional. Each sample name
+with. Sample timestamps are seconds since the epoch in the standard, possibly fractional;
+some exporters write milliseconds, so the unit is told by size as in CSV, and a unit other
+than seconds is said in a warning. Each sample name
 (``checkout_requests_total``, ``..._bucket``) is its own metric; ``_created`` samples hold
 creation times, not values, and are skipped.
 """
@@ -200,8 +202,12 @@ def parse_openmetrics(
         column="timestamp",
         log=log,
         line_of=line_of,
-        unit="seconds",
     )
+    if timestamps.unit != "epoch seconds" and not log.error_total:
+        log.warning(
+            f"sample timestamps read as {timestamps.unit}, told by their size; "
+            "OpenMetrics writes seconds since the epoch"
+        )
     numbers = parse_values(
         pa.array(values, type=pa.string()), column="value", log=log, line_of=line_of
     )

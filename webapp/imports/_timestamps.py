@@ -8,6 +8,7 @@ rounded to the nearest millisecond.
 
 from __future__ import annotations
 
+import datetime as dt
 from dataclasses import dataclass
 
 import numpy as np
@@ -53,12 +54,8 @@ def parse_timestamps(
     column: str,
     log: ProblemLog,
     line_of: LineMap,
-    unit: str | None = None,
 ) -> Timestamps:
-    """Parse one column; every unusable row is reported to ``log`` with its line.
-
-    ``unit`` forces an epoch unit (OpenMetrics timestamps are seconds by definition).
-    """
+    """Parse one column; every unusable row is reported to ``log`` with its line."""
     if isinstance(values, pa.ChunkedArray):
         values = values.combine_chunks()
     kind = values.type
@@ -74,27 +71,41 @@ def parse_timestamps(
     if pa.types.is_null(kind):  # every cell empty, each one already reported
         return Timestamps(np.zeros(len(values), np.int64), missing, ISO)
     if pa.types.is_string(kind) or pa.types.is_large_string(kind):
-        parsed = _parse_text(values, missing, tz, column, log, line_of, unit)
+        parsed = _parse_text(values, missing, tz, column, log, line_of)
     elif pa.types.is_integer(kind) or pa.types.is_floating(kind):
-        parsed = _parse_epoch(values, missing, column, log, line_of, unit)
+        parsed = _parse_epoch(values, missing, column, log, line_of)
     elif pa.types.is_timestamp(kind) or pa.types.is_date(kind):
         parsed = _parse_typed(values, missing, tz, column, log, line_of)
     else:
         log.reject(f"column holds {kind} values; {EXPECTED}", column=column)
-    _check_range(parsed, column, log, line_of)
+    _check_range(parsed, values, column, log, line_of)
     return parsed
 
 
-def _check_range(parsed: Timestamps, column: str, log: ProblemLog, line_of: LineMap) -> None:
+def _check_range(
+    parsed: Timestamps, values: pa.Array, column: str, log: ProblemLog, line_of: LineMap
+) -> None:
+    """Times before 1970 or past pandas' range, quoted as the file writes them."""
     out = ~parsed.bad & ((parsed.ms < 0) | (parsed.ms > MAX_MS))
     if out.any():
-        log.rows(
-            out,
-            column,
-            lambda row: f"timestamp {parsed.ms[row]} ms is outside {RANGE}",
-            line_of,
-        )
+        read_as = f" when read as {parsed.unit}" if parsed.unit != ISO else ""
+
+        def message(row: int) -> str:
+            return f"timestamp {_as_written(values[row].as_py())} is outside {RANGE}{read_as}"
+
+        log.rows(out, column, message, line_of)
         parsed.bad |= out
+
+
+def _as_written(cell: object) -> str:
+    """A cell as the file gives it: text quoted, a number as is, a typed time in ISO 8601."""
+    if isinstance(cell, str):
+        return repr(cell.strip())
+    if isinstance(cell, dt.datetime):
+        return pd.Timestamp(cell).isoformat().replace("+00:00", "Z")
+    if isinstance(cell, float):
+        return np.format_float_positional(cell, trim="-")  # not 1e+20
+    return str(cell)
 
 
 def _parse_epoch(
@@ -103,8 +114,8 @@ def _parse_epoch(
     column: str,
     log: ProblemLog,
     line_of: LineMap,
-    unit: str | None,
 ) -> Timestamps:
+    """Epoch numbers in the unit their size shows; rows of another size are reported."""
     raw = values.to_numpy(zero_copy_only=False)
     is_float = raw.dtype.kind == "f"
     bad = missing.copy()
@@ -114,21 +125,16 @@ def _parse_epoch(
             log.rows(bad & ~missing, column, lambda r: f"{raw[r]} is not a timestamp", line_of)
     valid = raw[~bad] if bad.any() else raw
     if valid.size == 0:
-        return Timestamps(np.zeros(len(raw), np.int64), bad, f"epoch {unit or 'seconds'}")
-    if unit is None:
-        low, high = float(valid.min()), float(valid.max())
-        unit = epoch_unit(abs(low))
-        if low < 0 or epoch_unit(high) != unit:
-            unit = epoch_unit(float(np.median(np.abs(valid))))
-            _report_odd_magnitudes(raw, bad, unit, column, log, line_of)
+        return Timestamps(np.zeros(len(raw), np.int64), bad, "epoch seconds")
+    low, high = float(valid.min()), float(valid.max())
+    unit = epoch_unit(abs(low))
+    if low < 0 or epoch_unit(high) != unit:
+        unit = epoch_unit(float(np.median(np.abs(valid))))
+        _report_odd_magnitudes(raw, bad, unit, column, log, line_of)
     filled = np.where(bad, 0, raw) if bad.any() else raw
     if is_float:
         scaled = np.rint(filled * _MS_PER_UNIT[unit])
-        huge = ~bad & (np.abs(scaled) > MAX_MS)
-        if huge.any():
-            log.rows(huge, column, lambda r: f"epoch value {raw[r]} is outside {RANGE}", line_of)
-            bad |= huge
-            scaled[huge] = 0
+        scaled[np.abs(scaled) > MAX_MS] = MAX_MS + 1  # reported by the range check
         ms = scaled.astype(np.int64)
     else:
         ms = _scale_to_ms(filled.astype(np.int64, copy=False), unit)
@@ -168,24 +174,23 @@ def _parse_text(
     column: str,
     log: ProblemLog,
     line_of: LineMap,
-    unit: str | None,
 ) -> Timestamps:
-    """Text cells: epoch numbers when most cells are numbers (or a unit is imposed),
-    otherwise ISO 8601; the cells of the other form are reported."""
+    """Text cells: epoch numbers when most cells are numbers, otherwise ISO 8601; the
+    cells of the other form are reported."""
     stripped = pc.utf8_trim_whitespace(values)
     for number_type in (pa.int64(), pa.float64()):
         try:
             numbers = stripped.cast(number_type)
         except (pa.ArrowInvalid, pa.ArrowNotImplementedError):
             continue
-        return _parse_epoch(numbers, missing, column, log, line_of, unit)
+        return _parse_epoch(numbers, missing, column, log, line_of)
     text = pd.Series(stripped.to_pandas(), dtype=object)
     numeric = pd.to_numeric(text, errors="coerce").to_numpy(dtype=np.float64, na_value=np.nan)
     is_number = ~np.isnan(numeric)
-    if unit is not None or is_number.sum() > (~missing & ~is_number).sum():
+    if is_number.sum() > (~missing & ~is_number).sum():
         words = ~missing & ~is_number
         parsed = _parse_epoch(
-            pa.array(numeric, mask=~is_number), missing | words, column, log, line_of, unit
+            pa.array(numeric, mask=~is_number), missing | words, column, log, line_of
         )
         log.rows(
             words,
