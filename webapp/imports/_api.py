@@ -79,7 +79,7 @@ def parse_bytes(
         try:
             format = detect_format(data, file_name)
         except UnknownFormat as exc:
-            log.reject(f"unknown format: {exc}")
+            log.reject(str(exc), line=exc.line)
     else:
         check_override(format, data, file_name, log)
     parser = PARSERS[format]

@@ -18,7 +18,13 @@ import pyarrow.csv as pcsv
 
 from webapp.imports._assemble import assemble
 from webapp.imports._csvlines import CsvLines
-from webapp.imports._long import TIMESTAMP_NAMES, find_column, long_roles, parse_long_table
+from webapp.imports._long import (
+    LONG_NEEDS,
+    TIMESTAMP_NAMES,
+    find_column,
+    long_roles,
+    parse_long_table,
+)
 from webapp.imports._problems import LineMap, ProblemLog
 from webapp.imports._text import first_line, reject_bad_encoding, without_bom
 from webapp.imports._timestamps import Timestamps, parse_timestamps
@@ -27,6 +33,12 @@ from webapp.imports._values import parse_values
 from webapp.imports.keys import parse_series_key
 
 DELIMITERS = (",", ";", "\t")
+WIDE_NEEDS = (
+    "a wide file needs a timestamp column (or time/ts) and one column of numbers per "
+    "series, headed by its key, e.g. checkout.latency_p95{host=api-3}"
+)
+CSV_SHAPES = f"{LONG_NEEDS[0].upper()}{LONG_NEEDS[1:]}; {WIDE_NEEDS}"
+"""What each CSV shape needs, for the messages that could not tell the shape."""
 _TEXT = pa.dictionary(pa.int32(), pa.string())
 
 
@@ -209,6 +221,31 @@ def parse_csv_long(
     )
 
 
+def _report_text_columns(
+    table: pa.Table, names: list[str], decimal_comma: bool, log: ProblemLog
+) -> None:
+    """A column of a wide file with no number in it is a label or metric column, which
+    means the file was meant as a long one: one error for the column says so and stops,
+    rather than one per cell."""
+    for name in names:
+        column = table.column(name)
+        if not (pa.types.is_string(column.type) or pa.types.is_dictionary(column.type)):
+            continue
+        scratch = ProblemLog(log.file, limit=1)
+        numbers = parse_values(
+            column, column=name, log=scratch, line_of=lambda rows: rows, decimal_comma=decimal_comma
+        )
+        if scratch.error_total and np.isnan(numbers).all():
+            example = str(column[scratch.errors[0].line].as_py()).strip()  # the row, 0-based
+            log.error(
+                f"holds text such as {example!r}, not the numbers of a series; the file "
+                f"was read as wide, having no metric and value columns. {CSV_SHAPES}",
+                line=1,
+                column=name,
+            )
+    log.check()
+
+
 def parse_csv_wide(
     data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
 ) -> ParsedImport:
@@ -216,9 +253,7 @@ def parse_csv_wide(
     ts_name = find_column(header.names, TIMESTAMP_NAMES)
     if ts_name is None:
         log.reject(
-            "the header has no timestamp column; a wide CSV needs a column named timestamp "
-            "(or time/ts) and one column per series headed by its key, e.g. "
-            f"checkout.latency_p95{{host=api-3}}; found {', '.join(header.names)}",
+            f"the header has no timestamp column; {WIDE_NEEDS}; found {', '.join(header.names)}",
             line=1,
         )
     series_columns = [n for n in header.names if n != ts_name]
@@ -241,6 +276,8 @@ def parse_csv_wide(
     )
     if table.num_rows == 0:
         log.reject("the file has no data rows below the header")
+    decimal_comma = header.delimiter != ","
+    _report_text_columns(table, series_columns, decimal_comma, log)
     timestamps = parse_timestamps(
         table.column(ts_name), tz=tz, column=ts_name, log=log, line_of=line_of
     )
@@ -250,7 +287,7 @@ def parse_csv_wide(
             column=n,
             log=log,
             line_of=line_of,
-            decimal_comma=header.delimiter != ",",
+            decimal_comma=decimal_comma,
         )
         for n in series_columns
     ]

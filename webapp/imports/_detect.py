@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import re
 
-from webapp.imports._csv import header_fields, looks_like_data, sniff_delimiter
+from webapp.imports._csv import CSV_SHAPES, header_fields, looks_like_data, sniff_delimiter
 from webapp.imports._long import METRIC_NAMES, TIMESTAMP_NAMES, VALUE_NAMES
 from webapp.imports._problems import ProblemLog
 from webapp.imports._text import first_line, without_bom
@@ -46,6 +46,10 @@ _OPENMETRICS_COMMENT = re.compile(r"^#[ \t]+(TYPE|HELP|UNIT|EOF)\b")
 class UnknownFormat(ValueError):
     """The first bytes fit none of the formats; the message says what was looked for."""
 
+    def __init__(self, message: str, line: int | None = None):
+        super().__init__(message)
+        self.line = line
+
 
 def detect_format(data: bytes | memoryview, file_name: str = "") -> str:
     """One of FORMATS; raises UnknownFormat with a readable reason."""
@@ -75,6 +79,7 @@ def _json_kind(head: str) -> str:
     if value >= 0:
         return "json-records"
     raise UnknownFormat(
+        "unknown format: "
         'JSON without "value" or "points" keys near the start; expected records '
         '[{"timestamp", "metric", "labels", "value"}, ...] or series '
         '{"metric", "labels", "points": [[ts, value], ...]}'
@@ -85,24 +90,34 @@ def _csv_kind(first: str) -> str:
     delimiter = sniff_delimiter(first)
     if delimiter not in first:
         raise UnknownFormat(
+            "unknown format: "
             "not CSV (no commas, semicolons or tabs on line 1), JSON, OpenMetrics text "
             f"or Parquet; line 1 reads {first[:80]!r}"
         )
     fields = header_fields(first, delimiter)
     if looks_like_data(fields):
         raise UnknownFormat(
+            "unknown format: "
             "line 1 holds data, not a header; expected a CSV header row naming the columns, "
             f"e.g. timestamp,metric,host,value; line 1 reads {first[:80]!r}"
         )
     names = {n.lower() for n in fields}
-    if names & set(METRIC_NAMES) and names & set(VALUE_NAMES):
+    has_metric, has_value = bool(names & set(METRIC_NAMES)), bool(names & set(VALUE_NAMES))
+    if has_metric and has_value:
         return "csv-long"
-    if names & set(TIMESTAMP_NAMES):
+    if names & set(TIMESTAMP_NAMES) and not has_metric and not has_value:
         return "csv-wide"
+    if not names & set(TIMESTAMP_NAMES):
+        why = "it names no timestamp column"
+    elif has_value:
+        why = "it has a value column but no metric column"
+    else:
+        why = "it has a metric column but no value column"
+    found = ", ".join(fields)
     raise UnknownFormat(
-        "CSV whose header names no timestamp column; expected timestamp (or time/ts), "
-        f"then metric and value columns (long) or one column per series (wide); line 1 "
-        f"reads {first[:80]!r}"
+        f"the CSV header fits neither shape, as {why}. {CSV_SHAPES}. "
+        f"Found: {found if len(found) <= 200 else found[:200] + '…'}",
+        line=1,
     )
 
 

@@ -18,6 +18,10 @@ METRIC_NAMES = ("metric", "name", "metric_name")
 VALUE_NAMES = ("value", "val")
 UNIT_NAMES = ("unit",)
 _PACKED_LIMIT = 2**40
+LONG_NEEDS = (
+    "a long file needs columns named timestamp (or time/ts), metric (or name) and value, "
+    "with an optional unit column and any other column a label"
+)
 
 
 def find_column(names: list[str], aliases: tuple[str, ...]) -> str | None:
@@ -39,9 +43,7 @@ def long_roles(names: list[str], log: ProblemLog, line: int | None) -> tuple[str
     missing = [role for role, name in roles.items() if name is None]
     if missing:
         log.reject(
-            f"no {' or '.join(missing)} column; the long layout needs columns named "
-            "timestamp (or time/ts), metric (or name) and value, an optional unit, every "
-            f"other column being a label; found {', '.join(names)}",
+            f"no {' or '.join(missing)} column; {LONG_NEEDS}; found {', '.join(names)}",
             line=line,
         )
     return roles["timestamp"], roles["metric"], roles["value"]  # type: ignore[return-value]
