@@ -27,7 +27,7 @@ from webapp.imports._long import (
 )
 from webapp.imports._problems import LineMap, ProblemLog
 from webapp.imports._text import first_line, reject_bad_encoding, without_bom
-from webapp.imports._timestamps import Timestamps, parse_timestamps
+from webapp.imports._timestamps import NaiveTimes, Timestamps, parse_timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports._values import parse_values
 from webapp.imports.keys import parse_series_key
@@ -196,7 +196,7 @@ def _without_blank_rows(
 
 
 def parse_csv_long(
-    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+    data: bytes | memoryview, file_name: str, times: NaiveTimes, log: ProblemLog
 ) -> ParsedImport:
     header = read_header(data, log)
     ts_name, metric_name, value_name = long_roles(header.names, log, line=1)
@@ -213,7 +213,7 @@ def parse_csv_long(
         data=data,
         file_name=file_name,
         format="csv-long",
-        tz=tz,
+        times=times,
         log=log,
         line_of=line_of,
         header_line=1,
@@ -247,7 +247,7 @@ def _report_text_columns(
 
 
 def parse_csv_wide(
-    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+    data: bytes | memoryview, file_name: str, times: NaiveTimes, log: ProblemLog
 ) -> ParsedImport:
     header = read_header(data, log)
     ts_name = find_column(header.names, TIMESTAMP_NAMES)
@@ -279,7 +279,7 @@ def parse_csv_wide(
     decimal_comma = header.delimiter != ","
     _report_text_columns(table, series_columns, decimal_comma, log)
     timestamps = parse_timestamps(
-        table.column(ts_name), tz=tz, column=ts_name, log=log, line_of=line_of
+        table.column(ts_name), times=times, column=ts_name, log=log, line_of=line_of
     )
     columns = [
         parse_values(
@@ -306,6 +306,6 @@ def parse_csv_wide(
         values=values,
         log=log,
         line_of=lambda cells: line_of(cells // max(n_series, 1)),
-        tz=tz,
+        tz=times.tz,
         rows_read=n_rows,
     )

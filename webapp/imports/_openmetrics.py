@@ -20,7 +20,7 @@ import pyarrow as pa
 from webapp.imports._assemble import assemble, series_problem
 from webapp.imports._problems import ProblemLog
 from webapp.imports._text import decode_utf8
-from webapp.imports._timestamps import parse_timestamps
+from webapp.imports._timestamps import NaiveTimes, parse_timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports._values import parse_values
 
@@ -112,7 +112,7 @@ def _family(name: str, units: dict[str, str]) -> str:
 
 
 def parse_openmetrics(
-    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+    data: bytes | memoryview, file_name: str, times: NaiveTimes, log: ProblemLog
 ) -> ParsedImport:
     text = decode_utf8(data, log)
     lines = text.split("\n")
@@ -198,7 +198,7 @@ def parse_openmetrics(
 
     timestamps = parse_timestamps(
         pa.array(stamps, type=pa.string()),
-        tz=tz,
+        times=times,
         column="timestamp",
         log=log,
         line_of=line_of,
@@ -221,6 +221,6 @@ def parse_openmetrics(
         values=numbers,
         log=log,
         line_of=line_of,
-        tz=tz,
+        tz=times.tz,
         rows_read=len(values),
     )

@@ -1,8 +1,10 @@
 """Timestamps to UTC epoch milliseconds, vectorised.
 
 Accepted: ISO 8601 with an offset or ``Z``; naive ISO 8601 (read in ``tz``, UTC when no
-zone is named); epoch numbers, whose unit is chosen by magnitude (see ``epoch_unit``);
-typed timestamps (Parquet, or what the CSV reader recognised). Sub-millisecond parts are
+zone is named); naive dates written with slashes, dots or dashes (``31/12/2026 23:00``)
+once the user has said whether the day or the month comes first, which no file can say
+reliably; epoch numbers, whose unit is chosen by magnitude (see ``epoch_unit``); typed
+timestamps (Parquet, or what the CSV reader recognised). Sub-millisecond parts are
 rounded to the nearest millisecond.
 """
 
@@ -29,7 +31,22 @@ _MAGNITUDE_EDGES = (1e11, 1e14, 1e17)
 MAX_MS = 9_223_372_036_854  # the end of pandas' nanosecond range (year 2262)
 RANGE = "1970-01-01..2262-04-11"
 EXPECTED = "expected ISO 8601 (e.g. 2026-11-30T08:00:00Z) or epoch seconds/ms/us/ns"
+_SLASHED = (
+    r"^(?P<first>\d{1,2})[/.-](?P<second>\d{1,2})[/.-](?P<year>\d{4})"
+    r"(?:[ T]+(?P<hour>\d{1,2}):(?P<minute>\d{2})(?::(?P<second_of_minute>\d{2}(?:[.,]\d+)?))?)?$"
+)
+_SLASHED_UNIT = {True: "dates with the day first (31/12/2026 23:00)",
+                 False: "dates with the month first (12/31/2026 23:00)"}  # fmt: skip
 _OFFSET_AT_END = r"\d\d:\d\d(?::\d\d(?:[.,]\d+)?)?\s*(?:[Zz]|[+-]\d\d(?::?\d\d)?)$"
+
+
+@dataclass(frozen=True)
+class NaiveTimes:
+    """How to read times the file writes without an offset: the zone they are in (UTC
+    when None) and, for dates with slashes, whether the day comes first (None: not said)."""
+
+    tz: str | None = None
+    day_first: bool | None = None
 
 
 @dataclass
@@ -50,7 +67,7 @@ def epoch_unit(magnitude: float) -> str:
 def parse_timestamps(
     values: pa.Array | pa.ChunkedArray,
     *,
-    tz: str | None,
+    times: NaiveTimes,
     column: str,
     log: ProblemLog,
     line_of: LineMap,
@@ -71,11 +88,11 @@ def parse_timestamps(
     if pa.types.is_null(kind):  # every cell empty, each one already reported
         return Timestamps(np.zeros(len(values), np.int64), missing, ISO)
     if pa.types.is_string(kind) or pa.types.is_large_string(kind):
-        parsed = _parse_text(values, missing, tz, column, log, line_of)
+        parsed = _parse_text(values, missing, times, column, log, line_of)
     elif pa.types.is_integer(kind) or pa.types.is_floating(kind):
         parsed = _parse_epoch(values, missing, column, log, line_of)
     elif pa.types.is_timestamp(kind) or pa.types.is_date(kind):
-        parsed = _parse_typed(values, missing, tz, column, log, line_of)
+        parsed = _parse_typed(values, missing, times.tz, column, log, line_of)
     else:
         log.reject(f"column holds {kind} values; {EXPECTED}", column=column)
     _check_range(parsed, values, column, log, line_of)
@@ -170,7 +187,7 @@ def _scale_to_ms(raw: np.ndarray, unit: str) -> np.ndarray:
 def _parse_text(
     values: pa.Array,
     missing: np.ndarray,
-    tz: str | None,
+    times: NaiveTimes,
     column: str,
     log: ProblemLog,
     line_of: LineMap,
@@ -200,7 +217,7 @@ def _parse_text(
         )
         return parsed
     return _parse_iso(
-        text.str.replace(r"z$", "Z", regex=True), missing, is_number, tz, column, log, line_of
+        text.str.replace(r"z$", "Z", regex=True), missing, is_number, times, column, log, line_of
     )
 
 
@@ -208,12 +225,13 @@ def _parse_iso(
     text: pd.Series,
     missing: np.ndarray,
     is_number: np.ndarray,
-    tz: str | None,
+    times: NaiveTimes,
     column: str,
     log: ProblemLog,
     line_of: LineMap,
 ) -> Timestamps:
-    """ISO 8601 text; times with an offset and naive times (read in ``tz``) apart."""
+    """ISO 8601 text; times with an offset and naive times (read in ``times.tz``) apart.
+    Naive dates with slashes are read in the order the user chose, or refused if none."""
     aware = text.str.contains(_OFFSET_AT_END, regex=True, na=False).to_numpy(dtype=bool)
     ms = np.zeros(len(text), dtype=np.int64)
     unparsed = np.zeros(len(text), dtype=bool)
@@ -223,15 +241,38 @@ def _parse_iso(
         ms[aware] = _to_ms(parsed)
         unparsed[aware] = parsed.isna().to_numpy()
     naive = ~aware & ~missing
+    slashed = np.zeros(len(text), dtype=bool)
+    unit = ISO
     if naive.any():
         parsed = pd.to_datetime(text[naive], format="ISO8601", errors="coerce")
         rows = np.flatnonzero(naive)
-        ms[naive], local_bad[naive] = _localize(parsed, tz, column, log, line_of, rows)
+        slashed[rows] = (parsed.isna() & text[naive].str.match(_SLASHED)).to_numpy(dtype=bool)
+        if slashed.any() and times.day_first is not None:
+            parsed = parsed.dt.as_unit("us")  # one resolution for both forms
+            parsed[slashed[rows]] = _slashed_dates(text[slashed], times.day_first).dt.as_unit("us")
+            unit = _SLASHED_UNIT[times.day_first]
+        ms[naive], local_bad[naive] = _localize(parsed, times.tz, column, log, line_of, rows)
         unparsed[rows[parsed.isna().to_numpy()]] = True
     local_bad &= ~unparsed
     mixed = unparsed & is_number
+    unordered = unparsed & slashed if times.day_first is None else np.zeros_like(slashed)
     log.rows(
-        unparsed & ~mixed,
+        unordered,
+        column,
+        lambda r: (
+            f"{text.iloc[r]!r} could be day first or month first; choose the date order "
+            "(day first as in 31/12/2026, or month first as in 12/31/2026) and import again"
+        ),
+        line_of,
+    )
+    log.rows(
+        unparsed & slashed & ~unordered,
+        column,
+        lambda r: f"{text.iloc[r]!r} is not a date when read as {unit}",
+        line_of,
+    )
+    log.rows(
+        unparsed & ~mixed & ~slashed,
         column,
         lambda r: f"{text.iloc[r]!r} is not a timestamp; {EXPECTED}",
         line_of,
@@ -245,7 +286,20 @@ def _parse_iso(
         ),
         line_of,
     )
-    return Timestamps(ms, missing | unparsed | local_bad, ISO)
+    return Timestamps(ms, missing | unparsed | local_bad, unit)
+
+
+def _slashed_dates(text: pd.Series, day_first: bool) -> pd.Series:
+    """Dates like ``31/12/2026 23:00`` rewritten as ISO 8601 and parsed (NaT where the day
+    or month is out of range)."""
+    parts = text.str.extract(_SLASHED)
+    day, month = (parts.first, parts.second) if day_first else (parts.second, parts.first)
+    iso = (
+        parts.year + "-" + month.str.zfill(2) + "-" + day.str.zfill(2)
+        + "T" + parts.hour.fillna("0").str.zfill(2) + ":" + parts.minute.fillna("00")
+        + ":" + parts.second_of_minute.fillna("00").str.replace(",", ".")
+    )  # fmt: skip
+    return pd.to_datetime(iso, format="ISO8601", errors="coerce")
 
 
 def _to_ms(parsed: pd.Series | pd.DatetimeIndex) -> np.ndarray:
