@@ -143,6 +143,18 @@ def serve(host: str, port: int, db_url: str | None) -> None:
     metavar="ZONE",
     help="Time zone of timestamps written without an offset (IANA name); UTC by default.",
 )
+@click.option(
+    "--day-first/--month-first",
+    "day_first",
+    default=None,
+    help="How dates like 31/12/2026 are written; such dates are refused unless one is given.",
+)
+@click.option(
+    "--unit",
+    default=None,
+    metavar="UNIT",
+    help="The unit of every series in the files (ms, s, bytes, %); the files' own otherwise.",
+)
 @db_option
 @click.pass_context
 def import_files(
@@ -150,6 +162,8 @@ def import_files(
     files: tuple[Path, ...],
     format_: str | None,
     tz: str | None,
+    day_first: bool | None,
+    unit: str | None,
     db_url: str | None,
 ) -> None:
     """Import metric files. Each file is stored whole or not at all."""
@@ -160,7 +174,8 @@ def import_files(
         engine = _open(url)
         try:
             for path in files:
-                rejected += not _import_one(engine, path, format_, tz, max_bytes)
+                options = {"tz": tz, "day_first": day_first, "unit": unit}
+                rejected += not _import_one(engine, path, format_, options, max_bytes)
         finally:
             engine.dispose()
     if rejected:
@@ -169,14 +184,14 @@ def import_files(
 
 
 def _import_one(
-    engine: Engine, path: Path, format_: str | None, tz: str | None, limit: int
+    engine: Engine, path: Path, format_: str | None, options: dict[str, Any], limit: int
 ) -> bool:
     if not path.is_file():
         what = "is a folder, not a file" if path.is_dir() else "does not exist"
         click.echo(f"{path}: {what}; nothing stored.", err=True)
         return False
     try:
-        parsed = parse_file(path, format=format_, tz=tz, max_bytes=limit)
+        parsed = parse_file(path, format=format_, max_bytes=limit, **options)
     except ImportRejected as rejection:
         _report_rejection(path, rejection)
         return False
