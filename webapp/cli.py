@@ -172,9 +172,9 @@ def import_files(
     rejected = 0
     with _database_errors(url):
         engine = _open(url)
+        options = {"tz": tz, "day_first": day_first, "unit": unit}
         try:
             for path in files:
-                options = {"tz": tz, "day_first": day_first, "unit": unit}
                 rejected += not _import_one(engine, path, format_, options, max_bytes)
         finally:
             engine.dispose()
