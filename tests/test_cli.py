@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from datetime import UTC, datetime
 from pathlib import Path
 
 import pytest
@@ -11,7 +12,7 @@ from webapp import cli as cli_module
 from webapp import resource_dir
 from webapp.cli import cli, describe
 from webapp.store import db
-from webapp.store.models import Import, Point, Review
+from webapp.store.models import Import, Point, Review, Series
 
 EXAMPLE_LONG = resource_dir("static") / "examples" / "example-csv-long.csv"
 
@@ -67,6 +68,42 @@ def test_a_bad_file_gets_a_clear_message_and_a_failing_exit_code(runner, db_url,
     assert "rejected, nothing stored" in result.output
     assert "Traceback" not in result.output
     assert count(db_url, Import) == 0
+
+
+def test_a_file_with_thousands_of_bad_lines_counts_them_all(runner, db_url, tmp_path):
+    path = tmp_path / "bad-values.csv"
+    rows = "".join(f"{1796025600 + 60 * i},m,api-1,oops\n" for i in range(3000))
+    path.write_text("timestamp,metric,host,value\n" + rows, encoding="utf-8")
+    result = runner.invoke(cli, ["import", str(path), "--db", db_url])
+    assert result.exit_code == 1
+    listed = [line for line in result.output.splitlines() if line.startswith("  - ")]
+    assert len(listed) == 20
+    assert "  … and 2,980 more problems not listed" in result.output.splitlines()
+
+
+def test_day_first_dates_and_a_unit_are_taken_from_the_options(runner, db_url, tmp_path):
+    path = tmp_path / "day-first.csv"
+    path.write_text(
+        "timestamp,metric,host,value\n31/12/2026 23:00,checkout.latency_p95,api-1,183\n",
+        encoding="utf-8",
+    )
+    refused = runner.invoke(cli, ["import", str(path), "--db", db_url])
+    assert refused.exit_code == 1
+    assert "'31/12/2026 23:00' could be day first or month first" in refused.output
+    args = ["import", str(path), "--day-first", "--unit", "ms", "--db", db_url]
+    result = runner.invoke(cli, args)
+    assert result.exit_code == 0, result.output
+    assert "dates with the day first (31/12/2026 23:00)" in result.output
+    engine = db.make_engine(db_url)
+    try:
+        with db.session_scope(engine) as s:
+            assert s.execute(select(Series.key, Series.unit)).all() == [
+                ("checkout.latency_p95{host=api-1}", "ms")
+            ]
+            new_year_eve = datetime(2026, 12, 31, 23, tzinfo=UTC)
+            assert s.scalar(select(Point.ts)) == int(new_year_eve.timestamp() * 1000)
+    finally:
+        engine.dispose()
 
 
 def test_good_files_are_stored_even_when_another_is_rejected(runner, db_url, tmp_path):

@@ -24,8 +24,6 @@ from webapp.imports import FORMATS, ImportRejected, parse_file
 from webapp.store import db
 from webapp.store.imports import record_import
 
-MAX_PROBLEMS_SHOWN = 20
-
 
 def _setting_help(name: str) -> str:
     return next(s.help for s in settings.SETTINGS if s.name == name)
@@ -145,6 +143,18 @@ def serve(host: str, port: int, db_url: str | None) -> None:
     metavar="ZONE",
     help="Time zone of timestamps written without an offset (IANA name); UTC by default.",
 )
+@click.option(
+    "--day-first/--month-first",
+    "day_first",
+    default=None,
+    help="How dates like 31/12/2026 are written; such dates are refused unless one is given.",
+)
+@click.option(
+    "--unit",
+    default=None,
+    metavar="UNIT",
+    help="The unit of every series in the files (ms, s, bytes, %); the files' own otherwise.",
+)
 @db_option
 @click.pass_context
 def import_files(
@@ -152,6 +162,8 @@ def import_files(
     files: tuple[Path, ...],
     format_: str | None,
     tz: str | None,
+    day_first: bool | None,
+    unit: str | None,
     db_url: str | None,
 ) -> None:
     """Import metric files. Each file is stored whole or not at all."""
@@ -160,9 +172,10 @@ def import_files(
     rejected = 0
     with _database_errors(url):
         engine = _open(url)
+        options = {"tz": tz, "day_first": day_first, "unit": unit}
         try:
             for path in files:
-                rejected += not _import_one(engine, path, format_, tz, max_bytes)
+                rejected += not _import_one(engine, path, format_, options, max_bytes)
         finally:
             engine.dispose()
     if rejected:
@@ -171,14 +184,14 @@ def import_files(
 
 
 def _import_one(
-    engine: Engine, path: Path, format_: str | None, tz: str | None, limit: int
+    engine: Engine, path: Path, format_: str | None, options: dict[str, Any], limit: int
 ) -> bool:
     if not path.is_file():
         what = "is a folder, not a file" if path.is_dir() else "does not exist"
         click.echo(f"{path}: {what}; nothing stored.", err=True)
         return False
     try:
-        parsed = parse_file(path, format=format_, tz=tz, max_bytes=limit)
+        parsed = parse_file(path, format=format_, max_bytes=limit, **options)
     except ImportRejected as rejection:
         _report_rejection(path, rejection)
         return False
@@ -193,12 +206,11 @@ def _import_one(
 
 
 def _report_rejection(path: Path, rejection: ImportRejected) -> None:
-    problems = rejection.problems
     click.echo(f"{path}: rejected, nothing stored:", err=True)
-    for problem in problems[:MAX_PROBLEMS_SHOWN]:
+    for problem in rejection.problems:  # the importer keeps the first few
         click.echo(f"  - {problem}", err=True)
-    if len(problems) > MAX_PROBLEMS_SHOWN:
-        click.echo(f"  ... and {len(problems) - MAX_PROBLEMS_SHOWN} more problems", err=True)
+    if rejection.more:
+        click.echo(f"  {rejection.more}", err=True)
 
 
 def demo_database_url() -> str:

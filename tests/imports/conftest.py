@@ -16,7 +16,8 @@ def _rejected(text: str | bytes, name: str = "upload.csv", **options) -> list[st
     data = text.encode() if isinstance(text, str) else text
     with pytest.raises(ImportRejected) as caught:
         parse_bytes(data, name, **options)
-    return [str(p) for p in caught.value.problems]
+    more = [caught.value.more] if caught.value.more else []
+    return [str(p) for p in caught.value.problems] + more
 
 
 def _points(parsed) -> dict[tuple[str, int], float]:

@@ -150,7 +150,22 @@ def test_problems_are_capped_with_a_count_of_the_rest(rejected):
     assert len(problems) == 21
     assert problems[0].startswith("upload.csv, line 2, column 'value'")
     assert problems[19].startswith("upload.csv, line 21, column 'value'")
-    assert problems[20] == "upload.csv: and 15 more problems not listed"
+    assert problems[20] == "… and 15 more problems not listed"
+
+
+def test_thousands_of_bad_lines_are_all_counted(rejected):
+    bad_rows = "".join(f"{1796025600 + 60 * i},m,api-1,oops\n" for i in range(3000))
+    problems = rejected(HEADER + bad_rows)
+    assert len(problems) == 21
+    assert problems[-1] == "… and 2,980 more problems not listed"
+
+
+def test_the_rejection_counts_every_problem_in_its_summary():
+    bad_rows = "".join(f"{1796025600 + 60 * i},m,api-1,oops\n" for i in range(3000))
+    with pytest.raises(ImportRejected) as caught:
+        parse_bytes((HEADER + bad_rows).encode(), "upload.csv")
+    assert caught.value.not_listed == 2980
+    assert str(caught.value).endswith("(and 2,999 more)")
 
 
 def test_wide_csv_bad_cell_names_its_column(rejected):

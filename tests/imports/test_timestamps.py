@@ -119,13 +119,51 @@ def test_epoch_numbers_mixed_into_iso_text_are_refused(rejected):
     ]
 
 
-def test_times_before_1970_are_refused(rejected):
-    problems = rejected("ts,metric,value\n1969-12-31T23:59:59Z,m,1\n")
-    assert problems[0].startswith("upload.csv, line 2, column 'ts': timestamp -1000 ms is outside")
+def test_times_before_1970_are_refused_quoting_the_cell(rejected):
+    assert rejected("ts,metric,value\n1969-12-31T23:59:59Z,m,1\n") == [
+        "upload.csv, line 2, column 'ts': timestamp 1969-12-31T23:59:59Z is outside "
+        "1970-01-01..2262-04-11"
+    ]
 
 
-def test_openmetrics_timestamps_are_seconds_whatever_their_size():
+def test_an_epoch_past_2262_is_refused_quoting_the_number_as_written(rejected):
+    text = "ts,metric,value\n100000000000000000000,m,1\n"  # read as a float: too big for int64
+    assert rejected(text) == [
+        "upload.csv, line 2, column 'ts': timestamp 100000000000000000000 is outside "
+        "1970-01-01..2262-04-11 when read as epoch nanoseconds"
+    ]
+
+
+def test_openmetrics_timestamps_in_seconds_are_read_as_seconds():
     text = '# TYPE x gauge\nx{h="a"} 1 1796025600.5\nx{h="a"} 2 1796025601\n# EOF\n'
     parsed = parse_bytes(text.encode(), "x.txt")
     assert parsed.table["ts_utc"].tolist() == [UTC_MS + 500, UTC_MS + 1000]
     assert parsed.timestamp_unit == "epoch seconds"
+    assert parsed.problems == []
+
+
+def test_an_openmetrics_timestamp_past_2262_is_quoted_as_written(rejected):
+    text = "# TYPE x gauge\nx 1 9300000000000000000\n# EOF\n"
+    assert rejected(text, name="x.txt") == [
+        "x.txt, line 2, column 'timestamp': timestamp '9300000000000000000' is outside "
+        "1970-01-01..2262-04-11 when read as epoch nanoseconds"
+    ]
+
+
+def test_openmetrics_timestamps_in_milliseconds_are_told_by_size_and_said():
+    text = f'# TYPE x gauge\nx{{h="a"}} 1 {UTC_MS}\nx{{h="a"}} 2 {UTC_MS + 60_000}\n# EOF\n'
+    parsed = parse_bytes(text.encode(), "x.txt")
+    assert parsed.table["ts_utc"].tolist() == [UTC_MS, UTC_MS + 60_000]
+    assert parsed.timestamp_unit == "epoch milliseconds"
+    assert [str(p) for p in parsed.problems] == [
+        "x.txt: sample timestamps read as epoch milliseconds, told by their size; "
+        "OpenMetrics writes seconds since the epoch"
+    ]
+
+
+def test_an_openmetrics_sample_in_another_unit_than_the_rest_is_refused(rejected):
+    text = f"# TYPE x gauge\nx 1 {UTC_MS}\nx 2 {UTC_MS + 60_000}\nx 3 {SECONDS + 120}\n# EOF\n"
+    assert rejected(text, name="x.txt") == [
+        f"x.txt, line 4, column 'timestamp': epoch value {SECONDS + 120} looks like epoch "
+        "seconds, but this column is in epoch milliseconds"
+    ]

@@ -158,3 +158,60 @@ def test_json_records_unit_change_names_the_record_line(rejected):
 def test_json_unit_that_is_not_text_is_refused(rejected):
     problems = rejected(_records(3), name="r.json")
     assert problems == ["r.json, line 2, column 'unit': unit must be a string, found int"]
+
+
+WIDE = "ts,checkout.latency_p95{host=api-1},checkout.latency_p95{host=api-2}\n1796025600,1,2\n"
+
+
+def test_a_unit_given_at_import_is_the_unit_of_every_series_of_the_file():
+    parsed = parse_bytes(WIDE.encode(), "w.csv", unit=" ms ")
+    assert {key: meta.unit for key, meta in parsed.series.items()} == {
+        "checkout.latency_p95{host=api-1}": "ms",
+        "checkout.latency_p95{host=api-2}": "ms",
+    }
+
+
+def test_without_a_given_unit_the_series_have_none():
+    parsed = parse_bytes(WIDE.encode(), "w.csv", unit="  ")
+    assert {meta.unit for meta in parsed.series.values()} == {None}
+
+
+def test_a_given_unit_agreeing_with_the_file_is_fine():
+    text = HEADER + _row(0, "api-1", "ms") + _row(1, "api-2", "")
+    parsed = parse_bytes(text.encode(), "u.csv", unit="ms")
+    assert {meta.unit for meta in parsed.series.values()} == {"ms"}
+
+
+def test_a_given_unit_contradicting_the_file_is_refused(rejected):
+    text = HEADER + _row(0, "api-1", "s") + _row(1, "api-2", "ms")
+    assert rejected(text, unit="ms") == [
+        "upload.csv: the file gives checkout.latency_p95{host=api-1} the unit 's', but the "
+        "import's unit is 'ms'; leave the unit out to keep the file's units, or give the "
+        "same one"
+    ]
+
+
+def test_a_given_unit_contradicting_openmetrics_unit_is_refused(rejected):
+    text = "# TYPE x_seconds gauge\n# UNIT x_seconds seconds\nx_seconds 1 1796025600\n# EOF\n"
+    assert rejected(text, name="x.txt", unit="ms") == [
+        "x.txt: the file gives x_seconds the unit 'seconds', but the import's unit is 'ms'; "
+        "leave the unit out to keep the file's units, or give the same one"
+    ]
+
+
+@pytest.mark.parametrize(
+    ("unit", "message"),
+    [
+        (
+            "m" * 40,
+            f"upload.csv: the unit {'m' * 40!r}… is 40 characters long; expected a short unit "
+            "of at most 32 characters, such as ms, s, bytes or %",
+        ),
+        (
+            "m\ts",
+            "upload.csv: the unit 'm\\ts' holds a control character; expected a unit such as ms",
+        ),
+    ],
+)
+def test_a_unit_that_cannot_be_one_is_refused(rejected, unit, message):
+    assert rejected(WIDE, unit=unit) == [message]

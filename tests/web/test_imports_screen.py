@@ -103,3 +103,43 @@ def test_undo_removes_the_import_and_its_points(client, csrf, stored):
     again = client.post("/imports/1/delete", data={"csrf_token": csrf})
     assert again.status_code == 404
     assert "There is no import #1" in again.get_data(as_text=True)
+
+
+DAY_FIRST = b"timestamp,metric,host,value\n31/12/2026 23:00,checkout.latency_p95,api-1,183\n"
+
+
+def test_the_form_offers_a_date_order_and_a_unit(client):
+    body = client.get("/imports").get_data(as_text=True)
+    assert '<select id="date-order" name="date_order">' in body
+    assert '<option value="day-first">day first: 31/12/2026</option>' in body
+    assert '<input type="text" id="import-unit" name="unit"' in body
+
+
+def test_day_first_dates_and_a_unit_are_taken_from_the_form(client, upload_files):
+    from webapp.store import db
+    from webapp.store import series as store_series
+
+    refused = upload_files([(DAY_FIRST, "d.csv")])
+    assert refused.status_code == 400
+    assert "could be day first or month first" in refused.get_data(as_text=True)
+    response = upload_files([(DAY_FIRST, "d.csv")], date_order="day-first", unit="ms")
+    assert response.status_code == 200, response.get_data(as_text=True)
+    assert "<td>2026-12-31 23:00" in response.get_data(as_text=True)
+    with client.application.app_context():
+        series = store_series.find_series(db.get_session(), "checkout.latency_p95{host=api-1}")
+        assert series.unit == "ms"
+
+
+def test_unknown_date_order_is_a_400(upload_files):
+    response = upload_files([(DAY_FIRST, "d.csv")], date_order="sideways")
+    assert response.status_code == 400
+    assert "Unknown date order &#39;sideways&#39;" in response.get_data(as_text=True)
+
+
+def test_a_refused_file_counts_the_problems_not_listed(upload_files):
+    rows = b"".join(b"%d,m,oops\n" % (1796025600 + 60 * i) for i in range(3000))
+    response = upload_files([(b"timestamp,metric,value\n" + rows, "bad.csv")])
+    assert response.status_code == 400
+    body = response.get_data(as_text=True)
+    assert body.count("is not a number") == 20
+    assert "<li>… and 2,980 more problems not listed</li>" in body

@@ -17,11 +17,13 @@ from webapp.imports._openmetrics import parse_openmetrics
 from webapp.imports._parquet import parse_parquet
 from webapp.imports._problems import ProblemLog
 from webapp.imports._text import reject_utf16, without_bom
+from webapp.imports._timestamps import NaiveTimes
 from webapp.imports._types import ImportRejected, ParsedImport
+from webapp.imports._units import check_unit, give_unit
 
 DEFAULT_MAX_BYTES = 200 * 1024**2
 
-Parser = Callable[[bytes | memoryview, str, "str | None", ProblemLog], ParsedImport]
+Parser = Callable[[bytes | memoryview, str, NaiveTimes, ProblemLog], ParsedImport]
 
 
 PARSERS: dict[str, Parser] = {
@@ -65,12 +67,18 @@ def parse_bytes(
     format: str | None = None,
     tz: str | None = None,
     max_bytes: int = DEFAULT_MAX_BYTES,
+    unit: str | None = None,
+    day_first: bool | None = None,
 ) -> ParsedImport:
     """Parse one file's bytes. ``format`` overrides detection; ``tz`` names the zone of
-    naive times (UTC when None). Raises ImportRejected naming file, line and column."""
+    naive times (UTC when None); ``unit`` is the unit of every series in the file (the
+    file's own units when None); ``day_first`` says how dates like 31/12/2026 are read
+    (True: day first, False: month first, None: refused as ambiguous). Raises
+    ImportRejected naming file, line and column."""
     log = ProblemLog(file_name)
     _too_big(len(data), max_bytes, log)
     _check_zone(tz, log)
+    unit = check_unit(unit, log)
     if not bytes(without_bom(data[:65536])).strip():
         log.reject("the file is empty")
     if data[:4] != PARQUET_MAGIC:
@@ -79,19 +87,20 @@ def parse_bytes(
         try:
             format = detect_format(data, file_name)
         except UnknownFormat as exc:
-            log.reject(f"unknown format: {exc}")
+            log.reject(str(exc), line=exc.line)
     else:
         check_override(format, data, file_name, log)
     parser = PARSERS[format]
     with ThreadPoolExecutor(max_workers=1) as pool:
         digest = pool.submit(lambda: hashlib.sha256(data).hexdigest())  # releases the GIL
         try:
-            parsed = parser(data, file_name, tz, log)
+            parsed = parser(data, file_name, NaiveTimes(tz, day_first), log)
         except ImportRejected:
             raise
         except Exception as exc:  # noqa: BLE001 - a reader's own error must not surface raw
             log.reject(f"could not be read as {format}: {exc}")
         parsed.sha256 = digest.result()
+    give_unit(parsed, unit, log)
     return parsed
 
 
@@ -100,8 +109,10 @@ def parse_file(
     format: str | None = None,
     tz: str | None = None,
     max_bytes: int = DEFAULT_MAX_BYTES,
+    unit: str | None = None,
+    day_first: bool | None = None,
 ) -> ParsedImport:
-    """Parse a file on disk; its size is checked before it is read."""
+    """Parse a file on disk (options as for ``parse_bytes``); its size is checked first."""
     path = Path(path)
     log = ProblemLog(path.name)
     try:
@@ -113,7 +124,9 @@ def parse_file(
         data = _mapped(path) if size else b""
     except OSError as exc:
         log.reject(f"cannot read the file: {exc.strerror or exc}")
-    return parse_bytes(data, path.name, format=format, tz=tz, max_bytes=max_bytes)
+    return parse_bytes(
+        data, path.name, format=format, tz=tz, max_bytes=max_bytes, unit=unit, day_first=day_first
+    )
 
 
 def _mapped(path: Path) -> memoryview:

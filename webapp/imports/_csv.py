@@ -18,15 +18,27 @@ import pyarrow.csv as pcsv
 
 from webapp.imports._assemble import assemble
 from webapp.imports._csvlines import CsvLines
-from webapp.imports._long import TIMESTAMP_NAMES, find_column, long_roles, parse_long_table
+from webapp.imports._long import (
+    LONG_NEEDS,
+    TIMESTAMP_NAMES,
+    find_column,
+    long_roles,
+    parse_long_table,
+)
 from webapp.imports._problems import LineMap, ProblemLog
-from webapp.imports._text import reject_bad_encoding, without_bom
-from webapp.imports._timestamps import Timestamps, parse_timestamps
+from webapp.imports._text import first_line, reject_bad_encoding, without_bom
+from webapp.imports._timestamps import NaiveTimes, Timestamps, parse_timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports._values import parse_values
 from webapp.imports.keys import parse_series_key
 
 DELIMITERS = (",", ";", "\t")
+WIDE_NEEDS = (
+    "a wide file needs a timestamp column (or time/ts) and one column of numbers per "
+    "series, headed by its key, e.g. checkout.latency_p95{host=api-3}"
+)
+CSV_SHAPES = f"{LONG_NEEDS[0].upper()}{LONG_NEEDS[1:]}; {WIDE_NEEDS}"
+"""What each CSV shape needs, for the messages that could not tell the shape."""
 _TEXT = pa.dictionary(pa.int32(), pa.string())
 
 
@@ -34,6 +46,16 @@ _TEXT = pa.dictionary(pa.int32(), pa.string())
 class Header:
     names: list[str]
     delimiter: str
+    length: int  # bytes on line 1
+
+
+def header_fields(header: str, delimiter: str) -> list[str]:
+    """Line 1 split into trimmed column names, quotes respected. A field longer than the
+    csv module's limit cannot be a column name; the line is then one field."""
+    try:
+        return [f.strip() for f in next(csv.reader([header], delimiter=delimiter))]
+    except csv.Error:
+        return [header]
 
 
 def sniff_delimiter(header: str) -> str:
@@ -41,7 +63,7 @@ def sniff_delimiter(header: str) -> str:
     one), quotes respected; failing that, the one giving the most fields. Commas win ties."""
 
     def fields(delimiter: str) -> list[str]:
-        return [f.strip().lower() for f in next(csv.reader([header], delimiter=delimiter))]
+        return [f.lower() for f in header_fields(header, delimiter)]
 
     return max(
         DELIMITERS,
@@ -52,8 +74,7 @@ def sniff_delimiter(header: str) -> str:
 def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
     """The first line: column names, the delimiter, and which columns play which role."""
     body = without_bom(data)
-    end = bytes(body[:65536]).find(b"\n")
-    first = bytes(body[: end if end >= 0 else 65536]).rstrip(b"\r")
+    first = first_line(body)
     try:
         text = first.decode("utf-8")
     except UnicodeDecodeError:
@@ -61,7 +82,7 @@ def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
     if not text.strip():
         log.reject("line 1 is empty; expected a header row naming the columns", line=1)
     delimiter = sniff_delimiter(text)
-    names = [name.strip() for name in next(csv.reader([text], delimiter=delimiter))]
+    names = header_fields(text, delimiter)
     if len(names) < 2:
         log.reject(
             "expected a header row with at least a timestamp and a value column, "
@@ -82,7 +103,7 @@ def read_header(data: bytes | memoryview, log: ProblemLog) -> Header:
             line=1,
         )
     log.check()
-    return Header(names=names, delimiter=delimiter)
+    return Header(names=names, delimiter=delimiter, length=len(first))
 
 
 def looks_like_data(names: list[str]) -> bool:
@@ -106,7 +127,9 @@ def _read_table(
     try:
         table = pcsv.read_csv(
             pa.BufferReader(pa.py_buffer(body)),
-            read_options=pcsv.ReadOptions(column_names=header.names, skip_rows=1),
+            read_options=pcsv.ReadOptions(
+                column_names=header.names, skip_rows=1, block_size=_block_size(header)
+            ),
             parse_options=pcsv.ParseOptions(
                 delimiter=header.delimiter, invalid_row_handler=on_invalid_row
             ),
@@ -128,6 +151,12 @@ def _read_table(
         )
     log.check()
     return table
+
+
+def _block_size(header: Header) -> int:
+    """Arrow's reader needs each row to fit in one block; a wide file's rows are about as
+    long as its header."""
+    return max(1 << 20, 4 * header.length)
 
 
 def _read_with_fallback(
@@ -167,7 +196,7 @@ def _without_blank_rows(
 
 
 def parse_csv_long(
-    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+    data: bytes | memoryview, file_name: str, times: NaiveTimes, log: ProblemLog
 ) -> ParsedImport:
     header = read_header(data, log)
     ts_name, metric_name, value_name = long_roles(header.names, log, line=1)
@@ -184,7 +213,7 @@ def parse_csv_long(
         data=data,
         file_name=file_name,
         format="csv-long",
-        tz=tz,
+        times=times,
         log=log,
         line_of=line_of,
         header_line=1,
@@ -192,16 +221,39 @@ def parse_csv_long(
     )
 
 
+def _report_text_columns(
+    table: pa.Table, names: list[str], decimal_comma: bool, log: ProblemLog
+) -> None:
+    """A column of a wide file with no number in it is a label or metric column, which
+    means the file was meant as a long one: one error for the column says so and stops,
+    rather than one per cell."""
+    for name in names:
+        column = table.column(name)
+        if not (pa.types.is_string(column.type) or pa.types.is_dictionary(column.type)):
+            continue
+        scratch = ProblemLog(log.file, limit=1)
+        numbers = parse_values(
+            column, column=name, log=scratch, line_of=lambda rows: rows, decimal_comma=decimal_comma
+        )
+        if scratch.error_total and np.isnan(numbers).all():
+            example = str(column[scratch.errors[0].line].as_py()).strip()  # the row, 0-based
+            log.error(
+                f"holds text such as {example!r}, not the numbers of a series; the file "
+                f"was read as wide, having no metric and value columns. {CSV_SHAPES}",
+                line=1,
+                column=name,
+            )
+    log.check()
+
+
 def parse_csv_wide(
-    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+    data: bytes | memoryview, file_name: str, times: NaiveTimes, log: ProblemLog
 ) -> ParsedImport:
     header = read_header(data, log)
     ts_name = find_column(header.names, TIMESTAMP_NAMES)
     if ts_name is None:
         log.reject(
-            "the header has no timestamp column; a wide CSV needs a column named timestamp "
-            "(or time/ts) and one column per series headed by its key, e.g. "
-            f"checkout.latency_p95{{host=api-3}}; found {', '.join(header.names)}",
+            f"the header has no timestamp column; {WIDE_NEEDS}; found {', '.join(header.names)}",
             line=1,
         )
     series_columns = [n for n in header.names if n != ts_name]
@@ -224,8 +276,10 @@ def parse_csv_wide(
     )
     if table.num_rows == 0:
         log.reject("the file has no data rows below the header")
+    decimal_comma = header.delimiter != ","
+    _report_text_columns(table, series_columns, decimal_comma, log)
     timestamps = parse_timestamps(
-        table.column(ts_name), tz=tz, column=ts_name, log=log, line_of=line_of
+        table.column(ts_name), times=times, column=ts_name, log=log, line_of=line_of
     )
     columns = [
         parse_values(
@@ -233,7 +287,7 @@ def parse_csv_wide(
             column=n,
             log=log,
             line_of=line_of,
-            decimal_comma=header.delimiter != ",",
+            decimal_comma=decimal_comma,
         )
         for n in series_columns
     ]
@@ -252,6 +306,6 @@ def parse_csv_wide(
         values=values,
         log=log,
         line_of=lambda cells: line_of(cells // max(n_series, 1)),
-        tz=tz,
+        tz=times.tz,
         rows_read=n_rows,
     )

@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
-import csv
 import re
 
-from webapp.imports._csv import looks_like_data, sniff_delimiter
+from webapp.imports._csv import CSV_SHAPES, header_fields, looks_like_data, sniff_delimiter
 from webapp.imports._long import METRIC_NAMES, TIMESTAMP_NAMES, VALUE_NAMES
 from webapp.imports._problems import ProblemLog
-from webapp.imports._text import without_bom
+from webapp.imports._text import first_line, without_bom
 
 FORMATS: tuple[str, ...] = (
     "csv-long",
@@ -36,6 +35,7 @@ FAMILIES = {
     "parquet": "parquet",
 }
 PARQUET_MAGIC = b"PAR1"
+_HEAD = 65536  # bytes read to tell the format
 _NUMBER = r"[+-]?(?:\d+\.?\d*(?:[eE][+-]?\d+)?|\.\d+|Inf|NaN)"
 _SAMPLE = re.compile(
     rf"^[A-Za-z_:][A-Za-z0-9_:]*(\{{.*\}})?[ ]+{_NUMBER}([ ]+{_NUMBER})?([ ]+#.*)?$"
@@ -46,22 +46,28 @@ _OPENMETRICS_COMMENT = re.compile(r"^#[ \t]+(TYPE|HELP|UNIT|EOF)\b")
 class UnknownFormat(ValueError):
     """The first bytes fit none of the formats; the message says what was looked for."""
 
+    def __init__(self, message: str, line: int | None = None):
+        super().__init__(message)
+        self.line = line
+
 
 def detect_format(data: bytes | memoryview, file_name: str = "") -> str:
     """One of FORMATS; raises UnknownFormat with a readable reason."""
     if data[:4] == PARQUET_MAGIC:
         return "parquet"
-    head = bytes(without_bom(data[:65536])).decode("utf-8", errors="replace").lstrip()
+    head = bytes(without_bom(data[:_HEAD])).decode("utf-8", errors="replace").lstrip()
     if not head:
         raise UnknownFormat("the file is empty")
     if head[0] in "[{":
         return _json_kind(head)
     first = head.splitlines()[0]
+    if first == head.rstrip() and len(data) > _HEAD:  # a first line longer than the head
+        first = first_line(without_bom(data)).decode("utf-8", errors="replace").strip()
     if _OPENMETRICS_COMMENT.match(first) or (
         _SAMPLE.match(first) and not any(d in first.split("{")[0] for d in ",;")
     ):
         return "openmetrics"
-    return _csv_kind(head, file_name)
+    return _csv_kind(first)
 
 
 def _json_kind(head: str) -> str:
@@ -73,35 +79,45 @@ def _json_kind(head: str) -> str:
     if value >= 0:
         return "json-records"
     raise UnknownFormat(
+        "unknown format: "
         'JSON without "value" or "points" keys near the start; expected records '
         '[{"timestamp", "metric", "labels", "value"}, ...] or series '
         '{"metric", "labels", "points": [[ts, value], ...]}'
     )
 
 
-def _csv_kind(head: str, file_name: str) -> str:
-    first = head.splitlines()[0]
+def _csv_kind(first: str) -> str:
     delimiter = sniff_delimiter(first)
     if delimiter not in first:
         raise UnknownFormat(
+            "unknown format: "
             "not CSV (no commas, semicolons or tabs on line 1), JSON, OpenMetrics text "
             f"or Parquet; line 1 reads {first[:80]!r}"
         )
-    fields = [n.strip() for n in next(csv.reader([first], delimiter=delimiter))]
+    fields = header_fields(first, delimiter)
     if looks_like_data(fields):
         raise UnknownFormat(
+            "unknown format: "
             "line 1 holds data, not a header; expected a CSV header row naming the columns, "
             f"e.g. timestamp,metric,host,value; line 1 reads {first[:80]!r}"
         )
     names = {n.lower() for n in fields}
-    if names & set(METRIC_NAMES) and names & set(VALUE_NAMES):
+    has_metric, has_value = bool(names & set(METRIC_NAMES)), bool(names & set(VALUE_NAMES))
+    if has_metric and has_value:
         return "csv-long"
-    if names & set(TIMESTAMP_NAMES):
+    if names & set(TIMESTAMP_NAMES) and not has_metric and not has_value:
         return "csv-wide"
+    if not names & set(TIMESTAMP_NAMES):
+        why = "it names no timestamp column"
+    elif has_value:
+        why = "it has a value column but no metric column"
+    else:
+        why = "it has a metric column but no value column"
+    found = ", ".join(fields)
     raise UnknownFormat(
-        "CSV whose header names no timestamp column; expected timestamp (or time/ts), "
-        f"then metric and value columns (long) or one column per series (wide); line 1 "
-        f"reads {first[:80]!r}"
+        f"the CSV header fits neither shape, as {why}. {CSV_SHAPES}. "
+        f"Found: {found if len(found) <= 200 else found[:200] + '…'}",
+        line=1,
     )
 
 

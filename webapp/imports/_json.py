@@ -27,7 +27,7 @@ from webapp.imports._assemble import assemble, series_problem
 from webapp.imports._long import METRIC_NAMES, TIMESTAMP_NAMES, VALUE_NAMES
 from webapp.imports._problems import ProblemLog
 from webapp.imports._text import decode_utf8
-from webapp.imports._timestamps import parse_timestamps
+from webapp.imports._timestamps import NaiveTimes, parse_timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports._values import parse_values
 
@@ -229,7 +229,7 @@ def _finish(
     data: bytes | memoryview,
     file_name: str,
     format: str,
-    tz: str | None,
+    times: NaiveTimes,
     log: ProblemLog,
     doc: _Document,
     index: _SeriesIndex,
@@ -247,7 +247,7 @@ def _finish(
         )
 
     timestamps = parse_timestamps(
-        _timestamp_array(rows.stamps), tz=tz, column="timestamp", log=log, line_of=line_of
+        _timestamp_array(rows.stamps), times=times, column="timestamp", log=log, line_of=line_of
     )
     numbers = parse_values(
         pd.Series(rows.values, dtype=object), column="value", log=log, line_of=line_of
@@ -262,13 +262,13 @@ def _finish(
         values=numbers,
         log=log,
         line_of=line_of,
-        tz=tz,
+        tz=times.tz,
         rows_read=len(rows.values),
     )
 
 
 def parse_json_records(
-    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+    data: bytes | memoryview, file_name: str, times: NaiveTimes, log: ProblemLog
 ) -> ParsedImport:
     doc = _Document(decode_utf8(data, log), log)
     index, rows = _SeriesIndex(log), _Rows()
@@ -302,11 +302,11 @@ def parse_json_records(
         if code is None:
             continue
         rows.add(code, record[ts_key], record[value_key], number)
-    return _finish(data, file_name, "json-records", tz, log, doc, index, rows)
+    return _finish(data, file_name, "json-records", times, log, doc, index, rows)
 
 
 def parse_json_series(
-    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+    data: bytes | memoryview, file_name: str, times: NaiveTimes, log: ProblemLog
 ) -> ParsedImport:
     doc = _Document(decode_utf8(data, log), log)
     index, rows = _SeriesIndex(log), _Rows()
@@ -332,4 +332,4 @@ def parse_json_series(
                 )
                 continue
             rows.add(code, point[0], point[1], number, point_number)
-    return _finish(data, file_name, "json-series", tz, log, doc, index, rows)
+    return _finish(data, file_name, "json-series", times, log, doc, index, rows)

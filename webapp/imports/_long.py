@@ -9,7 +9,7 @@ import pyarrow as pa
 
 from webapp.imports._assemble import assemble, series_problem
 from webapp.imports._problems import LineMap, ProblemLog
-from webapp.imports._timestamps import parse_timestamps
+from webapp.imports._timestamps import NaiveTimes, parse_timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports._values import parse_values
 
@@ -18,6 +18,10 @@ METRIC_NAMES = ("metric", "name", "metric_name")
 VALUE_NAMES = ("value", "val")
 UNIT_NAMES = ("unit",)
 _PACKED_LIMIT = 2**40
+LONG_NEEDS = (
+    "a long file needs columns named timestamp (or time/ts), metric (or name) and value, "
+    "with an optional unit column and any other column a label"
+)
 
 
 def find_column(names: list[str], aliases: tuple[str, ...]) -> str | None:
@@ -39,9 +43,7 @@ def long_roles(names: list[str], log: ProblemLog, line: int | None) -> tuple[str
     missing = [role for role, name in roles.items() if name is None]
     if missing:
         log.reject(
-            f"no {' or '.join(missing)} column; the long layout needs columns named "
-            "timestamp (or time/ts), metric (or name) and value, an optional unit, every "
-            f"other column being a label; found {', '.join(names)}",
+            f"no {' or '.join(missing)} column; {LONG_NEEDS}; found {', '.join(names)}",
             line=line,
         )
     return roles["timestamp"], roles["metric"], roles["value"]  # type: ignore[return-value]
@@ -53,7 +55,7 @@ def parse_long_table(
     data: bytes | memoryview,
     file_name: str,
     format: str,
-    tz: str | None,
+    times: NaiveTimes,
     log: ProblemLog,
     line_of: LineMap,
     header_line: int | None,
@@ -64,7 +66,7 @@ def parse_long_table(
     unit_name = find_column(names, UNIT_NAMES)
     label_names = [n for n in names if n not in (ts_name, metric_name, value_name, unit_name)]
     timestamps = parse_timestamps(
-        table.column(ts_name), tz=tz, column=ts_name, log=log, line_of=line_of
+        table.column(ts_name), times=times, column=ts_name, log=log, line_of=line_of
     )
     values = parse_values(
         table.column(value_name),
@@ -84,7 +86,7 @@ def parse_long_table(
         values=values,
         log=log,
         line_of=line_of,
-        tz=tz,
+        tz=times.tz,
         rows_read=table.num_rows,
         unit_column=unit_name,
     )

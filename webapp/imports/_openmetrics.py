@@ -3,7 +3,9 @@
 Reads ``# TYPE``, ``# UNIT`` and ``# HELP`` lines, samples ``name{label="value"} value
 timestamp`` (label values may escape ``\\"``, ``\\\\`` and ``\\n``; exemplars after `` # ``
 are ignored), and requires the closing ``# EOF`` line the standard ends every exposition
-with. Sample timestamps are seconds since the epoch, possibly fractional. Each sample name
+with. Sample timestamps are seconds since the epoch in the standard, possibly fractional;
+some exporters write milliseconds, so the unit is told by size as in CSV, and a unit other
+than seconds is said in a warning. Each sample name
 (``checkout_requests_total``, ``..._bucket``) is its own metric; ``_created`` samples hold
 creation times, not values, and are skipped.
 """
@@ -18,7 +20,7 @@ import pyarrow as pa
 from webapp.imports._assemble import assemble, series_problem
 from webapp.imports._problems import ProblemLog
 from webapp.imports._text import decode_utf8
-from webapp.imports._timestamps import parse_timestamps
+from webapp.imports._timestamps import NaiveTimes, parse_timestamps
 from webapp.imports._types import ParsedImport, SeriesMeta
 from webapp.imports._values import parse_values
 
@@ -110,7 +112,7 @@ def _family(name: str, units: dict[str, str]) -> str:
 
 
 def parse_openmetrics(
-    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+    data: bytes | memoryview, file_name: str, times: NaiveTimes, log: ProblemLog
 ) -> ParsedImport:
     text = decode_utf8(data, log)
     lines = text.split("\n")
@@ -196,12 +198,16 @@ def parse_openmetrics(
 
     timestamps = parse_timestamps(
         pa.array(stamps, type=pa.string()),
-        tz=tz,
+        times=times,
         column="timestamp",
         log=log,
         line_of=line_of,
-        unit="seconds",
     )
+    if timestamps.unit != "epoch seconds" and not log.error_total:
+        log.warning(
+            f"sample timestamps read as {timestamps.unit}, told by their size; "
+            "OpenMetrics writes seconds since the epoch"
+        )
     numbers = parse_values(
         pa.array(values, type=pa.string()), column="value", log=log, line_of=line_of
     )
@@ -215,6 +221,6 @@ def parse_openmetrics(
         values=numbers,
         log=log,
         line_of=line_of,
-        tz=tz,
+        tz=times.tz,
         rows_read=len(values),
     )

@@ -9,11 +9,12 @@ import pyarrow.parquet as pq
 
 from webapp.imports._long import TIMESTAMP_NAMES, find_column, parse_long_table
 from webapp.imports._problems import ProblemLog
+from webapp.imports._timestamps import NaiveTimes
 from webapp.imports._types import ParsedImport
 
 
 def parse_parquet(
-    data: bytes | memoryview, file_name: str, tz: str | None, log: ProblemLog
+    data: bytes | memoryview, file_name: str, times: NaiveTimes, log: ProblemLog
 ) -> ParsedImport:
     log.place = "row"
     try:
@@ -27,7 +28,7 @@ def parse_parquet(
         data=data,
         file_name=file_name,
         format="parquet",
-        tz=tz,
+        times=times,
         log=log,
         line_of=lambda rows: np.asarray(rows) + 1,
         header_line=None,

@@ -65,10 +65,7 @@ class ProblemLog:
         if not self.error_total:
             return
         problems = sorted(self.errors, key=lambda p: (p.line is None, p.line or 0))
-        hidden = self.error_total - len(problems)
-        if hidden > 0:
-            problems.append(Problem(self.file, f"and {hidden} more problems not listed"))
-        raise ImportRejected(problems)
+        raise ImportRejected(problems, not_listed=self.error_total - len(problems))
 
     def reject(self, message: str, line: int | None = None, column: str | None = None) -> NoReturn:
         """Record one error and raise at once (for problems that stop reading)."""

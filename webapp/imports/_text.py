@@ -14,6 +14,21 @@ def without_bom(data: bytes | memoryview) -> memoryview:
     return view[len(UTF8_BOM) :] if bytes(view[:3]) == UTF8_BOM else view
 
 
+def first_line(data: bytes | memoryview) -> bytes:
+    """The bytes of line 1 without its line break, however long it is: the search widens
+    until a line break or the end of the file is found."""
+    view = memoryview(data)
+    size = 65536
+    while True:
+        head = bytes(view[:size])
+        end = head.find(b"\n")
+        if end >= 0:
+            return head[:end].rstrip(b"\r")
+        if size >= len(view):
+            return head.rstrip(b"\r")
+        size *= 8
+
+
 def reject_utf16(data: bytes | memoryview, log: ProblemLog) -> None:
     head = bytes(data[:2])
     if head in (b"\xff\xfe", b"\xfe\xff"):

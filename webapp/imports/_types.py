@@ -30,11 +30,17 @@ class Problem:
 class ImportRejected(ValueError):
     """The file cannot be imported; nothing from it may reach the store."""
 
-    def __init__(self, problems: list[Problem]):
-        self.problems = problems
+    def __init__(self, problems: list[Problem], not_listed: int = 0):
+        self.problems = problems  # the first problems, in file order
+        self.not_listed = not_listed  # how many more were found but not kept
         first = problems[0] if problems else "unknown problem"
-        more = f" (and {len(problems) - 1} more)" if len(problems) > 1 else ""
-        super().__init__(f"{first}{more}")
+        others = len(problems) - 1 + not_listed
+        super().__init__(f"{first} (and {others:,} more)" if others > 0 else str(first))
+
+    @property
+    def more(self) -> str | None:
+        """The line that closes a list of the problems, counting those not listed."""
+        return f"… and {self.not_listed:,} more problems not listed" if self.not_listed else None
 
 
 @dataclass(frozen=True)

@@ -1,14 +1,45 @@
 """One unit per series: a series whose rows name two units is refused, at the first row
-where its unit changes."""
+where its unit changes; a unit given for the whole import fills every series."""
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Sequence
 
 import numpy as np
 
 from webapp.imports._problems import LineMap, ProblemLog
-from webapp.imports._types import SeriesMeta
+from webapp.imports._types import ParsedImport, SeriesMeta
+
+MAX_UNIT_LENGTH = 32
+
+
+def check_unit(unit: str | None, log: ProblemLog) -> str | None:
+    """The unit given for an import, trimmed (None when blank), or a rejection."""
+    unit = (unit or "").strip()
+    if len(unit) > MAX_UNIT_LENGTH:
+        log.reject(
+            f"the unit {unit[:40]!r}… is {len(unit)} characters long; expected a short unit "
+            f"of at most {MAX_UNIT_LENGTH} characters, such as ms, s, bytes or %"
+        )
+    if not unit.isprintable():
+        log.reject(f"the unit {unit!r} holds a control character; expected a unit such as ms")
+    return unit or None
+
+
+def give_unit(parsed: ParsedImport, unit: str | None, log: ProblemLog) -> None:
+    """Give every series of the import ``unit``; a series whose file names another unit
+    is refused rather than relabelled."""
+    if unit is None:
+        return
+    for key, meta in parsed.series.items():
+        if meta.unit is not None and meta.unit != unit:
+            log.error(
+                f"the file gives {key} the unit {meta.unit!r}, but the import's unit is "
+                f"{unit!r}; leave the unit out to keep the file's units, or give the same one"
+            )
+    log.check()
+    parsed.series = {k: dataclasses.replace(m, unit=unit) for k, m in parsed.series.items()}
 
 
 def report_unit_changes(

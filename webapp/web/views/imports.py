@@ -23,6 +23,7 @@ ACCEPTED_SUFFIXES = (
 )  # fmt: skip
 MAX_FILES = 20
 AUTO = "auto"
+DATE_ORDERS = {"": None, "day-first": True, "month-first": False}
 
 
 @dataclass
@@ -33,6 +34,7 @@ class FileResult:
     summary: Any = None  # ImportSummary when it was stored
     series: list[dict[str, Any]] = field(default_factory=list)
     problems: list[Any] = field(default_factory=list)  # warnings, or the errors that refused it
+    more: str | None = None  # counts the errors not listed
     refused: bool = False
 
 
@@ -62,7 +64,7 @@ def accepted_type(name: str) -> bool:
     return Path(name).suffix.lower() in ACCEPTED_SUFFIXES
 
 
-def import_one(upload: FileStorage, fmt: str | None, tz: str) -> FileResult:
+def import_one(upload: FileStorage, fmt: str | None, tz: str, **options: Any) -> FileResult:
     """Parse one upload and, if it parses, record it in one transaction."""
     from webapp.imports import ImportRejected, Problem, parse_bytes
     from webapp.store import imports as store_imports
@@ -80,10 +82,11 @@ def import_one(upload: FileStorage, fmt: str | None, tz: str) -> FileResult:
         return result
     max_bytes = int(current_app.config["MAX_IMPORT_MB"]) * 1024 * 1024
     try:
-        parsed = parse_bytes(upload.read(), name, format=fmt, tz=tz, max_bytes=max_bytes)
+        parsed = parse_bytes(upload.read(), name, format=fmt, tz=tz, max_bytes=max_bytes, **options)
     except ImportRejected as rejected:
         result.refused = True
         result.problems = list(rejected.problems)
+        result.more = rejected.more
         return result
     with db.session_scope(db.get_engine()) as session:
         result.summary = store_imports.record_import(session, parsed)
@@ -123,6 +126,8 @@ def upload() -> tuple[str, int]:
     uploads = [f for f in request.files.getlist("files") if f and f.filename]
     fmt = request.form.get("format") or AUTO
     tz = parse_tz(request.form.get("tz"))
+    date_order = request.form.get("date_order", "")
+    options = {"day_first": DATE_ORDERS.get(date_order), "unit": request.form.get("unit")}
     status = 200
     if not uploads:
         results, status = [], 400
@@ -133,9 +138,12 @@ def upload() -> tuple[str, int]:
     elif fmt != AUTO and fmt not in FORMATS:
         results, status = [], 400
         message = f"Unknown format {fmt!r}: choose one of {', '.join(FORMATS)}, or detect it."
+    elif date_order not in DATE_ORDERS:
+        results, status = [], 400
+        message = f"Unknown date order {date_order!r}: choose day first or month first."
     else:
         message = None
-        results = [import_one(f, None if fmt == AUTO else fmt, tz) for f in uploads]
+        results = [import_one(f, None if fmt == AUTO else fmt, tz, **options) for f in uploads]
         if all(r.refused for r in results):
             status = 400
     html = render(
