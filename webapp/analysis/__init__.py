@@ -9,6 +9,18 @@ then `.band(grid_index, tolerance)` (see `webapp.analysis._band`).
 """
 
 from ._band import expected_band, fit_baseline
+from ._burn import (
+    WORKBOOK_WINDOWS,
+    BurnRateRule,
+    BurnWindow,
+    EventGrid,
+    budget_consumed,
+    budget_spent,
+    burn_rates,
+    detection_time,
+    event_grid,
+    replay_burn,
+)
 from ._explain import ENGINE_VERSION, Explanation, explain
 from ._grid import infer_step, regularize
 from ._overlay import past_weeks_overlay
@@ -45,4 +57,14 @@ __all__ = [
     "rule_from_fields",
     "sweep_grid",
     "whatif_sweep",
+    "BurnRateRule",
+    "BurnWindow",
+    "EventGrid",
+    "WORKBOOK_WINDOWS",
+    "budget_consumed",
+    "budget_spent",
+    "burn_rates",
+    "detection_time",
+    "event_grid",
+    "replay_burn",
 ]
