@@ -21,6 +21,7 @@ from ._burn import (
     event_grid,
     replay_burn,
 )
+from ._burn_sweep import BURN_SWEEP_COLUMNS, burn_sweep, burn_sweep_grid
 from ._explain import ENGINE_VERSION, Explanation, explain
 from ._grid import infer_step, regularize
 from ._overlay import past_weeks_overlay
@@ -67,4 +68,7 @@ __all__ = [
     "detection_time",
     "event_grid",
     "replay_burn",
+    "BURN_SWEEP_COLUMNS",
+    "burn_sweep",
+    "burn_sweep_grid",
 ]
