@@ -38,6 +38,9 @@ def burn_sweep(
     ``windows`` holds each pair's label, e.g. ``1h/5min``. The other columns are those of
     ``whatif_sweep``. Rows are sorted by factor, then by pair in the order given.
     """
+    factors = list(factors)
+    if not factors:
+        raise ValueError("give at least one burn-rate factor")
     levels = _check_thresholds(factors)
     if levels[0] <= 0:
         raise ValueError("burn-rate factors must be positive")
