@@ -63,9 +63,11 @@ def test_every_row_is_a_replay_of_that_one_condition():
     rule = BurnRateRule(hold="2min")
     sweep = burn_sweep(events, rule, FACTORS, PAIRS, INCIDENTS)
     data_end = events.index[-1] + MIN
-    weeks = (data_end - events.index[0]) / pd.Timedelta(weeks=1)
     for row in sweep.itertuples(index=False):
         long, short = row.windows.split("/")
+        # pages per week count from the first time the long window is full
+        checked_from = events.index[0] + pd.Timedelta(long) - MIN
+        weeks = (data_end - checked_from) / pd.Timedelta(weeks=1)
         single = BurnRateRule(windows=[BurnWindow(long, short, row.factor)], hold="2min")
         raised = replay_burn(events, single)
         ends = raised["end"].fillna(data_end)

@@ -29,7 +29,7 @@ workbook's alerts have no hold (the short window does that work), so the default
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable
+from collections.abc import Callable, Iterable
 from dataclasses import dataclass
 from typing import Literal
 
@@ -237,13 +237,26 @@ class EventGrid:
         """The error ratio in the window over the error budget ``1 - objective``."""
         return self.error_ratio(window) / budget
 
+    def burning(
+        self, window: BurnWindow, budget: float, first: int = 0
+    ) -> Callable[[float], np.ndarray]:
+        """The window pair's condition at any factor, from grid index ``first`` on: data at
+        that time and both windows burning at least the factor; NaN (no data, or a window
+        before the data) is false. Each window's burn rate is computed once, so each
+        factor costs one comparison (the what-if sweep relies on that)."""
+        present = self.present[first:]
+        long = self.burn_rate(window.long, budget)[first:]
+        short = self.burn_rate(window.short, budget)[first:]
+
+        def holds(factor: float) -> np.ndarray:
+            with np.errstate(invalid="ignore"):
+                return present & (long >= factor) & (short >= factor)
+
+        return holds
+
     def holds(self, window: BurnWindow, budget: float) -> np.ndarray:
-        """One condition per grid time: data at that time and both windows burning at least
-        ``factor``; NaN (no data, or a window before the data) is false."""
-        with np.errstate(invalid="ignore"):
-            long = self.burn_rate(window.long, budget) >= window.factor
-            short = self.burn_rate(window.short, budget) >= window.factor
-        return self.present & long & short
+        """The condition ``window`` at each grid time."""
+        return self.burning(window, budget)(window.factor)
 
 
 def _pair_frame(good: pd.Series, total: pd.Series) -> pd.DataFrame:
@@ -376,6 +389,8 @@ def detection_time(
 ) -> pd.Timedelta:
     """How long errors at ``error_ratio`` take to reach ``factor`` over ``window``:
     ((1 - objective) / error ratio) x window x factor (the workbook, ch. 5)."""
+    if not 0 < objective < 1:
+        raise ValueError(f"the objective must be a share between 0 and 1, got {objective!r}")
     if not 0 < error_ratio <= 1:
         raise ValueError(f"the error ratio must be in (0, 1], got {error_ratio!r}")
     seconds = (1 - objective) / error_ratio * pd.Timedelta(window).total_seconds() * factor

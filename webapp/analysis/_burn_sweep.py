@@ -11,7 +11,6 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Sequence
 
-import numpy as np
 import pandas as pd
 
 from webapp.analysis._burn import WORKBOOK_WINDOWS, BurnRateRule, BurnWindow, _as_window, _grid
@@ -36,7 +35,8 @@ def burn_sweep(
 
     ``pairs``: ``(long, short)`` window pairs (or ``BurnWindow``s, whose factor is ignored);
     ``windows`` holds each pair's label, e.g. ``1h/5min``. The other columns are those of
-    ``whatif_sweep``. Rows are sorted by factor, then by pair in the order given.
+    ``whatif_sweep``, counted from the pair's first full long window. Rows are sorted by
+    factor, then by pair in the order given.
     """
     factors = list(factors)
     if not factors:
@@ -49,14 +49,12 @@ def burn_sweep(
     grid = _grid(events, rule)
     tables = []
     for number, window in enumerate(conditions):
-        long = grid.burn_rate(window.long, rule.budget)
-        short = grid.burn_rate(window.short, rule.budget)
-
-        def holds(level: float, long: np.ndarray = long, short: np.ndarray = short) -> np.ndarray:
-            with np.errstate(invalid="ignore"):
-                return grid.present & (long >= level) & (short >= level)
-
-        table = _sweep(grid.times, grid.step, levels, holds, [rule.hold], windows, lead, "factor")
+        # the pair is checked from its first full long window: before it, it could not be
+        # raised, and counting that time would understate pages per week
+        first = min(grid.steps(window.long), len(grid.times)) - 1
+        holds = grid.burning(window, rule.budget, first)
+        times = grid.times[first:]
+        table = _sweep(times, grid.step, levels, holds, [rule.hold], windows, lead, "factor")
         # the second column is the hold, the same on every row: the pair takes its place
         table = table.drop(columns=table.columns[1])
         table.insert(1, "windows", window.label)
