@@ -22,8 +22,10 @@ time; a grid time with no sample is no data and false (a collector outage ends a
 it does for a threshold); a window that reaches back before the first grid time, or that
 has no events, is false; a raise starts once the condition has held for the rule's
 ``hold`` and ends at the first later grid time where it is false. The rule's conditions of
-its ``severity`` are combined with "or": any of them holding raises the alert. The
-workbook's alerts have no hold (the short window does that work), so the default is none.
+its ``severity`` are combined with "or", and the hold applies to that combination: the
+alert is raised once some condition has held at every grid time for the hold, not
+necessarily the same one throughout. The workbook's alerts have no hold (the short window
+does that work), so the default is none.
 """
 
 from __future__ import annotations
