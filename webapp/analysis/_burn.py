@@ -17,7 +17,7 @@ a step are summed. A window's error ratio is the sum of bad events over the sum 
 events in its last ``ceil(window / step)`` steps, so busy minutes weigh more than quiet
 ones; for an error-ratio series every sample weighs the same (its ratios are averaged).
 
-Replay semantics are those of every rule kind: the condition is evaluated at every grid
+Replay semantics are those of every rule kind: the condition is checked at every grid
 time; a grid time with no sample is no data and false (a collector outage ends a raise, as
 it does for a threshold); a window that reaches back before the first grid time, or that
 has no events, is false; a raise starts once the condition has held for the rule's
