@@ -13,6 +13,19 @@ To replay an alert rule with its report, what-if sweep and drafted verdict:
 
 from ._alert_replay import RuleReplay, RuleReplayResult
 from ._band import expected_band, fit_baseline
+from ._burn import (
+    WORKBOOK_WINDOWS,
+    BurnRateRule,
+    BurnWindow,
+    EventGrid,
+    budget_consumed,
+    budget_spent,
+    burn_rates,
+    detection_time,
+    event_grid,
+    replay_burn,
+)
+from ._burn_sweep import BURN_SWEEP_COLUMNS, burn_sweep, burn_sweep_grid
 from ._explain import ENGINE_VERSION, Explanation, explain
 from ._grid import infer_step, regularize
 from ._overlay import past_weeks_overlay
@@ -51,4 +64,17 @@ __all__ = [
     "rule_from_fields",
     "sweep_grid",
     "whatif_sweep",
+    "BurnRateRule",
+    "BurnWindow",
+    "EventGrid",
+    "WORKBOOK_WINDOWS",
+    "budget_consumed",
+    "budget_spent",
+    "burn_rates",
+    "detection_time",
+    "event_grid",
+    "replay_burn",
+    "BURN_SWEEP_COLUMNS",
+    "burn_sweep",
+    "burn_sweep_grid",
 ]
