@@ -16,6 +16,7 @@ from ._peers import PeerComparison, PeerResult, compare_peers
 from ._replay import BandGrid, BandRule, ThresholdRule, band_grid, replay, rule_from_fields
 from ._report import ReplayReport, replay_report
 from ._robust import robust_scale
+from ._screen import ScreenResult, screen
 from ._verdict import VerdictDraft, draft_verdict
 from ._whatif import band_sweep, sweep_grid, whatif_sweep
 
@@ -32,6 +33,8 @@ __all__ = [
     "compare_peers",
     "regularize",
     "robust_scale",
+    "ScreenResult",
+    "screen",
     "BandGrid",
     "BandRule",
     "band_grid",

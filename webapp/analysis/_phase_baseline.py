@@ -7,14 +7,18 @@ grid):
 - the cycle is a week when the history holds at least three weeks, a day when it holds at
   least three days, otherwise none (our own choices: three cycles give a median that one bad
   cycle cannot move);
-- the seasonal profile is, for each phase of the cycle (the step's place in the week or day
-  on the wall clock of the window start), the median of the history's values at that phase;
+- the seasonal profile is, for each phase of the cycle, the median of the history's values at
+  that phase, over the whole cycles that end at the window start (phases are counted back
+  from the window start, so they follow the wall clock of the window);
 - the level follows recent drift: the median of the last day's residual from the profile;
-- the scale is the robust sd (MAD x 1.4826) of the history's residual, falling back to the
-  mean absolute deviation when most residuals are equal, as `explain`'s band does.
+- the scale is the robust sd (MAD x 1.4826) of the last cycle's residual from the profile of
+  the cycles before it: measured as the band is used, on values the profile has not seen
+  (a residual from a median that includes the value itself would understate it); it falls
+  back to the mean absolute deviation when most residuals are equal, as `explain`'s band
+  does. Without a cycle it is the MAD of the whole history.
 
-A DST change inside the history shifts the phases of the weeks before it by an hour; the
-median over the weeks absorbs that while most weeks share the window's offset.
+A DST change inside the history shifts the phases of the cycles before it by an hour; the
+median over the cycles absorbs that while most of them share the window's offset.
 """
 
 from __future__ import annotations
@@ -33,8 +37,8 @@ MIN_CYCLES = 3
 
 @dataclass(frozen=True)
 class PhaseBaseline:
-    """`expected` for every slot of the grid (rows x slots) and one `scale` per row (NaN
-    where the history cannot give one); `cycle` is the seasonal cycle used, if any."""
+    """`expected` at every slot after the history (rows x window slots), one `scale` per row
+    (NaN where the history cannot give one), and the seasonal `cycle` used, if any."""
 
     expected: np.ndarray
     scale: np.ndarray
@@ -61,7 +65,8 @@ def nanmedian_rows(matrix: np.ndarray) -> np.ndarray:
 
 
 def nanmedian_axis(array: np.ndarray, axis: int) -> np.ndarray:
-    """Median along a short axis ignoring NaN, by one sort (NaN sorts last)."""
+    """Median along a short axis ignoring NaN, by one sort (NaN sorts last); faster than
+    `np.median` along a short middle axis."""
     ordered = np.sort(array, axis=axis)
     n = np.isfinite(array).sum(axis=axis, keepdims=True)
     lo = np.take_along_axis(ordered, np.maximum((n - 1) // 2, 0), axis=axis)
@@ -80,29 +85,21 @@ def robust_scale_rows(residual: np.ndarray) -> np.ndarray:
     return np.where(scale > 0, scale, np.nan)
 
 
-def phase_baseline(
-    values: np.ndarray, grid: pd.DatetimeIndex, history_end: int, tz: str = "UTC"
-) -> PhaseBaseline:
+def phase_baseline(values: np.ndarray, step: pd.Timedelta, history_end: int) -> PhaseBaseline:
     """Fit on `values[:, :history_end]` (NaN = missing or excluded) and give the expected
-    value at every slot of `grid`, the window's included."""
-    step = grid[1] - grid[0]
-    history = values[:, :history_end]
+    value at each later slot (the window)."""
+    rows, slots = values.shape
     cycle = choose_cycle(history_end * step, step)
+    period = int(cycle / step) if cycle is not None else 1
+    cycles = history_end // period
+    by_cycle = values[:, history_end - cycles * period : history_end].reshape(rows, cycles, period)
     if cycle is None:
-        seasonal = np.zeros_like(values)
+        profile = np.zeros((rows, 1))
+        residual = by_cycle[:, :, 0]
     else:
-        period = int(cycle / step)
-        at = grid[min(history_end, len(grid) - 1)]
-        offset = at.tz_convert(tz).utcoffset() or pd.Timedelta(0)
-        first = int(((grid[0].value + offset.value) // step.value) % period)
-        cycles = -(-(first + history_end) // period)
-        padded = np.full((len(values), cycles * period), np.nan)
-        padded[:, first : first + history_end] = history
-        profile = nanmedian_axis(padded.reshape(len(values), cycles, period), axis=1)
-        seasonal = profile[:, (first + np.arange(values.shape[1])) % period]
-    residual = history - seasonal[:, :history_end]
-    recent = max(1, min(history_end, int(DAY / step)))
-    level = nanmedian_rows(residual[:, -recent:])
-    level = np.where(np.isnan(level), nanmedian_rows(residual), level)
-    scale = robust_scale_rows(residual)
-    return PhaseBaseline(expected=seasonal + level[:, None], scale=scale, cycle=cycle)
+        profile = nanmedian_axis(by_cycle, 1)
+        residual = by_cycle[:, -1] - nanmedian_axis(by_cycle[:, :-1], 1)
+    tail = values[:, max(0, history_end - int(DAY / step)) : history_end]
+    level = nanmedian_rows(tail - profile[:, np.arange(-tail.shape[1], 0) % period])
+    expected = profile[:, np.arange(slots - history_end) % period] + level[:, None]
+    return PhaseBaseline(expected=expected, scale=robust_scale_rows(residual), cycle=cycle)

@@ -8,7 +8,8 @@ Design, for speed (1,000 series of eight weeks of one-minute data in seconds):
    window each series gets its deviation in robust sd, its first sustained stretch outside
    the band (the onset), its time outside, its peak and a score: the sd-minutes it spent
    beyond the band's edge (`excess_area`), so both how far and how long count.
-2. The full `explain` for the top candidates only (20 by default), at the series' own step,
+2. The full `explain` for the best-scored series that left their bands in the first pass
+   only (20 at most by default), at the series' own step,
    in worker processes when there are enough of them to pay for the start-up. Their onset,
    side, peak, time outside and score are then those of the explanation the Explain screen
    would show; the other rows keep the first pass's figures (`stage` says which).
@@ -111,7 +112,7 @@ def screen(
 
     `history`, `tolerance`, `exclude` and `tz` mean what they mean for `explain` and apply to
     every series. `coarse_step` is the first pass's grid step; `explain_top` how many of the
-    best-scored series get the full explanation; a stretch outside counts from `sustained`;
+    best-scored series that left their bands in the first pass get the full explanation; a stretch outside counts from `sustained`;
     `workers` is the number of processes for the explanations (None: up to two, when it
     pays; 1: all in this process).
     """
@@ -131,15 +132,16 @@ def screen(
     if history < coarse * 2:
         raise ValueError(f"history must hold at least two steps of {coarse}, got {history}")
 
-    grid = make_grid(start - history, end, coarse)
+    grid = make_grid(start - history, end - coarse, coarse)  # whole slots [t, t + step)
     w0 = int(grid.searchsorted(start))
     keys, rows, skipped = coarse_rows(series_by_key, grid, coarse, w0)
-    rows[:, :w0][:, excluded_mask(grid[:w0], spans)] = np.nan
-    first = first_pass(rows, grid, w0, tz, tolerance, sustained)
+    if spans:
+        rows[:, :w0][:, excluded_mask(grid[:w0], spans)] = np.nan
+    first = first_pass(rows, grid, w0, tolerance, sustained)
     table = pd.DataFrame({"key": keys, "stage": "coarse", **first, "note": ""})
     table = table.sort_values(["score", "key"], ascending=[False, True], kind="stable")
 
-    candidates = table[table["score"] > 0]["key"].head(explain_top).tolist()
+    candidates = table[table["onset"].notna()]["key"].head(explain_top).tolist()
     options = dict(window=(start, end), history=history, tolerance=tolerance, exclude=spans, tz=tz)
     margin = pd.Timedelta(days=1)
     trimmed = {
@@ -177,7 +179,8 @@ def coarse_rows(
 ) -> tuple[list[str], np.ndarray, dict[str, str]]:
     """Each usable series binned onto the coarse grid; a series sampled more sparsely than
     the grid is carried forward over its own spacing, so its stretches stay unbroken."""
-    keys, rows, skipped = [], [], {}
+    keys, skipped = [], {}
+    matrix = np.empty((len(series_by_key), len(grid)))
     for key, series in series_by_key.items():
         ns, values = points_of(key, series)
         row = bin_points(ns, values, grid, coarse)
@@ -190,26 +193,24 @@ def coarse_rows(
         reach = math.ceil(spacing(ns) / coarse.value) - 1
         if reach > 0:
             row = pd.Series(row).ffill(limit=reach).to_numpy()
+        matrix[len(keys)] = row
         keys.append(key)
-        rows.append(row)
-    matrix = np.vstack(rows) if rows else np.empty((0, len(grid)))
-    return keys, matrix, skipped
+    return keys, matrix[: len(keys)], skipped
 
 
 def first_pass(
     rows: np.ndarray,
     grid: pd.DatetimeIndex,
     w0: int,
-    tz: str,
     tolerance: float,
     sustained: pd.Timedelta,
 ) -> dict[str, Any]:
     """The coarse figures of every row: onset, side, peak, minutes outside, score."""
     step = grid[1] - grid[0]
     minutes = step / pd.Timedelta(minutes=1)
-    base = phase_baseline(rows, grid, w0, tz)
+    base = phase_baseline(rows, step, w0)
     with np.errstate(invalid="ignore"):
-        z = (rows[:, w0:] - base.expected[:, w0:]) / base.scale[:, None]
+        z = (rows[:, w0:] - base.expected) / base.scale[:, None]
     outside = np.abs(np.nan_to_num(z, nan=0.0)) > tolerance
     onset_col = first_run_starts(outside, steps_needed(step, sustained))
     idx = np.arange(len(rows))
