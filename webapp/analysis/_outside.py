@@ -25,6 +25,21 @@ def first_run_starts(flags: np.ndarray, need: int) -> np.ndarray:
     return start
 
 
+def in_sustained_runs(flags: np.ndarray, need: int) -> np.ndarray:
+    """2-D boolean array: True where a value belongs to a run of at least `need` true
+    values along its row."""
+    ahead = np.zeros(flags.shape, dtype=np.int64)
+    behind = np.zeros(flags.shape, dtype=np.int64)
+    cols = flags.shape[1]
+    for col in range(cols):
+        before = ahead[:, col - 1] if col else 0
+        ahead[:, col] = np.where(flags[:, col], before + 1, 0)
+        back = cols - 1 - col
+        after = behind[:, back + 1] if back + 1 < cols else 0
+        behind[:, back] = np.where(flags[:, back], after + 1, 0)
+    return flags & (ahead + behind - 1 >= need)
+
+
 def first_sustained(
     outside: pd.Series, step: pd.Timedelta, sustained: pd.Timedelta
 ) -> pd.Timestamp | None:

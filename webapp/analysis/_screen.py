@@ -112,9 +112,9 @@ def screen(
 
     `history`, `tolerance`, `exclude` and `tz` mean what they mean for `explain` and apply to
     every series. `coarse_step` is the first pass's grid step; `explain_top` how many of the
-    best-scored series that left their bands in the first pass get the full explanation; a stretch outside counts from `sustained`;
-    `workers` is the number of processes for the explanations (None: up to two, when it
-    pays; 1: all in this process).
+    best-scored series that left their bands in the first pass get the full explanation; a
+    stretch outside counts from `sustained`; `workers` is the number of processes for the
+    explanations (None: up to two, when it pays; 1: all in this process).
     """
     start, end = check_window(window)
     history = check_history(history)
