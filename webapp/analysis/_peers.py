@@ -16,8 +16,9 @@ Peers are the series of one metric whose label sets differ in exactly one label 
   above (with a handful of peers the spread across them is itself noisy). When the whole
   fleet moves, nobody stands out: a shared cause.
 - Hosts that left their bands are grouped by DBSCAN (Ester et al. 1996) on the Jaccard
-  distance between their stretches outside (above and below counted apart): hosts that were
-  out at mostly the same steps, on the same side, form a group; a label value the whole
+  distance between their stretches outside (above and below counted apart), or their first
+  exits' distance when larger: hosts that left within about `together` of each other and
+  were out at mostly the same steps, on the same side, form a group; a label value the whole
   group shares and the fleet does not is named ("all in zone b").
 - A peer with less than a day of history before the window *joined*; one idle before the
   window that climbs steadily inside it *ramped up*. Both are named as such and kept out of
@@ -52,7 +53,8 @@ from ._outside import (
     peak,
     steps_needed,
 )
-from ._phase_baseline import phase_baseline
+from ._phase_baseline import nanmedian_rows, phase_baseline
+from ._robust import quiet_nan_warnings
 from ._sentences import fmt_duration, fmt_time
 
 __all__ = ["PeerComparison", "PeerGroup", "PeerResult", "compare_peers", "first_sustained"]
@@ -166,7 +168,7 @@ def compare_peers(
         target_exp = str(error)
     fleet = Fleet.build(keys, peers, target_exp, start, end, history, spans)
     results = fleet.results(display, tolerance, sustained)
-    groups = find_groups(results, tolerance, labels or {})
+    groups = find_groups(results, tolerance, together, labels or {})
     results = [
         replace_group(r, groups) if r.left_band and r.status == "compared" else r for r in results
     ]
@@ -203,14 +205,13 @@ class Fleet:
     @classmethod
     def build(cls, keys, peers, target, start, end, history, spans) -> Fleet:
         if isinstance(target, Explanation):
-            grid, snap = target.frame.index, "nearest"
+            grid = target.frame.index
         else:
-            step = common_step(keys, peers)
-            grid, snap = make_grid(start - history, end, step), "nearest"
+            grid = make_grid(start - history, end, common_step(keys, peers))
         step = grid[1] - grid[0]
-        values = np.vstack(
-            [bin_points(*points_of(k, peers[k]), grid, step, snap=snap) for k in keys]
-        )
+        values = np.empty((len(keys), len(grid)))
+        for i, key in enumerate(keys):
+            values[i] = bin_points(*points_of(key, peers[key]), grid, step, snap="nearest")
         return cls(keys, grid, values, int(grid.searchsorted(start)), spans, target)
 
     @property
@@ -219,24 +220,29 @@ class Fleet:
 
     def status(self) -> list[tuple[str, str | None]]:
         """Each peer's status and, when it is not compared, why."""
-        return [self.status_of(i) for i in range(len(self.keys))]
-
-    def status_of(self, i: int) -> tuple[str, str | None]:
-        row = self.values[i]
-        seen = np.flatnonzero(np.isfinite(row))
+        finite = np.isfinite(self.values)
+        first_seen = np.where(finite.any(axis=1), finite.argmax(axis=1), -1)
+        last_seen = len(self.grid) - 1 - finite[:, ::-1].argmax(axis=1)
         day = int(JOINED_WITHIN / self.step)
-        if i == 0 and isinstance(self.target, str):
-            return "failed", self.target
-        if not len(seen):
-            return "failed", "the series has no values in the window or the history before it"
-        if seen[-1] < self.w0:
-            return "failed", "the series has no values in the window"
-        if seen[0] > self.w0 - day:
-            when = self.grid[seen[0]].isoformat()
-            return "joined", f"joined at {when}, with less than a day of history: not compared"
-        if ramped_up(row, self.w0, day):
-            return "ramped", "ramped up from idle inside the window: not compared"
-        return "compared", None
+        idle = idle_before(self.values, self.w0, day)
+        out: list[tuple[str, str | None]] = []
+        for i in range(len(self.keys)):
+            if i == 0 and isinstance(self.target, str):
+                out.append(("failed", self.target))
+            elif first_seen[i] < 0:
+                why = "the series has no values in the window or the history before it"
+                out.append(("failed", why))
+            elif last_seen[i] < self.w0:
+                out.append(("failed", "the series has no values in the window"))
+            elif first_seen[i] > self.w0 - day:
+                when = self.grid[first_seen[i]].isoformat()
+                why = f"joined at {when}, with less than a day of history: not compared"
+                out.append(("joined", why))
+            elif idle[i] and climbs(self.values[i, self.w0 :]):
+                out.append(("ramped", "ramped up from idle inside the window: not compared"))
+            else:
+                out.append(("compared", None))
+        return out
 
     def deviations(self, compared: np.ndarray) -> np.ndarray:
         """(value - expected) / scale in the window for every peer (NaN where not compared);
@@ -244,7 +250,7 @@ class Fleet:
         out = np.full((len(self.keys), len(self.grid) - self.w0), np.nan)
         rows = np.flatnonzero(compared)
         if len(rows):
-            history = self.values[rows].copy()
+            history = self.values[rows]
             if self.spans:
                 history[:, : self.w0][:, excluded_mask(self.grid[: self.w0], self.spans)] = np.nan
             base = phase_baseline(history, self.step, self.w0)
@@ -308,34 +314,44 @@ def common_step(keys: list[str], peers: Mapping[str, pd.Series]) -> pd.Timedelta
     return pd.Timedelta(minutes=1)
 
 
-def ramped_up(row: np.ndarray, w0: int, day: int) -> bool:
-    """Idle over the history's last day, then a steady climb inside the window."""
-    window = row[w0:]
+def idle_before(values: np.ndarray, w0: int, day: int) -> np.ndarray:
+    """Rows whose history's last day stayed near zero: its median size at most
+    `IDLE_SHARE` of the window's peak size (and the window has a peak)."""
+    with quiet_nan_warnings():
+        top = np.nanmax(np.abs(values[:, w0:]), axis=1)
+    recent = nanmedian_rows(np.abs(values[:, max(0, w0 - day) : w0]))
+    return (top > 0) & (recent <= IDLE_SHARE * top)
+
+
+def climbs(window: np.ndarray) -> bool:
+    """A steady climb: Spearman's correlation of value with time at least `STEADY_RANK`."""
     ok = np.isfinite(window)
     if ok.sum() < 3:
-        return False
-    top = float(np.nanmax(np.abs(window)))
-    recent = row[max(0, w0 - day) : w0]
-    if top <= 0 or not np.isfinite(recent).any():
-        return False
-    if float(np.nanmedian(np.abs(recent))) > IDLE_SHARE * top:
         return False
     rho = spearmanr(np.flatnonzero(ok), window[ok]).statistic
     return bool(np.isfinite(rho) and rho >= STEADY_RANK)
 
 
 def find_groups(
-    results: list[PeerResult], tolerance: float, labels: Mapping[str, Mapping[str, str]]
+    results: list[PeerResult],
+    tolerance: float,
+    together: pd.Timedelta,
+    labels: Mapping[str, Mapping[str, str]],
 ) -> list[PeerGroup]:
-    """DBSCAN over the compared peers that left their bands, on the Jaccard distance between
-    their signed stretches outside; groups largest first."""
+    """DBSCAN over the compared peers that left their bands; the distance between two is the
+    larger of the Jaccard distance between their signed stretches outside and their first
+    exits' distance in units of 2 x `together` (so exits `together` apart are 0.5 apart);
+    groups largest first."""
     left = [i for i, r in enumerate(results) if r.status == "compared" and r.left_band]
     if len(left) < GROUP_MIN:
         return []
     z = np.vstack([results[i].deviation.to_numpy() for i in left])
     z = np.nan_to_num(z, nan=0.0)
     signed = np.hstack([z > tolerance, z < -tolerance])
-    labels_of = dbscan(squareform(pdist(signed, "jaccard")), GROUP_EPS, GROUP_MIN)
+    onsets = np.array([results[i].first_outside.value for i in left], dtype=float)
+    apart = np.abs(onsets[:, None] - onsets[None, :]) / (2 * together.value)
+    distance = np.maximum(squareform(pdist(signed, "jaccard")), np.minimum(apart, 1.0))
+    labels_of = dbscan(distance, GROUP_EPS, GROUP_MIN)
     everyone = [r.key for r in results if r.status == "compared"]
     groups = []
     for g in range(labels_of.max() + 1):
