@@ -3,16 +3,23 @@
     from webapp.analysis import explain
     exp = explain(series, window=(start, end), history=pd.Timedelta(weeks=6), tolerance=3.0)
 
+Across many series: `screen(series_by_key, window)` ranks them by how far and how long each
+left its band and orders the onsets; `compare_peers(target_key, peers, ...)` compares one
+series with its peers, up to a fleet; `aggregate(series_by_key, how="p95")` makes one series
+of many. `to_csv(result)` and `to_json(result)` give any result as text with its parameters.
+
 To fit on one history and forecast on another grid without the facts and sentences:
 `expected_band(history, grid_index, tolerance=3.0, tz="UTC")`, or `fit_baseline(baseline)`
 then `.band(grid_index, tolerance)` (see `webapp.analysis._band`).
 """
 
+from ._aggregate import aggregate
 from ._band import expected_band, fit_baseline
 from ._explain import ENGINE_VERSION, Explanation, explain
+from ._export_data import to_csv, to_json
 from ._grid import infer_step, regularize
 from ._overlay import past_weeks_overlay
-from ._peers import PeerComparison, PeerResult, compare_peers
+from ._peers import PeerComparison, PeerGroup, PeerResult, compare_peers
 from ._replay import BandGrid, BandRule, ThresholdRule, band_grid, replay, rule_from_fields
 from ._report import ReplayReport, replay_report
 from ._robust import robust_scale
@@ -21,6 +28,7 @@ from ._verdict import VerdictDraft, draft_verdict
 from ._whatif import band_sweep, sweep_grid, whatif_sweep
 
 __all__ = [
+    "aggregate",
     "ENGINE_VERSION",
     "Explanation",
     "expected_band",
@@ -29,6 +37,7 @@ __all__ = [
     "infer_step",
     "past_weeks_overlay",
     "PeerComparison",
+    "PeerGroup",
     "PeerResult",
     "compare_peers",
     "regularize",
@@ -47,5 +56,7 @@ __all__ = [
     "replay_report",
     "rule_from_fields",
     "sweep_grid",
+    "to_csv",
+    "to_json",
     "whatif_sweep",
 ]
