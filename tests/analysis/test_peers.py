@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 from webapp.analysis import compare_peers, explain
-from webapp.analysis._peers import first_sustained
+from webapp.analysis._outside import first_sustained
 
 END = pd.Timestamp("2026-11-30 18:00", tz="UTC")
 WINDOW = (END - pd.Timedelta(hours=8), END)

@@ -48,7 +48,6 @@ from ._grid import check_step, infer_step, make_grid
 from ._outside import (
     deviation_sd,
     first_run_starts,
-    first_sustained,
     in_sustained_runs,
     peak,
     steps_needed,
@@ -57,7 +56,7 @@ from ._phase_baseline import nanmedian_rows, phase_baseline
 from ._robust import quiet_nan_warnings
 from ._sentences import fmt_duration, fmt_time
 
-__all__ = ["PeerComparison", "PeerGroup", "PeerResult", "compare_peers", "first_sustained"]
+__all__ = ["PeerComparison", "PeerGroup", "PeerResult", "compare_peers"]
 
 SUSTAINED = pd.Timedelta(minutes=5)
 TOGETHER = pd.Timedelta(minutes=15)
