@@ -247,14 +247,16 @@ class Fleet:
         """(value - expected) / scale in the window for every peer (NaN where not compared);
         the target's from its explanation."""
         out = np.full((len(self.keys), len(self.grid) - self.w0), np.nan)
-        rows = np.flatnonzero(compared)
-        if len(rows):
-            history = self.values[rows]
+        if compared.any():
+            # Fitting every row is cheaper than copying out the compared ones.
+            history = self.values
             if self.spans:
+                history = history.copy()
                 history[:, : self.w0][:, excluded_mask(self.grid[: self.w0], self.spans)] = np.nan
             base = phase_baseline(history, self.step, self.w0)
             with np.errstate(invalid="ignore"):
-                out[rows] = (self.values[rows, self.w0 :] - base.expected) / base.scale[:, None]
+                z = (self.values[:, self.w0 :] - base.expected) / base.scale[:, None]
+            out[compared] = z[compared]
         if compared[0]:
             out[0] = deviation_sd(self.target.frame.iloc[self.w0 :]).to_numpy()
         return out
