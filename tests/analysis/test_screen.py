@@ -124,6 +124,18 @@ def test_series_without_history_or_window_values_are_skipped_with_a_reason(store
     assert result.summary[-1] == "2 series could not be screened; see the skipped list."
 
 
+def test_a_store_with_nothing_to_screen_says_so(store):
+    late = store["svc.m002"][store["svc.m002"].index >= WINDOW[0]]
+    result = screen({"late": late}, WINDOW, history="2W", workers=1)
+    assert result.table.empty and result.skipped == {
+        "late": "no values in the history before the window"
+    }
+    assert result.summary == [
+        "None of the 0 series screened left its expected band for 5 min or more in the window.",
+        "1 series could not be screened; see the skipped list.",
+    ]
+
+
 def test_a_quiet_store_says_nobody_left(store):
     quiet = {k: store[k] for k in list(store)[:20] if k not in PLANTED}
     result = screen(quiet, WINDOW, history="2W", workers=1)
@@ -139,6 +151,7 @@ def test_a_quiet_store_says_nobody_left(store):
         ({"coarse_step": "soon"}, "the step must be a duration"),
         ({"history": "1min"}, "history must hold at least two steps"),
         ({"tolerance": 0}, "tolerance must be a positive number"),
+        ({"coarse_step": "6h"}, "the window must be at least one step of 0 days 06:00:00"),
     ],
 )
 def test_bad_parameters_are_refused_clearly(store, kwargs, message):

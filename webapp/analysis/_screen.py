@@ -131,6 +131,8 @@ def screen(
         raise ValueError("there are no series to screen")
     if history < coarse * 2:
         raise ValueError(f"history must hold at least two steps of {coarse}, got {history}")
+    if end - start < coarse:
+        raise ValueError(f"the window must be at least one step of {coarse} long")
 
     grid = make_grid(start - history, end - coarse, coarse)  # whole slots [t, t + step)
     w0 = int(grid.searchsorted(start))
