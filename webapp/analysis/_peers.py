@@ -31,7 +31,7 @@ are our own choices.
 from __future__ import annotations
 
 from collections.abc import Iterable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -186,7 +186,7 @@ def compare_peers(
         "cross_section_method": METHOD,
     }
     summary = peer_sentences(comparison, facts, tz, together)
-    return PeerComparison(**{**comparison.__dict__, "facts": facts, "summary": summary})
+    return replace(comparison, facts=facts, summary=summary)
 
 
 @dataclass
@@ -371,7 +371,7 @@ def find_groups(
 def replace_group(result: PeerResult, groups: list[PeerGroup]) -> PeerResult:
     for n, group in enumerate(groups):
         if result.key in group.members:
-            return PeerResult(**{**result.__dict__, "group": n})
+            return replace(result, group=n)
     return result
 
 
