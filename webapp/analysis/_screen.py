@@ -45,6 +45,7 @@ from ._outside import (
     peak,
     steps_needed,
 )
+from ._peers import listed
 from ._phase_baseline import phase_baseline
 from ._sentences import fmt_duration, fmt_number, fmt_time
 
@@ -336,24 +337,32 @@ def screen_sentences(
             f"bands in the window; the {facts['series_explained']} that went furthest and "
             "longest were explained in full."
         ]
-    ordered = list(onset_order(table)[["key", "onset", "side"]].itertuples(index=False))
-    for i, (key, onset, side) in enumerate(ordered[:ORDER_SENTENCES]):
+    moments = onset_moments(onset_order(table))
+    for i, (onset, keys, side) in enumerate(moments[:ORDER_SENTENCES]):
         when = fmt_time(onset.isoformat(), tz, with_date=i == 0)
-        text = f"{key} left its band at {when} ({side} it)"
-        if i + 1 < len(ordered):
-            later_key, later = ordered[i + 1][0], ordered[i + 1][1]
-            gap = (later - onset) / pd.Timedelta(minutes=1)
-            text += (
-                f", at the same time as {later_key}"
-                if gap == 0
-                else f", {fmt_duration(gap)} before {later_key}"
-            )
+        if len(keys) == 1:
+            text = f"{keys[0]} left its band at {when} ({side} it)"
+        else:
+            text = f"{len(keys)} series left their bands at {when}: {listed(keys)}"
+        if i + 1 < len(moments):
+            later, later_keys, _ = moments[i + 1]
+            gap = fmt_duration((later - onset) / pd.Timedelta(minutes=1))
+            who = later_keys[0] if len(later_keys) == 1 else f"the next {len(later_keys)}"
+            text += f", {gap} before {who}"
         out.append(text + ".")
-    if ordered:
+    if moments:
         out.append(CAUTION)
     if facts["series_skipped"]:
         out.append(f"{facts['series_skipped']} series could not be screened; see the skipped list.")
     return out
+
+
+def onset_moments(onsets: pd.DataFrame) -> list[tuple[pd.Timestamp, list[str], str]]:
+    """The onsets grouped by time: (when, keys in rank order, side of the first)."""
+    return [
+        (when, group["key"].tolist(), group["side"].iloc[0])
+        for when, group in onsets.groupby("onset", sort=True)
+    ]
 
 
 def onset_order(table: pd.DataFrame) -> pd.DataFrame:
