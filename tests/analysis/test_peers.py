@@ -7,7 +7,7 @@ import pandas as pd
 import pytest
 
 from webapp.analysis import compare_peers, explain
-from webapp.analysis._peers import first_sustained
+from webapp.analysis._outside import first_sustained
 
 END = pd.Timestamp("2026-11-30 18:00", tz="UTC")
 WINDOW = (END - pd.Timedelta(hours=8), END)
@@ -65,9 +65,11 @@ def test_one_host_alone_is_local():
     assert all(abs(r.peak_deviation_sd) < 6 for r in others)
     assert result.facts["others_left"] == 0 and result.facts["target_left"]
     assert result.facts["first_outside_spread_minutes"] is None
-    assert len(result.summary) == 1
+    assert len(result.summary) == 2
     assert result.summary[0].startswith("api-4 was outside its expected band for")
     assert "none of the 5 other series that differ only in host left theirs" in result.summary[0]
+    assert result.summary[1].startswith("api-4 stood out from its peers for ")
+    assert target.stood_out_from == EVENT
 
 
 def test_all_hosts_shifted_together_is_shared():
@@ -129,22 +131,48 @@ def test_peers_must_include_the_target():
         run(peers)
 
 
-def test_many_peers_are_capped_and_the_summary_says_so():
-    names = [f"api-{i}" for i in range(1, 9)]
-    result = run(hosts({}, names=names), max_peers=3, names={key(h): h for h in names})
-    assert result.available == 7 and result.compared == 3 and result.capped
-    assert [r.name for r in result.others] == ["api-1", "api-2", "api-3"]
-    assert result.summary[-1] == "Only 3 of the 7 peers were compared (the first by key)."
+def test_every_peer_is_compared_however_many():
+    names = [f"api-{i}" for i in range(1, 21)]
+    result = run(hosts({}, names=names), names={key(h): h for h in names})
+    assert result.available == 19 and result.compared == 19
+    assert [r.name for r in result.others] == sorted(set(names) - {"api-4"}, key=key)
+
+
+def test_a_whole_fleet_moving_makes_nobody_stand_out():
+    shift = (EVENT, EVENT + pd.Timedelta(hours=1), 60.0)
+    result = run(hosts({h: shift for h in HOSTS}))
+    target = result.results[0]
+    assert target.left_band and target.stood_out_from is None
+    assert target.stood_out_minutes == 0
+    assert "api-4 never stood out from its peers" in result.summary[-1]
+
+
+def test_a_peer_that_joined_in_the_window_is_named_not_compared():
+    peers = hosts({"api-4": (EVENT, EVENT + pd.Timedelta(minutes=30), 50.0)})
+    peers[key("api-2")] = peers[key("api-2")][peers[key("api-2")].index >= WINDOW[0]]
+    result = run(peers)
+    joined = next(r for r in result.results if r.name == "api-2")
+    assert joined.status == "joined" and joined.deviation is None and not joined.left_band
+    assert joined.error.startswith(f"joined at {WINDOW[0].isoformat()}")
+    assert result.facts["others_usable"] == 4 and result.facts["peers_failed"] == 0
+    assert result.facts["peers_joined"] == ["api-2"]
+    assert "none of the 4 other series" in result.summary[0]
+    assert result.summary[-1] == (
+        "Joined within a day of the window, too new to have a band: api-2; "
+        "named here, not counted as outliers."
+    )
 
 
 def test_a_peer_without_data_is_reported_and_the_others_still_compared():
     peers = hosts({"api-4": (EVENT, EVENT + pd.Timedelta(minutes=30), 50.0)})
-    peers[key("api-2")] = peers[key("api-2")][peers[key("api-2")].index >= WINDOW[0]]
+    peers[key("api-2")] = peers[key("api-2")][
+        peers[key("api-2")].index < WINDOW[0] - pd.Timedelta(weeks=3)
+    ]
     result = run(peers)
     broken = next(r for r in result.results if r.name == "api-2")
-    assert broken.error and broken.deviation is None and not broken.left_band
+    assert broken.status == "failed" and broken.deviation is None and not broken.left_band
+    assert broken.error == "the series has no values in the window or the history before it"
     assert result.facts["others_usable"] == 4 and result.facts["peers_failed"] == 1
-    assert "none of the 4 other series" in result.summary[0]
     assert result.summary[-1] == "1 peer(s) could not be explained; see the table."
 
 

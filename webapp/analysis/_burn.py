@@ -39,7 +39,6 @@ import numpy as np
 import pandas as pd
 
 from webapp.analysis._grid import as_utc_series
-from webapp.analysis.times import short_duration
 from webapp.analysis._replay import (
     _as_timedelta,
     evaluation_grid,
@@ -48,6 +47,7 @@ from webapp.analysis._replay import (
     hold_samples,
     runs,
 )
+from webapp.analysis.times import short_duration
 
 __all__ = [
     "BurnWindow",
