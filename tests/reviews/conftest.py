@@ -9,7 +9,7 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from webapp.store.explanations import frame_to_parquet
+from webapp.store.frames import encode_frame
 from webapp.store.models import Explanation, Page, Series
 
 WINDOW = (pd.Timestamp("2026-11-30 14:00", tz="UTC"), pd.Timestamp("2026-11-30 16:00", tz="UTC"))
@@ -71,7 +71,7 @@ def make_explanation(session, make_series) -> Callable[..., Explanation]:
             window_end=window[1].to_pydatetime(),
             parameters={"history": "P2D", "tolerance": 3.0, "tz": "UTC", "agg": "mean"},
             engine_version="test-1",
-            frame=frame_to_parquet(frame),
+            frame=encode_frame(frame),
             overlay=None,
             facts={
                 "first_outside": first_outside.isoformat(),
