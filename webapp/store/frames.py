@@ -64,12 +64,13 @@ class Codec:
         return cls(str(data["kind"]), tuple(data["refs"]), float(data["number"]))
 
 
-def encode_frame(frame: pd.DataFrame) -> bytes:
-    """``frame`` as Parquet bytes (zstd), float columns stored as prediction errors."""
+def encode_frame(frame: pd.DataFrame, *, compact: bool = True) -> bytes:
+    """``frame`` as Parquet bytes (zstd), float columns stored as prediction errors;
+    ``compact=False`` stores them as they are (the format before the codecs)."""
     names = list(frame.columns)
     if not all(isinstance(n, str) for n in names) or len(set(names)) != len(names):
         raise ValueError(f"a stored frame needs unique text column names, got {names!r}")
-    codecs = choose_codecs(frame)
+    codecs = choose_codecs(frame) if compact else {}
     work = frame.copy(deep=False)
     encodings: dict[str, str] = {}
     for name, codec in codecs.items():

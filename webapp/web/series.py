@@ -28,7 +28,7 @@ def index() -> str:
     paths = {
         row.id: _sparklines.get(
             (version, row.id, row.n_points, row.first, row.last),
-            lambda row=row: sparkline_path(store_series.sparkline(session, row.id)),
+            lambda row=row: sparkline_path(row.sparkline),
         )
         for row in rows
     }
