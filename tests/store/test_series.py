@@ -118,7 +118,7 @@ def test_the_stored_sparkline_follows_imports_and_their_undo(engine, stored, mak
         changed = store_series.sparkline(s, a)
         assert changed == bucket_means_of(store_series.read_series(s, a))
         assert changed[-1] == 100.0 and changed != before
-        (listed,) = store_series.list_series(s, q="host=a")
+        (listed,) = store_series.list_series(s, q="host=a", sparklines=True)
         assert listed.sparkline == changed
         delete_import(s, imp.import_id)
     with db.session_scope(engine) as s:  # the undo removes minutes 5 to 19 (none restored)

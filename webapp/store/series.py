@@ -34,7 +34,8 @@ class SeriesInfo:
     sparkline: list[float | None]
 
 
-def info(row: Series) -> SeriesInfo:
+def info(row: Any) -> SeriesInfo:
+    """The list row of a ``Series`` (or of a result row with the same columns)."""
     step = pd.Timedelta(milliseconds=row.step_ms) if row.step_ms else None
     coverage = 0.0
     if row.point_count:
@@ -53,17 +54,48 @@ def info(row: Series) -> SeriesInfo:
         last=from_ms(row.last_ts) if row.last_ts is not None else None,
         step=step,
         coverage=coverage,
-        sparkline=list(row.sparkline or []),
+        sparkline=list(getattr(row, "sparkline", None) or []),
     )
 
 
-def list_series(session: Session, q: str | None = None) -> list[SeriesInfo]:
+_LISTED = (
+    Series.id,
+    Series.key,
+    Series.metric,
+    Series.labels,
+    Series.unit,
+    Series.point_count,
+    Series.first_ts,
+    Series.last_ts,
+    Series.step_ms,
+)
+
+
+def list_series(
+    session: Session,
+    q: str | None = None,
+    *,
+    sparklines: bool = False,
+    limit: int | None = None,
+) -> list[SeriesInfo]:
     """Every series ordered by key; ``q`` keeps those whose key holds every word of it
-    (case-insensitive), so ``latency host=api-3`` finds ``checkout.latency_p95{host=api-3}``."""
-    stmt = select(Series).order_by(Series.key)
+    (case-insensitive), so ``latency host=api-3`` finds ``checkout.latency_p95{host=api-3}``.
+    One query of plain columns (no ORM objects); ``sparklines`` adds the stored sparkline;
+    ``limit`` keeps the first so many."""
+    columns = [*_LISTED, Series.sparkline] if sparklines else _LISTED
+    stmt = _matching(select(*columns), q).order_by(Series.key).limit(limit)
+    return [info(row) for row in session.execute(stmt)]
+
+
+def count_series(session: Session, q: str | None = None) -> int:
+    """How many series ``list_series`` would list for ``q``."""
+    return int(session.scalar(_matching(select(func.count()).select_from(Series), q)) or 0)
+
+
+def _matching(stmt: Any, q: str | None) -> Any:
     for word in (q or "").split():
         stmt = stmt.where(func.lower(Series.key).contains(word.lower(), autoescape=True))
-    return [info(row) for row in session.scalars(stmt)]
+    return stmt
 
 
 def get_series(session: Session, series_id: int) -> Series | None:
