@@ -13,7 +13,7 @@ raw int64 time plus float64 value). All data is invented: latency-like minutes w
 and weekly cycles, noise and spikes, values with one decimal as a text export gives them
 (``--full-precision`` keeps every bit of the noise instead).
 
-    python benchmarks/bench_store.py [--runs 7] [--series 1000] [--full-precision]
+    python benchmarks/bench_store.py [--runs 21] [--series 1000] [--full-precision]
 """
 
 from __future__ import annotations
@@ -117,8 +117,12 @@ def bench_read(folder: Path, runs: int, decimals: int | None) -> bool:
             return store_series.read_series(session, 1)
 
     np.testing.assert_array_equal(from_store().to_numpy(), from_parquet().to_numpy())
-    store_s = median_time(from_store, runs)
-    parquet_s = median_time(from_parquet, runs)
+    store_times, parquet_times = [], []
+    for _ in range(runs):  # interleaved, so both see the same load on the machine
+        store_times.append(median_time(from_store, 1))
+        parquet_times.append(median_time(from_parquet, 1))
+    store_s = statistics.median(store_times)
+    parquet_s = statistics.median(parquet_times)
     ratio = store_s / parquet_s
     with engine.connect() as conn:
         packed = conn.exec_driver_sql(
@@ -186,7 +190,7 @@ def bench_list(folder: Path, n_series: int, runs: int) -> bool:
 
 def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--runs", type=int, default=7)
+    parser.add_argument("--runs", type=int, default=21)
     parser.add_argument("--series", type=int, default=1000)
     parser.add_argument("--full-precision", action="store_true")
     args = parser.parse_args()
