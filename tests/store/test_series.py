@@ -102,6 +102,7 @@ def test_sparkline_means_each_bucket_and_leaves_empty_buckets_none(stored):
     assert bucket_means_of(a, n=5) == [0.5, 2.5, 4.5, 6.5, 8.5]
     assert bucket_means_of(b, n=5) == [1.5, None, 2.5, None, 3.5]
     assert bucket_means(np.array([0, 1]), np.array([np.nan, np.nan]), 2) == [None, None]
+    assert bucket_means(np.array([0, 1]), np.array([np.inf, 2.0]), 2) == [None, 2.0]
 
 
 def test_the_stored_sparkline_follows_imports_and_their_undo(engine, stored, make_parsed):

@@ -73,7 +73,7 @@ def bucket_means(
     ts: np.ndarray, values: np.ndarray, n: int = SPARKLINE_BUCKETS
 ) -> list[float | None]:
     """The span of sorted ``ts`` cut into ``n`` equal time buckets: each bucket's mean of
-    the non-missing values, or None where it has none."""
+    the non-missing values, or None where it has none (or the mean is not finite)."""
     ok = ~np.isnan(values)
     if not len(ts) or not ok.any():
         return [None] * n if len(ts) else []
@@ -81,7 +81,10 @@ def bucket_means(
     bucket = np.minimum((ts[ok] - ts[0]) * n // span, n - 1)
     sums = np.bincount(bucket, weights=values[ok], minlength=n)
     counts = np.bincount(bucket, minlength=n)
-    return [float(s / c) if c else None for s, c in zip(sums, counts, strict=True)]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        means = sums / counts
+    # JSON (and PostgreSQL's json type) has no NaN or infinity: such a bucket is left empty.
+    return [float(m) if np.isfinite(m) else None for m in means]
 
 
 def _median_step(sorted_ts: np.ndarray) -> int:
