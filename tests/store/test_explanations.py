@@ -11,6 +11,7 @@ import pytest
 from webapp.analysis import explain, past_weeks_overlay
 from webapp.store import db
 from webapp.store import explanations as store_exp
+from webapp.store.frames import decode_frame, encode_frame
 from webapp.store.models import Series
 
 
@@ -60,7 +61,7 @@ def test_frame_frequency_time_zone_and_dtypes_survive():
     frame = pd.DataFrame(
         {"value": [1.0, np.nan, 3.0, 4.0, 5.0, 6.0], "outside": [False, True] * 3}, index=index
     )
-    back = store_exp.frame_from_parquet(store_exp.frame_to_parquet(frame))
+    back = decode_frame(encode_frame(frame))
     pd.testing.assert_frame_equal(back, frame)
     assert back.index.freqstr == "30min"
 

@@ -20,9 +20,13 @@ def snapshot(engine) -> dict:
                 "SELECT series_id, ts, value, import_id FROM points ORDER BY series_id, ts"
             ).all(),
             "series": conn.exec_driver_sql(
-                "SELECT id, key, unit, point_count, first_ts, last_ts, step_ms FROM series"
+                "SELECT id, key, unit, point_count, first_ts, last_ts, step_ms, sparkline"
+                " FROM series"
             ).all(),
             "imports": conn.exec_driver_sql("SELECT id, sha256 FROM imports").all(),
+            "blocks": conn.exec_driver_sql(
+                "SELECT series_id, day, n, ts, value FROM point_blocks ORDER BY series_id, day"
+            ).all(),
         }
 
 

@@ -8,7 +8,8 @@ import pytest
 
 from webapp.store import db
 from webapp.store import series as store_series
-from webapp.store.imports import record_import
+from webapp.store.imports import delete_import, record_import
+from webapp.store.stats import SPARKLINE_BUCKETS, bucket_means
 
 MIN = 60_000
 T0 = 1_790_000_000_000  # 2026-09-21T14:13:20Z, a round epoch-millisecond start
@@ -91,10 +92,40 @@ def test_coverage_counts_missing_grid_slots(engine, make_parsed):
     assert info.coverage == pytest.approx(0.8)
 
 
+def bucket_means_of(series: pd.Series, n: int = SPARKLINE_BUCKETS) -> list[float | None]:
+    return bucket_means(series.index.as_unit("ms").asi8, series.to_numpy(), n)
+
+
 def test_sparkline_means_each_bucket_and_leaves_empty_buckets_none(stored):
     session, ids = stored
-    assert store_series.sparkline(session, ids["lat{host=a}"], n=5) == [0.5, 2.5, 4.5, 6.5, 8.5]
-    assert store_series.sparkline(session, ids["lat{host=b}"], n=5) == [1.5, None, 2.5, None, 3.5]
+    a, b = (store_series.read_series(session, ids[k]) for k in ("lat{host=a}", "lat{host=b}"))
+    assert bucket_means_of(a, n=5) == [0.5, 2.5, 4.5, 6.5, 8.5]
+    assert bucket_means_of(b, n=5) == [1.5, None, 2.5, None, 3.5]
+    assert bucket_means(np.array([0, 1]), np.array([np.nan, np.nan]), 2) == [None, None]
+    assert bucket_means(np.array([0, 1]), np.array([np.inf, 2.0]), 2) == [None, 2.0]
+
+
+def test_the_stored_sparkline_follows_imports_and_their_undo(engine, stored, make_parsed):
+    session, ids = stored
+    a = ids["lat{host=a}"]
+    before = store_series.sparkline(session, a)
+    assert len(before) == SPARKLINE_BUCKETS and before[0] == 0.0 and before[-1] == 9.0
+    assert before == bucket_means_of(store_series.read_series(session, a))
+    session.close()
+    later = [T0 + i * MIN for i in range(5, 20)]
+    with db.session_scope(engine) as s:
+        imp = record_import(s, make_parsed(["lat{host=a}"] * 15, later, [100.0] * 15, "b.csv"))
+    with db.session_scope(engine) as s:
+        changed = store_series.sparkline(s, a)
+        assert changed == bucket_means_of(store_series.read_series(s, a))
+        assert changed[-1] == 100.0 and changed != before
+        (listed,) = store_series.list_series(s, q="host=a", sparklines=True)
+        assert listed.sparkline == changed
+        delete_import(s, imp.import_id)
+    with db.session_scope(engine) as s:  # the undo removes minutes 5 to 19 (none restored)
+        undone = store_series.sparkline(s, a)
+        assert undone == bucket_means_of(store_series.read_series(s, a))
+        assert undone[0] == 0.0 and undone[-1] == 4.0
 
 
 def test_find_and_get_series(stored):

@@ -137,10 +137,10 @@ def test_download_routes(client, session, full_review) -> None:
 def test_a_frame_that_cannot_be_drawn_is_named_not_fatal(
     session, client, make_explanation, tmp_path
 ) -> None:
-    from webapp.store.explanations import frame_to_parquet
+    from webapp.store.frames import encode_frame
 
     exp = make_explanation()
-    exp.frame = frame_to_parquet(pd.DataFrame({"value": [1.0]}, index=pd.DatetimeIndex(
+    exp.frame = encode_frame(pd.DataFrame({"value": [1.0]}, index=pd.DatetimeIndex(
         ["2026-11-30"], tz="UTC")))  # fmt: skip
     review = reviews.create_review(session, {"title": "old frame"})
     store_attachments.attach_explanation(session, review, exp.id)

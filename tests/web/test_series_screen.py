@@ -18,6 +18,20 @@ def test_search_by_label_and_metric(client, stored, upload_files, make_csv):
     assert "No series match" in nothing
 
 
+def test_a_long_list_shows_its_first_rows_and_says_how_many_there_are(
+    client, stored, upload_files, make_csv, monkeypatch
+):
+    from webapp.web.views import series as series_view
+
+    monkeypatch.setattr(series_view, "MAX_ROWS", 1)
+    upload_files([(make_csv(weeks=1, host="db-9"), "db.csv")])
+    body = client.get("/series").get_data(as_text=True)
+    assert body.count('<svg class="sparkline"') == 1
+    assert "The first 1 of 2 series by name; search to narrow the list." in body
+    narrowed = client.get("/series?q=db-9").get_data(as_text=True)
+    assert "{host=db-9}" in narrowed and "The first" not in narrowed
+
+
 def test_htmx_search_returns_only_rows(client, stored):
     body = client.get("/series?q=latency", headers={"HX-Request": "true"}).get_data(as_text=True)
     assert body.lstrip().startswith("<tr>") and "<html" not in body

@@ -1,47 +1,24 @@
 """Frozen explanations: the analysis of one series around one window, kept as it was.
 
-Frames are stored as Parquet bytes (pyarrow) and read back exactly: same values, dtypes,
-index (with its time zone and frequency) and column order.
+Frames are stored as compact Parquet bytes (``webapp.store.frames``) and read back exactly:
+same bits, dtypes, index (with its time zone and frequency) and column order.
 """
 
 from __future__ import annotations
 
 import datetime as dt
-import io
 import math
 from typing import Any
 
 import numpy as np
 import pandas as pd
-import pyarrow as pa
-import pyarrow.parquet as pq
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
 from webapp.store._sql import delete_by_id, require
+from webapp.store.frames import decode_frame, encode_frame
 from webapp.store.models import Explanation, Series
 from webapp.store.times import utc
-
-_FREQ_KEY = b"whyfired.index_freq"
-
-
-def frame_to_parquet(frame: pd.DataFrame) -> bytes:
-    table = pa.Table.from_pandas(frame, preserve_index=True)
-    freq = getattr(frame.index, "freqstr", None)
-    if freq:
-        table = table.replace_schema_metadata({**table.schema.metadata, _FREQ_KEY: freq.encode()})
-    buffer = io.BytesIO()
-    pq.write_table(table, buffer, compression="zstd")
-    return buffer.getvalue()
-
-
-def frame_from_parquet(data: bytes) -> pd.DataFrame:
-    table = pq.read_table(io.BytesIO(data))
-    frame = table.to_pandas()
-    freq = (table.schema.metadata or {}).get(_FREQ_KEY)
-    if freq and isinstance(frame.index, pd.DatetimeIndex):
-        frame.index.freq = freq.decode()
-    return frame
 
 
 def jsonable(value: Any) -> Any:
@@ -83,8 +60,8 @@ def save_explanation(
         window_end=utc(end),
         parameters=jsonable(dict(exp.parameters)),
         engine_version=str(exp.engine_version),
-        frame=frame_to_parquet(exp.frame),
-        overlay=frame_to_parquet(overlay) if overlay is not None else None,
+        frame=encode_frame(exp.frame),
+        overlay=encode_frame(overlay) if overlay is not None else None,
         facts=jsonable(dict(exp.facts)),
         summary=[str(s) for s in exp.summary],
     )
@@ -94,11 +71,11 @@ def save_explanation(
 
 
 def load_frame(row: Explanation) -> pd.DataFrame:
-    return frame_from_parquet(row.frame)
+    return decode_frame(row.frame)
 
 
 def load_overlay(row: Explanation) -> pd.DataFrame | None:
-    return frame_from_parquet(row.overlay) if row.overlay is not None else None
+    return decode_frame(row.overlay) if row.overlay is not None else None
 
 
 def list_explanations(session: Session, series_id: int | None = None) -> list[Explanation]:

@@ -212,8 +212,10 @@ def _write_all(
     old = ~fresh
     _write_points(session, import_id, series_ids[fresh], ts[fresh], values[fresh], upsert=False)
     _write_points(session, import_id, series_ids[old], ts[old], values[old], upsert=True)
-    stats.refresh(session, existing)
-    stats.set_from_points({series[k].id: series[k] for k in created}, series_ids[fresh], ts[fresh])
+    span = (int(ts[old].min()), int(ts[old].max())) if old.any() else None
+    stats.refresh(session, existing, span)
+    created_rows = {series[k].id: series[k] for k in created}
+    stats.set_from_points(session, created_rows, series_ids[fresh], ts[fresh], values[fresh])
     return sum(s.point_count for s in series.values()) - before
 
 
@@ -335,7 +337,9 @@ def delete_import(session: Session, import_id: int) -> int:
                 .execution_options(synchronize_session=False)
             )
             removed += result.rowcount
-    stats.refresh(session, touched)
+    stats.refresh(
+        session, touched, (imp.first_ts, imp.last_ts) if imp.first_ts is not None else None
+    )
     for s in touched:
         if s.point_count == 0 and not _is_referenced(session, s.id):
             session.delete(s)

@@ -104,6 +104,8 @@ class Series(Base):
     first_ts: Mapped[int | None] = mapped_column(BigInteger)  # UTC epoch milliseconds
     last_ts: Mapped[int | None] = mapped_column(BigInteger)
     step_ms: Mapped[int | None] = mapped_column(BigInteger)  # median spacing of recent points
+    # Means of equal time buckets over the whole span, None where empty (store.stats).
+    sparkline: Mapped[list[float | None] | None] = mapped_column(JSON)
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
 
 
@@ -126,6 +128,23 @@ class Point(Base):
     # No foreign key: deleting an import removes the points it owns first, and skipping the
     # per-row parent lookup keeps bulk imports fast.
     import_id: Mapped[int | None] = mapped_column(Integer)
+
+
+class PointBlock(Base):
+    """One UTC day of one series' points, packed for reading (``webapp.store.blocks``).
+
+    Derived from ``points`` and rebuilt for the days an import or an undo touches."""
+
+    __tablename__ = "point_blocks"
+    __table_args__ = {"sqlite_with_rowid": False}
+
+    series_id: Mapped[int] = mapped_column(
+        ForeignKey("series.id", ondelete="CASCADE"), primary_key=True
+    )
+    day: Mapped[int] = mapped_column(BigInteger, primary_key=True)  # UTC epoch ms // 86,400,000
+    n: Mapped[int] = mapped_column(Integer)
+    ts: Mapped[bytes] = mapped_column(LargeBinary)
+    value: Mapped[bytes] = mapped_column(LargeBinary)
 
 
 class AlertRule(Base):
@@ -192,8 +211,8 @@ class Explanation(Base):
     window_end: Mapped[dt.datetime] = mapped_column(UTCDateTime)
     parameters: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
     engine_version: Mapped[str] = mapped_column(String(40))
-    frame: Mapped[bytes] = mapped_column(LargeBinary)  # parquet bytes of exp.frame
-    overlay: Mapped[bytes | None] = mapped_column(LargeBinary)  # parquet bytes, may be absent
+    frame: Mapped[bytes] = mapped_column(LargeBinary)  # webapp.store.frames.encode_frame
+    overlay: Mapped[bytes | None] = mapped_column(LargeBinary)  # the same, may be absent
     facts: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
     summary: Mapped[list[str]] = mapped_column(JSON, default=list)
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)

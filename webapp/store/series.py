@@ -11,8 +11,9 @@ import pandas as pd
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from webapp.store._sql import chunks, driver_cursor, placeholder, require
-from webapp.store.models import Point, Series
+from webapp.store import blocks
+from webapp.store._sql import chunks, require
+from webapp.store.models import Series
 from webapp.store.times import from_ms, to_ms
 
 
@@ -30,9 +31,11 @@ class SeriesInfo:
     last: pd.Timestamp | None
     step: pd.Timedelta | None
     coverage: float
+    sparkline: list[float | None]
 
 
-def info(row: Series) -> SeriesInfo:
+def info(row: Any) -> SeriesInfo:
+    """The list row of a ``Series`` (or of a result row with the same columns)."""
     step = pd.Timedelta(milliseconds=row.step_ms) if row.step_ms else None
     coverage = 0.0
     if row.point_count:
@@ -51,16 +54,48 @@ def info(row: Series) -> SeriesInfo:
         last=from_ms(row.last_ts) if row.last_ts is not None else None,
         step=step,
         coverage=coverage,
+        sparkline=list(getattr(row, "sparkline", None) or []),
     )
 
 
-def list_series(session: Session, q: str | None = None) -> list[SeriesInfo]:
+_LISTED = (
+    Series.id,
+    Series.key,
+    Series.metric,
+    Series.labels,
+    Series.unit,
+    Series.point_count,
+    Series.first_ts,
+    Series.last_ts,
+    Series.step_ms,
+)
+
+
+def list_series(
+    session: Session,
+    q: str | None = None,
+    *,
+    sparklines: bool = False,
+    limit: int | None = None,
+) -> list[SeriesInfo]:
     """Every series ordered by key; ``q`` keeps those whose key holds every word of it
-    (case-insensitive), so ``latency host=api-3`` finds ``checkout.latency_p95{host=api-3}``."""
-    stmt = select(Series).order_by(Series.key)
+    (case-insensitive), so ``latency host=api-3`` finds ``checkout.latency_p95{host=api-3}``.
+    One query of plain columns (no ORM objects); ``sparklines`` adds the stored sparkline;
+    ``limit`` keeps the first so many."""
+    columns = [*_LISTED, Series.sparkline] if sparklines else _LISTED
+    stmt = _matching(select(*columns), q).order_by(Series.key).limit(limit)
+    return [info(row) for row in session.execute(stmt)]
+
+
+def count_series(session: Session, q: str | None = None) -> int:
+    """How many series ``list_series`` would list for ``q``."""
+    return int(session.scalar(_matching(select(func.count()).select_from(Series), q)) or 0)
+
+
+def _matching(stmt: Any, q: str | None) -> Any:
     for word in (q or "").split():
         stmt = stmt.where(func.lower(Series.key).contains(word.lower(), autoescape=True))
-    return [info(row) for row in session.scalars(stmt)]
+    return stmt
 
 
 def get_series(session: Session, series_id: int) -> Series | None:
@@ -84,42 +119,21 @@ def read_series(session: Session, series_id: int, start: Any = None, end: Any = 
     """The points of one series between ``start`` and ``end`` (both inclusive, either open).
 
     Returns float64 values on a sorted ``datetime64[ns, UTC]`` index named ``ts``; the
-    Series is named by the series key. Raises LookupError for an unknown id. Reads through
-    the driver's cursor: a few weeks of 1-minute data are tens of thousands of rows.
+    Series is named by the series key. Raises LookupError for an unknown id. Reads the
+    series' point blocks (``webapp.store.blocks``): one row per day, not per point.
     """
     row = require(session, Series, series_id, "series")
-    connection = session.connection()
-    p = placeholder(connection.dialect.paramstyle)
-    sql = f"SELECT ts, value FROM points WHERE series_id = {p}"
-    params: list[int] = [series_id]
-    if start is not None:
-        sql += f" AND ts >= {p}"
-        params.append(to_ms(start))
-    if end is not None:
-        sql += f" AND ts <= {p}"
-        params.append(to_ms(end))
-    sql += " ORDER BY ts"
-    with driver_cursor(connection, sql) as cursor:
-        cursor.execute(sql, params)
-        rows = cursor.fetchall()
-    ts = np.fromiter((r[0] for r in rows), dtype=np.int64, count=len(rows))
-    values = np.fromiter((r[1] for r in rows), dtype=np.float64, count=len(rows))
+    ts, values = blocks.read(
+        session,
+        series_id,
+        to_ms(start) if start is not None else None,
+        to_ms(end) if end is not None else None,
+    )
     index = pd.DatetimeIndex(ts.astype("datetime64[ms]").astype("datetime64[ns]"), name="ts")
     return pd.Series(values, index=index.tz_localize("UTC"), name=row.key, dtype=np.float64)
 
 
-def sparkline(session: Session, series_id: int, n: int = 120) -> list[float | None]:
-    """The series' whole span cut into ``n`` equal time buckets: each bucket's mean, or
-    None where the bucket holds no point."""
-    row = require(session, Series, series_id, "series")
-    if not row.point_count or row.first_ts is None or row.last_ts is None:
-        return []
-    span = row.last_ts - row.first_ts + 1
-    bucket = ((Point.ts - row.first_ts) * n) // span
-    rows = session.execute(
-        select(bucket, func.avg(Point.value)).where(Point.series_id == series_id).group_by(bucket)
-    )
-    out: list[float | None] = [None] * n
-    for b, mean in rows:
-        out[min(int(b), n - 1)] = float(mean)
-    return out
+def sparkline(session: Session, series_id: int) -> list[float | None]:
+    """The series' whole span cut into equal time buckets (``stats.SPARKLINE_BUCKETS``):
+    each bucket's mean, or None where the bucket holds no point. Kept on the series row."""
+    return list(require(session, Series, series_id, "series").sparkline or [])

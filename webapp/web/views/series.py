@@ -14,6 +14,7 @@ from webapp.web.htmx import render
 bp = Blueprint("series", __name__)
 
 MAX_QUERY = 200
+MAX_ROWS = 100  # a longer list is read by searching it, not by scrolling it
 _sparklines = Recent(2000)
 
 
@@ -23,16 +24,19 @@ def index() -> str:
 
     q = (request.args.get("q") or "").strip()[:MAX_QUERY]
     session = db.get_session()
-    rows = store_series.list_series(session, q or None)
+    rows = store_series.list_series(session, q or None, sparklines=True, limit=MAX_ROWS)
+    total = store_series.count_series(session, q or None) if len(rows) == MAX_ROWS else len(rows)
     version = imports_version(session)
     paths = {
         row.id: _sparklines.get(
             (version, row.id, row.n_points, row.first, row.last),
-            lambda row=row: sparkline_path(store_series.sparkline(session, row.id)),
+            lambda row=row: sparkline_path(row.sparkline),
         )
         for row in rows
     }
-    return render("series/index.html", "series/_rows.html", rows=rows, paths=paths, q=q)
+    return render(
+        "series/index.html", "series/_rows.html", rows=rows, paths=paths, q=q, total=total
+    )
 
 
 @bp.get("/series/<int:series_id>")

@@ -1,0 +1,150 @@
+"""Benchmark: every screen of the demo, on the first request after start and warm.
+
+Bars (the web screens): each screen within 0.5 s on the first request after the app
+starts, and within 0.3 s warm (median of ``--runs``).
+
+Builds the invented demo (``whyfired demo``'s scenario, seed 7) into a temporary SQLite
+file once. "First request" runs in a fresh Python process per screen, which creates the
+app and times its first request to that screen, so it pays whatever that screen imports
+and warms; the app is created before the clock starts, as ``serve`` does before it
+listens. "Warm" asks every screen ``--runs`` times in one process after one untimed
+request each. Requests go through Flask's test client (no network, no WSGI server) and
+follow redirects.
+
+    python benchmarks/bench_pages.py [--runs 5]
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT))
+
+WARM_BAR = 0.3
+FIRST_BAR = 0.5
+
+FIRST_REQUEST = """
+import sys, time
+sys.path.insert(0, {root!r})
+from webapp import create_app
+app = create_app({{"DATABASE_URL": {url!r}}})
+client = app.test_client()
+t0 = time.perf_counter()
+response = client.get({path!r}, follow_redirects=True)
+elapsed = time.perf_counter() - t0
+print(response.status_code, elapsed)
+"""
+
+
+def screens(url: str) -> list[tuple[str, str]]:
+    """(name, path) of every screen, with ids taken from the demo store."""
+    from sqlalchemy import select
+
+    from webapp.store import db
+    from webapp.store.models import AlertRule, Explanation, Page, Review, Series
+
+    engine = db.make_engine(url)
+    with db.session_scope(engine) as s:
+        series = s.scalars(select(Series.id).order_by(Series.id)).first()
+        rule = s.scalars(select(AlertRule.id).order_by(AlertRule.id)).first()
+        page = s.scalars(select(Page.id).order_by(Page.id)).first()
+        review = s.scalars(select(Review.id).order_by(Review.id)).first()
+        saved = s.scalars(select(Explanation.id).order_by(Explanation.id)).first()
+    engine.dispose()
+    return [
+        ("home", "/"),
+        ("series list", "/series"),
+        ("explain (a series' last day)", f"/explain?series={series}"),
+        ("explain a page", f"/pages/{page}/explain"),
+        ("saved explanations", "/explanations"),
+        ("a saved explanation", f"/explanations/{saved}"),
+        ("imports", "/imports"),
+        ("pages", "/pages"),
+        ("alert rules", "/rules"),
+        ("an alert rule", f"/rules/{rule}"),
+        ("replay of a rule", f"/rules/{rule}/replay"),
+        ("new rule form", "/rules/new"),
+        ("reviews", "/reviews"),
+        ("a review", f"/reviews/{review}"),
+        ("editing a review", f"/reviews/{review}/edit"),
+        ("new review form", "/reviews/new"),
+    ]
+
+
+def build_demo_store(url: str) -> None:
+    from webapp.demo import build_demo
+    from webapp.services.demo import load_demo
+    from webapp.store import db
+
+    engine = db.make_engine(url)
+    db.upgrade(engine)
+    with db.session_scope(engine) as session:
+        load_demo(session, build_demo(seed=7))
+    engine.dispose()
+
+
+def first_request(url: str, path: str) -> tuple[int, float]:
+    code = FIRST_REQUEST.format(root=str(ROOT), url=url, path=path)
+    env = {**os.environ, "PYTHONPATH": str(ROOT)}
+    done = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, env=env, check=True
+    )
+    status, elapsed = done.stdout.split()[-2:]
+    return int(status), float(elapsed)
+
+
+def warm_requests(url: str, paths: list[str], runs: int) -> dict[str, tuple[int, float]]:
+    from webapp import create_app
+
+    client = create_app({"DATABASE_URL": url}).test_client()
+    out = {}
+    for path in paths:
+        status = client.get(path, follow_redirects=True).status_code
+        times = []
+        for _ in range(runs):
+            t0 = time.perf_counter()
+            client.get(path, follow_redirects=True)
+            times.append(time.perf_counter() - t0)
+        out[path] = (status, statistics.median(times))
+    return out
+
+
+def main() -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--runs", type=int, default=5)
+    args = parser.parse_args()
+    with tempfile.TemporaryDirectory() as tmp:
+        url = f"sqlite:///{Path(tmp) / 'demo.sqlite'}"
+        t0 = time.perf_counter()
+        build_demo_store(url)
+        print(f"demo store built in {time.perf_counter() - t0:.0f} s")
+        listed = screens(url)
+        warm = warm_requests(url, [path for _, path in listed], args.runs)
+        rows = []
+        for name, path in listed:
+            status, first = first_request(url, path)
+            rows.append((name, path, status, first, warm[path][1]))
+    width = max(len(name) for name, *_ in rows)
+    print(f"{'screen':<{width}}  status  first (bar {FIRST_BAR})  warm median (bar {WARM_BAR})")
+    ok = True
+    for name, _path, status, first, warm_s in rows:
+        met = status == 200 and first <= FIRST_BAR and warm_s <= WARM_BAR
+        ok &= met
+        print(
+            f"{name:<{width}}  {status:>6}  {first:>8.3f} s {'':>7}  {warm_s:>8.3f} s"
+            f"   {'' if met else 'MISSED'}"
+        )
+    print("bars met" if ok else "BAR MISSED")
+    return 0 if ok else 1
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

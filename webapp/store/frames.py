@@ -1,0 +1,385 @@
+"""Data frames as compact Parquet bytes that read back bit for bit.
+
+A saved explanation is a frame of one row per grid step (80,641 rows for 8 weeks of
+1-minute data) and a dozen columns. Plain Parquet with zstd keeps about 6 bytes of each
+float: the band columns are full-precision doubles. Most of them are not new information,
+though: ``expected`` is ``trend + seasonal``, ``lower`` is ``expected - k * band_scale``,
+``residual`` is ``value - expected``, the trend is piecewise linear and imported values are
+short decimals. So each float64 column is stored as its *prediction error*: the XOR of its
+bits with the bits of a prediction made from columns decoded before it, or from its own
+earlier rows. Where the prediction is exact the stored word is zero, which compresses to
+almost nothing; where it is not, the XOR still restores every bit (NaN payloads, signed
+zeros and infinities included). Correctness never depends on a prediction being right,
+only the size does. Values that are all short decimals (``round(x, d)`` for a ``d`` up to
+6) are stored as integers instead.
+
+The predictors, chosen per column by trying them (the smallest compressed size wins):
+
+* ``previous``: the row before; ``linear``: the line through the two rows before;
+  ``lag``: the row one day or one week before, on a regular time grid.
+* ``sum`` / ``difference`` of two other columns, and ``scaled``: ``a + k * b`` for a
+  constant ``k`` (how the band's edges are built).
+* ``decimal``: ``x = n / 10**d`` with ``n`` an integer; missing values stay missing.
+
+Every other column (booleans, integers, text) and the index go through pyarrow's pandas
+conversion as they are; the index frequency is kept in the schema metadata. The bytes are a
+normal Parquet file: any Parquet reader opens it and sees the encoded columns and, under
+``whyfired.codecs`` in the metadata, how to decode them.
+"""
+
+from __future__ import annotations
+
+import io
+import json
+from collections.abc import Iterator
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+FREQ_KEY = b"whyfired.index_freq"
+CODECS_KEY = b"whyfired.codecs"
+MAX_DECIMALS = 6
+EXACT_SHARE = 0.5  # a formula is tried when at least this share of a sample is exact
+SAMPLE_ROWS = 2000
+SIZE_ROWS = 16384  # rows compressed to compare codecs
+_ZSTD = pa.Codec("zstd", compression_level=3)
+
+
+@dataclass(frozen=True)
+class Codec:
+    """How one float column is stored: ``kind`` with its column references and constant."""
+
+    kind: str  # raw | previous | linear | lag | sum | difference | scaled | decimal
+    refs: tuple[str, ...] = ()
+    number: float = 0.0  # the lag in rows, the scale k, or the number of decimals
+
+    def as_json(self) -> dict:
+        return {"kind": self.kind, "refs": list(self.refs), "number": self.number}
+
+    @classmethod
+    def from_json(cls, data: dict) -> Codec:
+        return cls(str(data["kind"]), tuple(data["refs"]), float(data["number"]))
+
+
+def encode_frame(frame: pd.DataFrame, *, compact: bool = True) -> bytes:
+    """``frame`` as Parquet bytes (zstd), float columns stored as prediction errors;
+    ``compact=False`` stores them as they are (the format before the codecs)."""
+    names = list(frame.columns)
+    if not all(isinstance(n, str) for n in names) or len(set(names)) != len(names):
+        raise ValueError(f"a stored frame needs unique text column names, got {names!r}")
+    codecs = choose_codecs(frame) if compact else {}
+    work = frame.copy(deep=False)
+    encodings: dict[str, str] = {}
+    for name, codec in codecs.items():
+        work[name] = _encode_column(frame, name, codec)
+        encodings[name] = "DELTA_BINARY_PACKED" if codec.kind == "decimal" else "BYTE_STREAM_SPLIT"
+    table = pa.Table.from_pandas(work, preserve_index=True)
+    for column in table.schema.pandas_metadata.get("index_columns", []):
+        kind = table.schema.field(column).type if isinstance(column, str) else None
+        if kind is not None and (pa.types.is_timestamp(kind) or pa.types.is_int64(kind)):
+            encodings[column] = "DELTA_BINARY_PACKED"  # a regular grid is one repeated step
+    metadata = dict(table.schema.metadata or {})
+    freq = getattr(frame.index, "freqstr", None)
+    if freq:
+        metadata[FREQ_KEY] = freq.encode()
+    if codecs:
+        order = {name: codecs[name].as_json() for name in decode_order(codecs)}
+        metadata[CODECS_KEY] = json.dumps(order).encode()
+    table = table.replace_schema_metadata(metadata)
+    buffer = io.BytesIO()
+    pq.write_table(
+        table,
+        buffer,
+        compression="zstd",
+        use_dictionary=[c for c in table.column_names if c not in encodings],
+        column_encoding=encodings or None,
+    )
+    return buffer.getvalue()
+
+
+def decode_frame(data: bytes) -> pd.DataFrame:
+    """The frame ``encode_frame`` was given, exactly: values, dtypes, index, its frequency.
+    Also reads Parquet bytes written without codecs (plain ``pyarrow`` output)."""
+    table = pq.read_table(io.BytesIO(data))
+    metadata = table.schema.metadata or {}
+    frame = table.to_pandas()
+    codecs = json.loads(metadata[CODECS_KEY]) if CODECS_KEY in metadata else {}
+    for name, spec in codecs.items():  # stored in an order where references come first
+        frame[name] = _decode_column(frame, name, Codec.from_json(spec))
+    freq = metadata.get(FREQ_KEY)
+    if freq and isinstance(frame.index, pd.DatetimeIndex):
+        frame.index.freq = freq.decode()
+    return frame
+
+
+def choose_codecs(frame: pd.DataFrame) -> dict[str, Codec]:
+    """The smallest codec of each float64 column, formulas never forming a cycle.
+
+    Which column carries the information and which are formulas of it depends on the order
+    the columns choose in (``expected`` from ``lower``, or ``lower`` from ``expected``), so
+    a few orders are tried and the smallest total kept."""
+    floats = [c for c in frame.columns if frame[c].dtype == np.float64]
+    arrays = {c: np.ascontiguousarray(frame[c].to_numpy()) for c in floats}
+    lags = _grid_lags(frame.index)
+    own = {
+        name: min(
+            ((_size(arrays, name, c), c) for c in _own_codecs(arrays[name], lags)),
+            key=lambda t: t[0],
+        )
+        for name in floats
+    }
+    formulas = {
+        name: [(_size(arrays, name, c), c) for c in _formula_codecs(arrays, name, floats)]
+        for name in floats
+    }
+    by_size = sorted(floats, key=lambda c: own[c][0])
+    best: tuple[int, dict[str, Codec]] | None = None
+    for order in (by_size, by_size[::-1], floats):
+        total, chosen = _choose_in_order(order, own, formulas)
+        if best is None or total < best[0]:
+            best = (total, chosen)
+    return {name: best[1][name] for name in floats} if best else {}
+
+
+def _choose_in_order(
+    order: list[str],
+    own: dict[str, tuple[int, Codec]],
+    formulas: dict[str, list[tuple[int, Codec]]],
+) -> tuple[int, dict[str, Codec]]:
+    chosen: dict[str, Codec] = {}
+    total = 0
+    for name in order:
+        options = [(size, 0, codec) for size, codec in [own[name]]]
+        for size, codec in formulas[name]:
+            if any(name in _depends_on(ref, chosen) or ref == name for ref in codec.refs):
+                continue
+            # Equal sizes (exact formulas): prefer references already settled.
+            options.append((size, sum(ref not in chosen for ref in codec.refs), codec))
+        size, _, codec = min(options, key=lambda t: t[:2])
+        chosen[name] = codec
+        total += size
+    return total, chosen
+
+
+def decode_order(codecs: dict[str, Codec]) -> list[str]:
+    """Column names so that every formula's references come before it."""
+    done: list[str] = []
+
+    def visit(name: str) -> None:
+        if name in done or name not in codecs:
+            return
+        for ref in codecs[name].refs:
+            visit(ref)
+        done.append(name)
+
+    for name in codecs:
+        visit(name)
+    return done
+
+
+def _depends_on(name: str, chosen: dict[str, Codec]) -> set[str]:
+    seen: set[str] = set()
+    stack = [name]
+    while stack:
+        codec = chosen.get(stack.pop())
+        for ref in codec.refs if codec else ():
+            if ref not in seen:
+                seen.add(ref)
+                stack.append(ref)
+    return seen
+
+
+def _grid_lags(index: pd.Index) -> list[int]:
+    """Rows per day and per week when the index is a regular time grid."""
+    if not isinstance(index, pd.DatetimeIndex) or len(index) < 3:
+        return []
+    steps = np.diff(index.asi8)
+    if steps[0] <= 0 or not (steps == steps[0]).all():
+        return []
+    per_day = pd.Timedelta(days=1).value // int(steps[0]) if steps[0] else 0
+    return [lag for lag in (per_day, 7 * per_day) if 0 < lag < len(index)]
+
+
+def _own_codecs(x: np.ndarray, lags: list[int]) -> Iterator[Codec]:
+    yield Codec("raw")
+    yield Codec("previous")
+    yield Codec("linear")
+    for lag in lags:
+        yield Codec("lag", number=float(lag))
+    decimals = _decimals(x)
+    if decimals is not None:
+        yield Codec("decimal", number=float(decimals))
+
+
+def _decimals(x: np.ndarray) -> int | None:
+    """The fewest decimals ``d`` with ``x == rint(x * 10**d) / 10**d`` bit for bit, where
+    every missing value is the plain NaN; None when there is none up to MAX_DECIMALS."""
+    finite = np.isfinite(x)
+    missing = ~finite
+    if (np.isinf(x)).any() or (x.view(np.uint64)[missing] != _NAN_BITS).any():
+        return None
+    values = x[finite]
+    if (values == 0).any() and np.signbit(values[values == 0]).any():
+        return None
+    for d in range(MAX_DECIMALS + 1):
+        scale = 10.0**d
+        n = np.rint(values * scale)
+        if np.abs(n).max(initial=0) >= 2**53:
+            return None
+        if np.array_equal((n / scale).view(np.uint64), values.view(np.uint64)):
+            return d
+    return None
+
+
+_NAN_BITS = np.array([np.nan]).view(np.uint64)[0]
+
+
+def _formula_codecs(arrays: dict[str, np.ndarray], name: str, allowed: list[str]) -> list[Codec]:
+    """Sums, differences and scaled sums of two allowed columns that match most of a sample
+    of ``name`` exactly."""
+    x = arrays[name]
+    sample = np.flatnonzero(np.isfinite(x))[:SAMPLE_ROWS]
+    if not len(sample):
+        return []
+    xs = x[sample]
+    found: list[Codec] = []
+    for i, a in enumerate(allowed):
+        av = arrays[a][sample]
+        for b in allowed:
+            if b == a:
+                continue
+            bv = arrays[b][sample]
+            tries = [Codec("difference", (a, b))]
+            if allowed.index(b) > i:
+                tries.append(Codec("sum", (a, b)))
+            k = _scale_of(xs, av, bv)
+            if k is not None:
+                tries.append(Codec("scaled", (a, b), k))
+            for codec in tries:
+                if np.mean(_predict_formula(codec, av, bv) == xs) >= EXACT_SHARE:
+                    found.append(codec)
+    return found
+
+
+def _scale_of(x: np.ndarray, a: np.ndarray, b: np.ndarray) -> float | None:
+    """The constant ``k`` of ``x = a + k * b``, rounded to 12 significant digits."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        ratios = (x - a) / b
+    ratios = ratios[np.isfinite(ratios) & (b != 0)]
+    if not len(ratios):
+        return None
+    k = float(f"{float(np.median(ratios)):.12g}")
+    return k if k not in (0.0, 1.0, -1.0) else None
+
+
+def _predict_formula(codec: Codec, a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    with np.errstate(invalid="ignore", over="ignore"):
+        if codec.kind == "sum":
+            return a + b
+        if codec.kind == "difference":
+            return a - b
+        return a + codec.number * b
+
+
+def _own_words(x: np.ndarray, codec: Codec) -> np.ndarray:
+    """The stored words of an own-row codec: differences of the bit patterns taken as
+    integers (wrapping), zigzagged so small negative steps are small words too. Smooth
+    doubles of one sign and exponent have nearly evenly spaced bit patterns, so a line's
+    second difference is a few units; and unlike a float prediction, this one decodes with
+    cumulative sums instead of a loop."""
+    bits = x.view(np.int64)
+    if codec.kind == "raw":
+        return bits.view(np.uint64).copy()
+    if codec.kind == "lag":
+        steps = _diff(bits, int(codec.number))
+    else:
+        steps = _diff(bits, 1)
+        if codec.kind == "linear":
+            steps = _diff(steps, 1)
+    return ((steps << 1) ^ (steps >> 63)).view(np.uint64)
+
+
+def _undo_own(words: np.ndarray, codec: Codec) -> np.ndarray:
+    if codec.kind == "raw":
+        return words.view(np.float64).copy()
+    steps = ((words >> np.uint64(1)) ^ (np.uint64(0) - (words & np.uint64(1)))).view(np.int64)
+    if codec.kind == "lag":
+        bits = _cumsum(steps, int(codec.number))
+    else:
+        bits = _cumsum(steps, 1)
+        if codec.kind == "linear":
+            bits = _cumsum(bits, 1)
+    return bits.view(np.float64)
+
+
+def _diff(a: np.ndarray, lag: int) -> np.ndarray:
+    out = a.copy()
+    with np.errstate(over="ignore"):
+        out[lag:] = a[lag:] - a[:-lag]
+    return out
+
+
+def _cumsum(a: np.ndarray, lag: int) -> np.ndarray:
+    """Undoes ``_diff``: a running sum over every ``lag``-th row."""
+    n = len(a)
+    rows = -(-n // lag)
+    padded = np.zeros(rows * lag, dtype=np.int64)
+    padded[:n] = a
+    with np.errstate(over="ignore"):
+        return np.cumsum(padded.reshape(rows, lag), axis=0).reshape(-1)[:n]
+
+
+def _formula_words(arrays: dict[str, np.ndarray], name: str, codec: Codec) -> np.ndarray:
+    a, b = (arrays[r] for r in codec.refs)
+    guess = np.ascontiguousarray(_predict_formula(codec, a, b), dtype=np.float64)
+    return arrays[name].view(np.uint64) ^ guess.view(np.uint64)
+
+
+def _decimal_integers(x: np.ndarray, codec: Codec) -> np.ndarray:
+    return np.rint(np.nan_to_num(x) * 10.0**codec.number).astype(np.int64)
+
+
+def _encode_column(
+    frame: pd.DataFrame, name: str, codec: Codec
+) -> np.ndarray | pd.api.extensions.ExtensionArray:
+    x = np.ascontiguousarray(frame[name].to_numpy(), dtype=np.float64)
+    if codec.kind == "decimal":
+        return pd.arrays.IntegerArray(_decimal_integers(x, codec), np.isnan(x))
+    if codec.refs:
+        arrays = {r: np.ascontiguousarray(frame[r].to_numpy()) for r in codec.refs}
+        words = _formula_words({**arrays, name: x}, name, codec)
+    else:
+        words = _own_words(x, codec)
+    return words.view(np.int64)
+
+
+def _decode_column(frame: pd.DataFrame, name: str, codec: Codec) -> np.ndarray:
+    if codec.kind == "decimal":
+        stored = frame[name]
+        n = stored.to_numpy(dtype=np.float64, na_value=np.nan)
+        return np.where(stored.isna().to_numpy(), np.nan, n / 10.0**codec.number)
+    words = np.ascontiguousarray(frame[name].to_numpy(dtype=np.int64)).view(np.uint64)
+    if codec.refs:
+        a, b = (np.ascontiguousarray(frame[r].to_numpy(), dtype=np.float64) for r in codec.refs)
+        guess = np.ascontiguousarray(_predict_formula(codec, a, b), dtype=np.float64)
+        return (words ^ guess.view(np.uint64)).view(np.float64)
+    return _undo_own(words, codec)
+
+
+def _size(arrays: dict[str, np.ndarray], name: str, codec: Codec) -> int:
+    """Compressed size of a stretch of the column under ``codec``: byte planes through
+    zstd, about what Parquet's BYTE_STREAM_SPLIT with zstd writes."""
+    x = arrays[name]
+    if codec.kind == "decimal":
+        words = _own_words(_decimal_integers(x, codec).view(np.float64), Codec("previous"))
+    elif codec.refs:
+        words = _formula_words(arrays, name, codec)
+    else:
+        words = _own_words(x, codec)
+    middle = max(0, len(words) // 2 - SIZE_ROWS // 2)
+    stretch = words[middle : middle + SIZE_ROWS]
+    planes = np.ascontiguousarray(stretch.view(np.uint8).reshape(-1, 8).T)
+    return len(_ZSTD.compress(planes.tobytes(), asbytes=True))
