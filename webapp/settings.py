@@ -34,6 +34,25 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("MAX_IMPORT_MB", 200, "Largest metric file accepted, in megabytes."),
     Setting("DEFAULT_TOLERANCE", 3.0, "Band half-width in robust standard deviations."),
     Setting("DEFAULT_HISTORY_WEEKS", 6, "Weeks of history the expected band is rebuilt from."),
+    Setting(
+        "ALLOWED_HOSTS",
+        "",
+        "Host names the server answers to besides the loopback ones (localhost, 127.0.0.1, "
+        "::1), comma-separated; any other Host header is refused with 400.",
+    ),
+    Setting(
+        "ALLOW_REMOTE",
+        False,
+        "Let serve and demo listen on an address other people can reach; whyfired has no "
+        "sign-in, so anyone who reaches it can read and change every review.",
+    ),
+    Setting("SERVER_THREADS", 16, "Threads of the web server answering requests."),
+    Setting(
+        "HEAVY_WORKERS",
+        2,
+        "Analyses (Explain, peers, replay, export) that run at once; the rest wait their "
+        "turn, so light pages keep answering.",
+    ),
 )
 
 

@@ -226,6 +226,7 @@ def test_edit_and_delete(client, csrf, rule, watched, session) -> None:
     session.rollback()
     session.expire_all()
     assert store_rules.get_rule(session, rule.id).threshold == 250.0
+    session.commit()  # end the read: the app's next write needs the lock
     rule_id = rule.id
     assert client.post(f"/rules/{rule_id}/delete", data={"csrf_token": csrf}).status_code == 302
     session.rollback()

@@ -62,9 +62,9 @@ def test_a_reader_is_not_held_up_by_an_open_write_transaction(counter):
 
 
 def test_a_write_through_a_reading_session_is_refused_with_a_clear_error(counter):
-    with pytest.raises(db.WriteInReadingTransaction, match="reading session"):
-        with db.session_scope(counter, write=False) as session:
-            session.execute(text("UPDATE counter SET n = 7"))
+    refused = pytest.raises(db.WriteInReadingTransaction, match="reading session")
+    with refused, db.session_scope(counter, write=False) as session:
+        session.execute(text("UPDATE counter SET n = 7"))
     with db.session_scope(counter, write=False) as session:
         assert session.execute(text("SELECT n FROM counter")).scalar_one() == 0
 
