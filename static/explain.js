@@ -149,6 +149,13 @@
     }
   });
 
+  // A new request clears the messages a refused one left beside the fields.
+  document.addEventListener("htmx:beforeRequest", function () {
+    document.querySelectorAll(".field-error").forEach(function (slot) {
+      slot.textContent = "";
+    });
+  });
+
   // Keep the pushed address short: leave out the empty "leave out from/until" fields.
   document.addEventListener("htmx:configRequest", function (event) {
     if (event.detail.elt.id !== "controls") return;

@@ -14,7 +14,7 @@ pytestmark = pytest.mark.browser
 
 BEACONS = (
     "Graph from the vendor: ![beacon](http://198.51.100.7/pixel.png)\n\n"
-    "![second](https://198.51.100.7/track.gif \"title\") and <img src=http://198.51.100.7/raw.png>"
+    '![second](https://198.51.100.7/track.gif "title") and <img src=http://198.51.100.7/raw.png>'
 )
 VIOLATIONS = """
 window.__violations = [];
