@@ -51,11 +51,17 @@ def test_exported_html_makes_no_request_even_with_remote_images(page, demo_db_co
 
 
 @pytest.mark.slow
-def test_the_explain_screen_draws_under_the_policy(page, demo_live_server, screenshot):
+@pytest.mark.parametrize(
+    ("path", "figures"), [("/explain?series=1", 2), ("/rules/1", 2), ("/reviews/1", 1)]
+)
+def test_screens_draw_their_figures_under_the_policy(page, demo_live_server, path, figures):
     page.add_init_script(VIOLATIONS)
-    response = page.goto(demo_live_server.at("/explain?series=1"))
+    response = page.goto(demo_live_server.at(path))
     assert "script-src 'self'" in response.headers["content-security-policy"]
-    page.wait_for_function("() => document.querySelectorAll('svg.main-svg').length >= 2")
+    page.wait_for_function(
+        "n => document.querySelectorAll('.js-plotly-plot svg.main-svg').length >= n",
+        arg=figures,
+        timeout=60_000,
+    )
     page.wait_for_timeout(1000)  # let htmx panels and figures settle
     assert page.evaluate("() => window.__violations") == []
-    screenshot(page, "explain-under-policy")

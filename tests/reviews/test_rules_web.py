@@ -429,12 +429,12 @@ def test_a_noisy_band_rule_is_drafted_to_a_quieter_tolerance(client, session, no
 
 
 def replay_traces(text: str) -> list[dict]:
-    """The data of the replay figure as the page embeds it (plotly's ``newPlot`` call)."""
+    """The data of the replay figure as the page embeds it (the JSON beside its ``<div>``)."""
     import json
 
-    after = text.split('"replay-figure",', 1)[1].lstrip()
-    data, _ = json.JSONDecoder().raw_decode(after)
-    return data
+    after = text.split('id="replay-figure"', 1)[1].split('class="figure-data">', 1)[1]
+    figure, _ = json.JSONDecoder().raw_decode(after)
+    return figure["data"]
 
 
 def trace_values(trace: dict, axis: str) -> np.ndarray:

@@ -62,6 +62,15 @@ def figure_json(fig: go.Figure) -> Markup:
     return Markup(text.replace("&", "\\u0026").replace("<", "\\u003c").replace(">", "\\u003e"))
 
 
+def figure_embed(fig: go.Figure, div_id: str) -> Markup:
+    """A figure for a page: an empty ``<div>`` and its JSON beside it, drawn by
+    static/explain.js, so the page needs no inline script."""
+    return Markup(
+        f'<div id="{div_id}" class="plot" data-figure></div>'
+        f'<script type="application/json" class="figure-data">{figure_json(fig)}</script>'
+    )
+
+
 _explanations = Recent(CACHE_SIZE)
 _points = Recent(2)  # moving a control re-explains without reading the points again
 

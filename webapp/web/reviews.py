@@ -18,6 +18,7 @@ from webapp.store import reviews as store
 from webapp.store.models import AlertRule, Explanation, Page, Review
 from webapp.store.reviews import ReviewInvalid
 from webapp.web import export, filters
+from webapp.web.evidence import figure_embed
 from webapp.web.htmx import render
 from webapp.web.markdown import render_markdown
 
@@ -117,7 +118,7 @@ def _show(
     session = db.get_session()
     evidence = export.review_evidence(session, review, TZ)
     for item in evidence:
-        item.html = [(name, export.figure_div(fig, f"fig-{item.number}-{name}", False))
+        item.html = [(name, figure_embed(fig, f"fig-{item.number}-{name}"))
                      for name, fig in item.figures]  # fmt: skip
     attached = {a.explanation_id for a in review.attachments}
     available = [

@@ -27,7 +27,7 @@ from webapp.store import rules as store_rules
 from webapp.store import series as store_series
 from webapp.store.models import AlertRule
 from webapp.web import rule_figures
-from webapp.web.export import figure_div
+from webapp.web.evidence import figure_embed
 
 TZ = "UTC"
 
@@ -118,7 +118,7 @@ def run_replay(
     replay_fig = rule_figures.replay_figure(
         values, report.firings, incidents, threshold, info.unit, TZ, band=drawn_band
     )
-    figs = {"replay": figure_div(replay_fig, "replay-figure", False)}
+    figs = {"replay": figure_embed(replay_fig, "replay-figure")}
     level = rule_figures.level_column(sweep)
     current = (getattr(analysed, level), analysed.for_)
     drafted = None
@@ -127,9 +127,7 @@ def run_replay(
             draft.parameters[level],
             pd.Timedelta(seconds=draft.parameters["pending_seconds"]),
         )
-    figs["sweep"] = figure_div(
-        rule_figures.sweep_figure(sweep, current, drafted), "sweep-figure", False
-    )
+    figs["sweep"] = figure_embed(rule_figures.sweep_figure(sweep, current, drafted), "sweep-figure")
     return Replay(info, analysed, report, incidents, sweep, draft, figs, used, scope)
 
 
