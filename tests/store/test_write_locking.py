@@ -74,3 +74,13 @@ def test_a_get_request_reads_and_a_post_request_writes(app):
         assert db.get_session().get_bind().get_execution_options().get(db.READING_OPTION)
     with app.test_request_context("/", method="POST"):
         assert not db.get_session().get_bind().get_execution_options().get(db.READING_OPTION)
+
+
+def test_a_writing_request_reads_without_the_lock_inside_a_reading_phase(app):
+    def reading(session) -> bool:
+        return bool(session.get_bind().get_execution_options().get(db.READING_OPTION))
+
+    with app.test_request_context("/", method="POST"):
+        with db.reading_phase():
+            assert reading(db.get_session())
+        assert not reading(db.get_session())

@@ -14,7 +14,9 @@ Writes are the default and reads opt out, so a write path cannot forget the lock
 worst a missed opt-out costs is a reader waiting its turn. A write attempted in a reading
 transaction raises :class:`WriteInReadingTransaction` instead of failing under load.
 Web requests get a reading session for GET and HEAD and a writing one otherwise
-(:func:`get_session`). On other dialects all of this is a no-op.
+(:func:`get_session`); a writing request that computes for long before it writes does the
+computing inside :func:`reading_phase`, so it does not hold the lock meanwhile. On other
+dialects all of this is a no-op.
 """
 
 from __future__ import annotations
@@ -165,13 +167,37 @@ def get_session() -> Session:
     Views commit explicitly; whatever is left uncommitted is rolled back at teardown. A GET
     or HEAD request reads only; any other method (and work outside a request) may write.
     """
+    if g.get("db_reading_phase"):
+        if "db_read_session" not in g:
+            g.db_read_session = new_session(get_engine(), write=False)
+        return g.db_read_session
     if "db_session" not in g:
         write = not has_request_context() or request.method not in READING_METHODS
         g.db_session = new_session(get_engine(), write=write)
     return g.db_session
 
 
+@contextmanager
+def reading_phase() -> Iterator[None]:
+    """In a writing request: :func:`get_session` reads without the write lock in this block.
+
+    For the long computation before a short write (saving an explanation computes it
+    first). What is read here may change before the write; write only what does not
+    depend on it staying the same, or read it again after the block.
+    """
+    before = g.get("db_reading_phase", False)
+    g.db_reading_phase = True
+    try:
+        yield
+    finally:
+        g.db_reading_phase = before
+        reader = g.get("db_read_session")
+        if reader is not None and not before:
+            reader.rollback()  # let go of the snapshot
+
+
 def _close_session(_exc: BaseException | None = None) -> None:
-    session = g.pop("db_session", None)
-    if session is not None:
-        session.close()
+    for key in ("db_session", "db_read_session"):
+        session = g.pop(key, None)
+        if session is not None:
+            session.close()
