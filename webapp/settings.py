@@ -46,7 +46,11 @@ SETTINGS: tuple[Setting, ...] = (
         "Let serve and demo listen on an address other people can reach; whyfired has no "
         "sign-in, so anyone who reaches it can read and change every review.",
     ),
-    Setting("SERVER_THREADS", 16, "Threads of the web server answering requests."),
+    Setting(
+        "SERVER_THREADS",
+        32,
+        "Threads of the web server; analyses may hold all but a quarter of them.",
+    ),
     Setting(
         "HEAVY_WORKERS",
         2,

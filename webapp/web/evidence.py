@@ -45,6 +45,8 @@ class Evidence:
     explanation: Any = None  # the live analysis result, kept for "save explanation"
     errors: dict[str, str] = field(default_factory=dict)
     marks: list[tuple[pd.Timestamp, str]] = field(default_factory=list)
+    # The panels drawn from it, kept with it: cached evidence is drawn once, not per request.
+    drawn: dict[str, Panel] | None = field(default=None, repr=False, compare=False)
 
 
 @dataclass(frozen=True)
@@ -220,6 +222,8 @@ def build_figure(evidence: Evidence, name: str, view: Span | None = None) -> go.
 
 
 def build_panels(evidence: Evidence) -> dict[str, Panel]:
+    if evidence.drawn is not None:
+        return evidence.drawn
     panels = {}
     for name in PANELS:
         try:
@@ -231,4 +235,5 @@ def build_panels(evidence: Evidence) -> dict[str, Panel]:
             panels[name] = Panel(name, error="This figure could not be drawn; see the server log.")
         else:
             panels[name] = Panel(name, figure=payload, payload_bytes=len(payload))
+    evidence.drawn = panels
     return panels
