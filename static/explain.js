@@ -1,5 +1,6 @@
-/* whyfired Explain screen: draws the server-built plotly figures, fetches finer data when
-   the reader zooms in, and offers the zoomed range as the new window. */
+/* whyfired figures: draws the server-built plotly figures (Explain screen, reviews, rule
+   replays) from the JSON beside each, fetches finer data when the reader zooms in, and
+   offers the zoomed range as the new window. */
 (function () {
   "use strict";
 
@@ -12,6 +13,11 @@
   function readFigure(el) {
     var data = el.nextElementSibling;
     return JSON.parse(data.textContent);
+  }
+
+  function hasFigureData(el) {
+    var data = el.nextElementSibling;
+    return Boolean(data && data.classList.contains("figure-data"));
   }
 
   function xRange(event) {
@@ -93,7 +99,7 @@
   function draw(root) {
     var figures = root.querySelectorAll ? root.querySelectorAll("[data-figure]") : [];
     Array.prototype.forEach.call(figures, function (el) {
-      if (el.dataset.drawn) return;
+      if (el.dataset.drawn || !hasFigureData(el)) return;
       el.dataset.drawn = "1";
       var fig;
       try {
@@ -147,6 +153,22 @@
       var out = document.getElementById("tolerance-out");
       if (out) out.textContent = event.target.value;
     }
+  });
+
+  // A control other than a typed time re-explains at once (a page's policy allows no
+  // inline event filter, so the filtering is done here).
+  document.addEventListener("change", function (event) {
+    var form = event.target.form;
+    if (form && form.id === "controls" && !event.target.classList.contains("manual")) {
+      htmx.trigger(form, "controls-changed");
+    }
+  });
+
+  // A new request clears the messages a refused one left beside the fields.
+  document.addEventListener("htmx:beforeRequest", function () {
+    document.querySelectorAll(".field-error").forEach(function (slot) {
+      slot.textContent = "";
+    });
   });
 
   // Keep the pushed address short: leave out the empty "leave out from/until" fields.

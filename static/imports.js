@@ -55,8 +55,9 @@
         results.appendChild(note);
       }
     });
-    form.addEventListener("htmx:afterRequest", function () {
+    form.addEventListener("htmx:afterRequest", function (event) {
       if (progress) progress.value = 0;
+      if (event.detail.successful) form.reset();
     });
     form.addEventListener("htmx:sendError", function () {
       document.getElementById("import-results").textContent =

@@ -88,7 +88,7 @@ def demo_db_url(tmp_path_factory: pytest.TempPathFactory) -> str:
         db.upgrade(eng)
         with db.session_scope(eng) as s:
             load_demo(s, build_demo(seed=7))
-        with eng.connect() as conn:
+        with db.reading(eng).connect() as conn:  # a checkpoint cannot run under the write lock
             conn.exec_driver_sql("PRAGMA wal_checkpoint(TRUNCATE)")
     finally:
         eng.dispose()

@@ -179,16 +179,34 @@ def test_db_revision_writes_nothing_while_models_and_migrations_agree(runner):
     assert sorted(versions.glob("*.py")) == before
 
 
+class FakeServer:
+    def __init__(self, seen: dict):
+        self.seen = seen
+
+    def run(self):
+        self.seen["ran"] = True
+
+    def close(self):
+        self.seen["closed"] = True
+
+
 def test_serve_builds_the_app_on_the_chosen_database(runner, db_url, monkeypatch):
     seen = {}
 
-    def fake_run_simple(host, port, app, **kwargs):
-        seen.update(host=host, port=port, url=app.config["DATABASE_URL"])
+    def fake_create_server(app, host, port, threads, ident):
+        seen.update(host=host, port=port, url=app.app.config["DATABASE_URL"])
+        return FakeServer(seen)
 
-    monkeypatch.setattr("werkzeug.serving.run_simple", fake_run_simple)
+    monkeypatch.setattr("waitress.create_server", fake_create_server)
     result = runner.invoke(cli, ["serve", "--port", "5123", "--db", db_url])
     assert result.exit_code == 0, result.output
-    assert seen == {"host": "127.0.0.1", "port": 5123, "url": db_url}
+    assert seen == {
+        "host": "127.0.0.1",
+        "port": 5123,
+        "url": db_url,
+        "ran": True,
+        "closed": True,
+    }
     assert "http://127.0.0.1:5123/" in result.output
 
 
@@ -196,10 +214,18 @@ def test_serve_says_when_the_port_is_taken(runner, db_url, monkeypatch):
     def taken(*args, **kwargs):
         raise OSError(98, "Address already in use")
 
-    monkeypatch.setattr("werkzeug.serving.run_simple", taken)
+    monkeypatch.setattr("waitress.create_server", taken)
     result = runner.invoke(cli, ["serve", "--db", db_url])
     assert result.exit_code == 1
     assert "Address already in use" in result.output and "--port" in result.output
+
+
+@pytest.mark.parametrize("command", ["serve", "demo"])
+def test_a_non_loopback_address_is_refused_without_the_setting(runner, db_url, command):
+    result = runner.invoke(cli, [command, "--host", "0.0.0.0", "--db", db_url, "--replace"][:5])
+    assert result.exit_code == 1
+    assert "refusing to listen on 0.0.0.0" in result.output
+    assert "has no sign-in" in result.output and "WHYFIRED_ALLOW_REMOTE" in result.output
 
 
 def test_demo_refuses_a_database_that_holds_data(runner, db_url):

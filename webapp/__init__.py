@@ -41,8 +41,10 @@ def create_app(test_config: dict[str, Any] | None = None) -> Flask:
     app.config["MAX_CONTENT_LENGTH"] = int(app.config["MAX_IMPORT_MB"]) * 1024 * 1024 + 65536
 
     from webapp.store import db
-    from webapp.web import register_web
+    from webapp.web import refusals, register_web, security
 
+    security.init_app(app)
+    refusals.init_app(app)
     db.init_app(app)
     register_web(app)
     return app

@@ -92,19 +92,41 @@ def _max_bytes() -> int:
 
 
 def _serve(url: str, host: str, port: int) -> None:
-    from werkzeug.serving import run_simple
-
     from webapp import create_app
+    from webapp.serve import RemoteAddressRefused, address_for_people, make_server
 
     with _database_errors(url):
         app = create_app({"DATABASE_URL": url})
-    click.echo(f"whyfired is at http://{host}:{port}/ (press Ctrl+C to stop)")
     try:
-        run_simple(host, port, app, threaded=True)
+        server = make_server(app, host, port)
+    except RemoteAddressRefused as refusal:
+        raise click.ClickException(str(refusal)) from None
     except OSError as err:
         raise click.ClickException(
             f"cannot listen on {host}:{port} ({err.strerror or err}); choose another --port"
         ) from None
+    click.echo(f"whyfired is at {address_for_people(host, port)} (press Ctrl+C to stop)")
+    try:
+        server.run()
+    except KeyboardInterrupt:
+        pass
+    finally:
+        server.close()
+
+
+def _refuse_remote_early(host: str) -> None:
+    """Refuse a non-loopback address before minutes of work, with the same rule as serving."""
+    from flask import Config
+
+    from webapp.serve import RemoteAddressRefused, check_address
+
+    config = Config(".")
+    config.update(settings.defaults())
+    config.from_prefixed_env("WHYFIRED")
+    try:
+        check_address(host, bool(config["ALLOW_REMOTE"]))
+    except RemoteAddressRefused as refusal:
+        raise click.ClickException(str(refusal)) from None
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
@@ -290,6 +312,8 @@ def demo(
     from webapp.demo import build_demo
     from webapp.services.demo import load_demo
 
+    if not no_serve:
+        _refuse_remote_early(host)
     chosen = db_url or os.environ.get("WHYFIRED_DATABASE_URL")
     url = _announce(chosen or demo_database_url())
     with _database_errors(url):

@@ -37,6 +37,29 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("MAX_WINDOW_WEEKS", 4, "Longest window the Explain screen explains, in weeks."),
     Setting("MAX_SWEEP_LEVELS", 40, "Most thresholds (or tolerances) one what-if sweep may try."),
     Setting("MAX_SWEEP_HOLDS", 12, "Most holds one what-if sweep may try."),
+    Setting(
+        "ALLOWED_HOSTS",
+        "",
+        "Host names the server answers to besides the loopback ones (localhost, 127.0.0.1, "
+        "::1), comma-separated; any other Host header is refused with 400.",
+    ),
+    Setting(
+        "ALLOW_REMOTE",
+        False,
+        "Let serve and demo listen on an address other people can reach; whyfired has no "
+        "sign-in, so anyone who reaches it can read and change every review.",
+    ),
+    Setting(
+        "SERVER_THREADS",
+        32,
+        "Threads of the web server; analyses may hold all but a quarter of them.",
+    ),
+    Setting(
+        "HEAVY_WORKERS",
+        2,
+        "Analyses (Explain, peers, replay, export) that run at once; the rest wait their "
+        "turn, so light pages keep answering.",
+    ),
 )
 
 

@@ -83,6 +83,7 @@ def test_editor_autosaves_and_keeps_typed_text(page, live_server, draft, session
     session.rollback()
     session.expire_all()
     assert session.get(Review, draft.id).summary == "Typed in the browser, saved by itself."
+    session.commit()  # end the read: the app's next write needs the lock
 
     page.fill("#f-lessons", "A lesson typed just before a mistake.")
     page.fill("#f-title", "")

@@ -99,7 +99,7 @@ def test_savepoints_roll_back_only_their_part(engine):
 def test_app_builds_one_engine_and_a_session_per_request(app):
     engine = db.get_engine(app)
     assert db.current_revision(engine) is not None
-    with app.test_request_context():
+    with app.test_request_context(method="POST"):
         first = db.get_session()
         assert db.get_session() is first
         first.add(Series(key="uncommitted", metric="uncommitted", labels={}))

@@ -155,6 +155,7 @@ def test_timeline_entry_and_one_from_a_fact(client, csrf, review, make_explanati
     exp = make_explanation()
     store_attachments.attach_explanation(session, review, exp.id)
     session.commit()
+    exp_id = exp.id
     ok = post(client, f"/reviews/{review.id}/timeline", csrf, at="2026-11-30T14:20", text="Paged")
     assert ok.status_code == 302
     page = client.get(f"/reviews/{review.id}").text
@@ -171,8 +172,9 @@ def test_timeline_entry_and_one_from_a_fact(client, csrf, review, make_explanati
     session.expire_all()
     entries = session.get(Review, review.id).timeline
     assert [e.fact for e in entries] == ["first_outside", None]
+    session.commit()  # end the read: the app's next write needs the lock
     bad = post(
-        client, f"/reviews/{review.id}/timeline/fact", csrf, explanation_id=str(exp.id), fact="x"
+        client, f"/reviews/{review.id}/timeline/fact", csrf, explanation_id=str(exp_id), fact="x"
     )
     assert bad.status_code == 422 and "no time fact" in html.unescape(bad.text)
 
@@ -189,6 +191,7 @@ def test_attach_caption_move_detach(client, csrf, review, make_explanation, sess
     session.expire_all()
     attachments = session.get(Review, review.id).attachments
     second_id = attachments[1].id
+    session.commit()  # end the read: the app's next write needs the lock
     assert post(client, f"/reviews/{review.id}/attachments/{second_id}/move", csrf,
                 direction="up").status_code == 302  # fmt: skip
     post(client, f"/reviews/{review.id}/attachments/{second_id}/caption", csrf, caption="Band")
@@ -199,6 +202,7 @@ def test_attach_caption_move_detach(client, csrf, review, make_explanation, sess
         ("second", "Band"),
         ("first", ""),
     ]
+    session.commit()  # end the read: the app's next write needs the lock
     text = client.get(f"/reviews/{review.id}").text
     assert text.index("2. first") > text.index("1. Band")
     assert text.count('class="js-plotly-plot"') == 0 and text.count('data-figure="band"') == 2
@@ -221,6 +225,7 @@ def test_action_items(client, csrf, review, session) -> None:
     session.expire_all()
     item = session.get(Review, review.id).action_items[0]
     assert item.due_date == dt.date(2026, 12, 15)
+    session.commit()  # end the read: the app's next write needs the lock
     post(client, f"/reviews/{review.id}/actions/{item.id}", csrf, text="Warm it", state="done")
     session.rollback()
     session.expire_all()

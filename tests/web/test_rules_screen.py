@@ -227,6 +227,7 @@ def test_edit_and_delete(client, csrf, rule, watched, session) -> None:
     session.rollback()
     session.expire_all()
     assert store_rules.get_rule(session, rule.id).threshold == 250.0
+    session.commit()  # end the read: the app's next write needs the lock
     rule_id = rule.id
     assert client.post(f"/rules/{rule_id}/delete", data={"csrf_token": csrf}).status_code == 302
     session.rollback()
@@ -429,12 +430,12 @@ def test_a_noisy_band_rule_is_drafted_to_a_quieter_tolerance(client, session, no
 
 
 def replay_traces(text: str) -> list[dict]:
-    """The data of the replay figure as the page embeds it (plotly's ``newPlot`` call)."""
+    """The data of the replay figure as the page embeds it (the JSON beside its ``<div>``)."""
     import json
 
-    after = text.split('"replay-figure",', 1)[1].lstrip()
-    data, _ = json.JSONDecoder().raw_decode(after)
-    return data
+    after = text.split('id="replay-figure"', 1)[1].split('class="figure-data">', 1)[1]
+    figure, _ = json.JSONDecoder().raw_decode(after)
+    return figure["data"]
 
 
 def trace_values(trace: dict, axis: str) -> np.ndarray:

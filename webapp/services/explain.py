@@ -97,6 +97,8 @@ class Evidence:
     explanation: Any = None  # the live analysis result, kept for "save explanation"
     errors: dict[str, str] = field(default_factory=dict)
     marks: list[tuple[pd.Timestamp, str]] = field(default_factory=list)
+    # The panels drawn from it, kept with it: cached evidence is drawn once, not per request.
+    drawn: dict[str, Any] | None = field(default=None, repr=False, compare=False)
 
 
 _explanations = Recent(CACHE_SIZE)

@@ -3,6 +3,20 @@
 SQLite (the default) gets WAL journaling, foreign keys and a busy timeout on every
 connection, and explicit ``BEGIN``s so that transactions and savepoints behave as
 SQLAlchemy documents them. Any other SQLAlchemy URL is used as given.
+
+Write locking on SQLite. A deferred ``BEGIN`` that reads and later writes must upgrade
+its read snapshot to the write lock; in WAL mode SQLite refuses that at once with
+"database is locked" whenever another connection committed in between, however long the
+busy timeout. So every transaction on SQLite starts with ``BEGIN IMMEDIATE`` (takes the
+write lock first, waiting up to the busy timeout for it) unless it was opened through
+:func:`reading`, which keeps ``BEGIN`` deferred so readers never queue behind a writer.
+Writes are the default and reads opt out, so a write path cannot forget the lock: the
+worst a missed opt-out costs is a reader waiting its turn. A write attempted in a reading
+transaction raises :class:`WriteInReadingTransaction` instead of failing under load.
+Web requests get a reading session for GET and HEAD and a writing one otherwise
+(:func:`get_session`); a writing request that computes for long before it writes does the
+computing inside :func:`reading_phase`, so it does not hold the lock meanwhile. On other
+dialects all of this is a no-op.
 """
 
 from __future__ import annotations
@@ -14,14 +28,23 @@ from typing import Any
 
 from alembic import command
 from alembic.config import Config
-from flask import Flask, current_app, g
+from flask import Flask, current_app, g, has_request_context, request
 from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session
 
-BUSY_TIMEOUT_MS = 10_000
+# A write waits up to a minute for the lock rather than fail: a 1M-row import holds it for
+# the seconds its points take to write (benchmarks/bench_import.py), and waiting beats a
+# lost save. Past that, the web says the store stayed busy and shows the typed text back.
+BUSY_TIMEOUT_MS = 60_000
 CACHE_KIB = 65_536
 ENGINE_KEY = "whyfired_engine"
+READING_OPTION = "whyfired_reading"
+READING_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
+
+
+class WriteInReadingTransaction(RuntimeError):
+    """A write was sent through a session opened for reading (a programming error)."""
 
 
 def make_engine(url: str, **kwargs: Any) -> Engine:
@@ -57,7 +80,27 @@ def _configure_sqlite(engine: Engine, *, in_memory: bool) -> None:
 
     @event.listens_for(engine, "begin")
     def _on_begin(conn: Any) -> None:
-        conn.exec_driver_sql("BEGIN")
+        reading = conn.get_execution_options().get(READING_OPTION, False)
+        conn.exec_driver_sql("BEGIN" if reading else "BEGIN IMMEDIATE")
+
+    @event.listens_for(engine, "before_cursor_execute")
+    def _refuse_writes_when_reading(
+        conn: Any, _cursor: Any, statement: str, _params: Any, context: Any, _many: bool
+    ) -> None:
+        if not conn.get_execution_options().get(READING_OPTION, False):
+            return
+        verb = statement.lstrip().split(None, 1)[0].upper() if statement.strip() else ""
+        if verb in {"INSERT", "UPDATE", "DELETE", "REPLACE"} or (
+            context is not None and (context.isinsert or context.isupdate or context.isdelete)
+        ):
+            raise WriteInReadingTransaction(
+                "a write was sent through a reading session; open it with write=True"
+            )
+
+
+def reading(engine: Engine) -> Engine:
+    """``engine`` for read-only work: on SQLite its transactions begin deferred."""
+    return engine.execution_options(**{READING_OPTION: True})
 
 
 def alembic_config(connection: Any = None) -> Config:
@@ -90,14 +133,15 @@ def current_revision(engine: Engine) -> str | None:
         return MigrationContext.configure(connection).get_current_revision()
 
 
-def new_session(engine: Engine) -> Session:
-    return Session(engine, expire_on_commit=False)
+def new_session(engine: Engine, *, write: bool = True) -> Session:
+    """A session that may write (the default), or one that only reads (``write=False``)."""
+    return Session(engine if write else reading(engine), expire_on_commit=False)
 
 
 @contextmanager
-def session_scope(engine: Engine) -> Iterator[Session]:
+def session_scope(engine: Engine, *, write: bool = True) -> Iterator[Session]:
     """A session that commits when the block ends normally and rolls back on any error."""
-    session = new_session(engine)
+    session = new_session(engine, write=write)
     try:
         yield session
         session.commit()
@@ -123,14 +167,40 @@ def get_engine(app: Flask | None = None) -> Engine:
 def get_session() -> Session:
     """The current request's session, opened on first use and closed on teardown.
 
-    Views commit explicitly; whatever is left uncommitted is rolled back at teardown.
+    Views commit explicitly; whatever is left uncommitted is rolled back at teardown. A GET
+    or HEAD request reads only; any other method (and work outside a request) may write.
     """
+    if g.get("db_reading_phase"):
+        if "db_read_session" not in g:
+            g.db_read_session = new_session(get_engine(), write=False)
+        return g.db_read_session
     if "db_session" not in g:
-        g.db_session = new_session(get_engine())
+        write = not has_request_context() or request.method not in READING_METHODS
+        g.db_session = new_session(get_engine(), write=write)
     return g.db_session
 
 
+@contextmanager
+def reading_phase() -> Iterator[None]:
+    """In a writing request: :func:`get_session` reads without the write lock in this block.
+
+    For the long computation before a short write (saving an explanation computes it
+    first). What is read here may change before the write; write only what does not
+    depend on it staying the same, or read it again after the block.
+    """
+    before = g.get("db_reading_phase", False)
+    g.db_reading_phase = True
+    try:
+        yield
+    finally:
+        g.db_reading_phase = before
+        reader = g.get("db_read_session")
+        if reader is not None and not before:
+            reader.rollback()  # let go of the snapshot
+
+
 def _close_session(_exc: BaseException | None = None) -> None:
-    session = g.pop("db_session", None)
-    if session is not None:
-        session.close()
+    for key in ("db_session", "db_read_session"):
+        session = g.pop(key, None)
+        if session is not None:
+            session.close()

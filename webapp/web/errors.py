@@ -37,6 +37,11 @@ def _http_error(error: HTTPException) -> tuple[str, int]:
         )
     else:
         message = error.description or TITLES.get(status, "")
+    field = getattr(error, "field", None)
+    if field and is_htmx():
+        # The message goes into the form's slot beside that field; the results stay put.
+        body, status = render_error(status, message)
+        return body, status, {"HX-Retarget": f"#{field}-error", "HX-Reswap": "innerHTML"}
     return render_error(status, message)
 
 

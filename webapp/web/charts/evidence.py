@@ -32,6 +32,15 @@ def figure_json(fig: go.Figure) -> Markup:
     return Markup(text.replace("&", "\\u0026").replace("<", "\\u003c").replace(">", "\\u003e"))
 
 
+def figure_embed(fig: go.Figure, div_id: str) -> Markup:
+    """A figure for a page: an empty ``<div>`` and its JSON beside it, drawn by
+    static/explain.js, so the page needs no inline script."""
+    return Markup(
+        f'<div id="{div_id}" class="plot" data-figure></div>'
+        f'<script type="application/json" class="figure-data">{figure_json(fig)}</script>'
+    )
+
+
 def build_figure(evidence: Evidence, name: str, view: Span | None = None) -> go.Figure:
     """One panel's figure; raises ValueError when the evidence has nothing for it."""
     frame = evidence.frame
@@ -58,6 +67,8 @@ def build_figure(evidence: Evidence, name: str, view: Span | None = None) -> go.
 
 
 def build_panels(evidence: Evidence) -> dict[str, Panel]:
+    if evidence.drawn is not None:
+        return evidence.drawn
     panels = {}
     for name in PANELS:
         try:
@@ -69,4 +80,5 @@ def build_panels(evidence: Evidence) -> dict[str, Panel]:
             panels[name] = Panel(name, error="This figure could not be drawn; see the server log.")
         else:
             panels[name] = Panel(name, figure=payload, payload_bytes=len(payload))
+    evidence.drawn = panels
     return panels

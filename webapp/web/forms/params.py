@@ -10,6 +10,7 @@ from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 import pandas as pd
 from flask import abort, current_app
 from werkzeug.datastructures import MultiDict
+from werkzeug.exceptions import BadRequest
 
 from webapp.analysis import times
 from webapp.analysis.times import TIME_FORMAT_HELP
@@ -18,6 +19,16 @@ from webapp.services.explain import ExplainQuery, Span
 MIN_TOLERANCE = 0.5
 MAX_TOLERANCE = 20.0
 MIN_WEEKS, MAX_WEEKS = 1, 8
+# Times the store and the weeks of history before a window can both hold.
+EARLIEST, LATEST = pd.Timestamp("1900-01-01", tz="UTC"), pd.Timestamp("2200-01-01", tz="UTC")
+
+
+class FieldRefused(BadRequest):
+    """A 400 about one form field; an htmx form shows its message beside that field."""
+
+    def __init__(self, field: str, description: str):
+        super().__init__(description=description)
+        self.field = field
 
 
 def bad_request(message: str) -> None:
@@ -33,20 +44,30 @@ def parse_tz(text: str | None, default: str = "UTC") -> str:
     return name
 
 
-def parse_time(text: str | None, tz: str, what: str) -> pd.Timestamp:
+def parse_time(text: str | None, tz: str, what: str, field: str | None = None) -> pd.Timestamp:
     """A form time as a UTC Timestamp; a time without an offset is wall-clock time in ``tz``."""
+
+    def refuse(message: str) -> None:
+        raise FieldRefused(field, message) if field else BadRequest(description=message)
+
     raw = (text or "").strip()
     if not raw:
-        bad_request(f"The {what} is missing: give {TIME_FORMAT_HELP}.")
+        refuse(f"The {what} is missing: give {TIME_FORMAT_HELP}.")
     try:
-        return times.parse_time(raw, tz)
-    except ValueError:
-        bad_request(f"The {what} {raw!r} is not a time: give {TIME_FORMAT_HELP}.")
+        ts = times.parse_time(raw, tz)
+    except (ValueError, TypeError, OverflowError):
+        refuse(f"The {what} {raw!r} is not a time: give {TIME_FORMAT_HELP}.")
+    if not EARLIEST <= ts < LATEST:
+        refuse(
+            f"The {what} {raw!r} is out of range: give a time from {EARLIEST.year} "
+            f"to {LATEST.year - 1}."
+        )
+    return ts
 
 
 def parse_window(start: str | None, end: str | None, tz: str) -> Span:
-    first = parse_time(start, tz, "window start")
-    last = parse_time(end, tz, "window end")
+    first = parse_time(start, tz, "window start", "start")
+    last = parse_time(end, tz, "window end", "end")
     if first >= last:
         bad_request("The window must start before it ends.")
     weeks = int(current_app.config["MAX_WINDOW_WEEKS"])
@@ -142,8 +163,8 @@ def read_query(
 
 
 def parse_window_pair(start: str | None, end: str | None, tz: str) -> Span:
-    first = parse_time(start, tz, "excluded period start")
-    last = parse_time(end, tz, "excluded period end")
+    first = parse_time(start, tz, "excluded period start", "exclude_start")
+    last = parse_time(end, tz, "excluded period end", "exclude_end")
     if first >= last:
         bad_request("The excluded period must start before it ends.")
     return first, last

@@ -203,8 +203,9 @@ def live_figure(name: str) -> Response:
 def save() -> WerkzeugResponse:
     from webapp.store import explanations
 
-    series, query = current_query(request.form)
-    evidence = live(series, query)
+    with db.reading_phase():  # the analysis runs without holding the write lock
+        series, query = current_query(request.form)
+        evidence = live(series, query)
     if evidence.explanation is None:
         bad_request(evidence.errors.get("explain", "There is nothing to save."))
     title = (request.form.get("title") or "").strip()[:300] or f"{series.key} around the window"

@@ -26,6 +26,7 @@ from webapp.store import timeline as store_timeline
 from webapp.store.models import Review
 from webapp.store.reviews import ReviewInvalid
 from webapp.web import export, filters
+from webapp.web.charts.evidence import figure_embed
 from webapp.web.forms import reviews as review_forms
 from webapp.web.htmx import render
 from webapp.web.markdown import render_markdown
@@ -129,7 +130,7 @@ def _show(
     evidence = review_export.review_evidence(session, review, TZ)
     export.draw_evidence(evidence)
     for item in evidence:
-        item.html = [(name, export.figure_div(fig, f"fig-{item.number}-{name}", False))
+        item.html = [(name, figure_embed(fig, f"fig-{item.number}-{name}"))
                      for name, fig in item.figures]  # fmt: skip
     attached = {a.explanation_id for a in review.attachments}
     available = [

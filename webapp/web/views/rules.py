@@ -21,7 +21,7 @@ from webapp.store import series as store_series
 from webapp.store.models import AlertRule, Review
 from webapp.store.reviews import ReviewInvalid
 from webapp.web.charts import rules as rule_charts
-from webapp.web.export import figure_div
+from webapp.web.charts.evidence import figure_embed
 from webapp.web.forms import reviews as review_forms
 from webapp.web.forms.rules import (
     RuleFormInvalid,
@@ -187,8 +187,8 @@ def _figures(replay: Replay) -> dict[str, str]:
     )
     sweep_fig = rule_charts.sweep_figure(result.sweep, result.current, result.drafted)
     return {
-        "replay": figure_div(replay_fig, "replay-figure", False),
-        "sweep": figure_div(sweep_fig, "sweep-figure", False),
+        "replay": figure_embed(replay_fig, "replay-figure"),
+        "sweep": figure_embed(sweep_fig, "sweep-figure"),
     }
 
 
