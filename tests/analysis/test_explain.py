@@ -18,7 +18,8 @@ DOCUMENTED_FACTS = {
     "last_outside", "same_hour_start", "same_hour_end", "same_hour_value", "same_hour_weeks",
     "same_hour_rank", "same_hour_past_extreme", "same_hour_past_median", "same_hour_side",
     "confidence",
-    "confidence_reasons",
+    "confidence_reasons", "band_sides", "band_backtest_days", "band_coverage",
+    "band_coverage_nominal",
 }  # fmt: skip
 
 

@@ -16,6 +16,7 @@ import numpy as np
 import pandas as pd
 
 from ._band import BaselineFit, excluded_mask, fit_baseline
+from ._calibrate import nominal_coverage
 from ._checks import check_exclude, check_history, check_tolerance, check_window
 from ._clock import check_tz
 from ._decompose import period_label
@@ -211,6 +212,7 @@ def build_facts(
         "scale": number(fit.scale.overall) if fit else None,
         "scale_varies_by_hour": bool(fit is not None and fit.scale.hourly is not None),
         "window_samples": int(in_window["value"].notna().sum()),
+        **band_coverage_facts(fit, tolerance),
     }
     points = point_facts(in_window)
     facts.update(points)
@@ -219,3 +221,14 @@ def build_facts(
     facts["confidence"] = level
     facts["confidence_reasons"] = reasons
     return facts
+
+
+def band_coverage_facts(fit: BaselineFit | None, tolerance: float) -> dict[str, Any]:
+    """How the band's sides were set, and the share of held-out history it held."""
+    calibration = fit.calibration if fit else None
+    return {
+        "band_sides": None if fit is None else ("backtest" if calibration else "scale"),
+        "band_backtest_days": calibration.days if calibration else None,
+        "band_coverage": number(calibration.coverage(tolerance)) if calibration else None,
+        "band_coverage_nominal": nominal_coverage(tolerance),
+    }

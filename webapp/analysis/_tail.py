@@ -16,10 +16,11 @@ Choices, each our own unless cited:
 * Declustering: consecutive exceedances form one cluster and only its largest enters the
   fit (runs declustering, Coles 2001, section 5.3.2). A two-hour incident left in the history
   then weighs as one burst, not as 24 of them, so it cannot set the band on its own.
-* Estimator: probability-weighted moments (Hosking & Wallis 1987): closed form, no
-  optimiser, well behaved on a few hundred clusters; the shape is clipped to
-  [-0.5, 0.5] (`SHAPE_LIMIT`): heavier tails cannot be told apart from a few hundred values
-  and would make the band unbounded.
+* Estimator: matching the median and the 90th percentile of the cluster excesses
+  (`fit_pareto_quantiles`). Moment and likelihood fits let the single largest cluster (a
+  past incident far out) pull the shape up and widen the band; a percentile fit ignores the
+  top tenth of the clusters. The shape is clipped to [-0.5, 0.5] (`SHAPE_LIMIT`): heavier
+  tails cannot be told apart from a few hundred values and would make the band unbounded.
 * Rate: the share of all samples above the threshold, so that the quantile is per sample,
   as the nominal level is.
 """
@@ -50,19 +51,31 @@ class ParetoTail:
         return self.scale / self.shape * ((1 - p) ** -self.shape - 1)
 
 
-def fit_pareto_pwm(excesses: np.ndarray) -> ParetoTail:
-    """Generalised Pareto fit by probability-weighted moments (Hosking & Wallis 1987,
-    with plotting positions (i - 0.35) / n); shape clipped to +-`SHAPE_LIMIT`."""
-    x = np.sort(np.asarray(excesses, dtype=float))
-    n = len(x)
-    a0 = float(x.mean())
-    a1 = float(np.mean((1 - (np.arange(1, n + 1) - 0.35) / n) * x))
-    if a0 <= 0 or a0 - 2 * a1 <= 0:
-        return ParetoTail(0.0, max(a0, 0.0))
-    k = a0 / (a0 - 2 * a1) - 2  # Hosking & Wallis' k is minus the shape
-    shape = float(np.clip(-k, -SHAPE_LIMIT, SHAPE_LIMIT))
-    scale = a0 * (1 - shape)  # the mean excess is sigma / (1 - xi)
-    return ParetoTail(shape, scale)
+def fit_pareto_quantiles(excesses: np.ndarray) -> ParetoTail:
+    """Generalised Pareto fit that matches the median and the 90th percentile of the
+    excesses (a percentile-matching fit: Castillo & Hadi 1997 fit the Pareto this way).
+    For the distribution Q(p) = sigma / xi ((1 - p)^-xi - 1), so Q(0.9) / Q(0.5) =
+    (10^xi - 1) / (2^xi - 1), which rises with xi: xi is found by bisection, clipped to
+    +-`SHAPE_LIMIT`, then sigma from the median."""
+    x = np.asarray(excesses, dtype=float)
+    median, upper = np.quantile(x, [0.5, 0.9])
+    if median <= 0:
+        return ParetoTail(0.0, max(float(np.mean(x)), 0.0))
+    ratio = upper / median
+    lo, hi = -SHAPE_LIMIT, SHAPE_LIMIT
+    for _ in range(50):
+        mid = 0.5 * (lo + hi)
+        lo, hi = (mid, hi) if quantile_ratio(mid) < ratio else (lo, mid)
+    shape = 0.5 * (lo + hi)
+    scale = median * shape / (2**shape - 1) if abs(shape) > 1e-9 else median / np.log(2)
+    return ParetoTail(float(shape), float(scale))
+
+
+def quantile_ratio(shape: float) -> float:
+    """Q(0.9) / Q(0.5) of a generalised Pareto distribution of this shape."""
+    if abs(shape) < 1e-9:
+        return float(np.log(10) / np.log(2))
+    return float((10**shape - 1) / (2**shape - 1))
 
 
 def cluster_maxima(values: np.ndarray, threshold: float) -> np.ndarray:
@@ -93,5 +106,5 @@ def upper_quantile(values: np.ndarray, beyond: float) -> float:
     maxima = cluster_maxima(np.where(np.isfinite(values), values, -np.inf), threshold)
     if len(maxima) < MIN_CLUSTERS or rate <= beyond:
         return float(x.max())
-    tail = fit_pareto_pwm(maxima - threshold)
+    tail = fit_pareto_quantiles(maxima - threshold)
     return threshold + tail.quantile(1 - beyond / rate)
