@@ -53,6 +53,7 @@ HOURLY_MIN_RATIO = 1.25
 HOURLY_NOISE_Z = 5.0
 SCALE_FLOOR = 1e-9
 DAY = pd.Timedelta(days=1)
+SMALL_COUNT = 10  # a whole-number series whose median is at most this is read as counts
 EMPTY_BAND_COLUMNS = ("trend", "seasonal", "expected", "band_scale", "lower", "upper")
 
 
@@ -101,7 +102,7 @@ class Limits:
 
     lowest: float
     highest: float
-    counts: bool  # non-negative integers (errors per minute, requests)
+    counts: bool  # small non-negative integers (errors per minute), see `SMALL_COUNT`
     ratio: bool  # within [0, 1] and reaching above one half
     recent_mean: float  # over the last day: the rate a count band is read around
 
@@ -116,7 +117,7 @@ class Limits:
         return cls(
             lowest=lowest,
             highest=highest,
-            counts=bool(lowest >= 0 and np.all(x == np.round(x))),
+            counts=bool(lowest >= 0 and np.median(x) <= SMALL_COUNT and np.all(x == np.round(x))),
             ratio=bool(lowest >= 0 and 0.5 < highest <= 1),
             recent_mean=float(recent.mean()) if len(recent) else float(x.mean()),
         )

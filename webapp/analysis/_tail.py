@@ -12,6 +12,9 @@ Choices, each our own unless cited:
 * Where at least `MIN_BEYOND` errors lie beyond the wanted quantile, the empirical one is
   used, at the split-conformal rank ceil((n + 1)(1 - a)) (Angelopoulos & Bates 2021, section
   1.1), which keeps its finite-sample guarantee on exchangeable errors.
+* With fewer than `MIN_CLUSTERS` clusters there is no tail to fit: the same conformal rank
+  is read among the declustered values, so a couple of past bursts, each counted once, are
+  rarer than the nominal share and stay outside.
 * Threshold: the side's 95th percentile (`THRESHOLD_SHARE`), common practice.
 * Declustering: consecutive exceedances form one cluster and only its largest enters the
   fit (runs declustering, Coles 2001, section 5.3.2). A two-hour incident left in the history
@@ -93,18 +96,31 @@ def cluster_maxima(values: np.ndarray, threshold: float) -> np.ndarray:
 
 def upper_quantile(values: np.ndarray, beyond: float) -> float:
     """The value exceeded by a share `beyond` of `values` (in time order, NaN = missing):
-    conformal empirical rank where the data holds enough beyond it, else the Pareto tail."""
+    conformal empirical rank where the data holds enough beyond it, else the Pareto tail
+    of the declustered exceedances; with too few clusters to fit, the conformal rank among
+    the declustered values (each run of exceedances counted once)."""
     x = values[np.isfinite(values)]
-    n = len(x)
-    if n == 0:
+    if len(x) == 0:
         return float("nan")
-    rank = int(np.ceil((n + 1) * (1 - beyond)))
-    if n - rank + 1 >= MIN_BEYOND:
-        return float(np.partition(x, rank - 1)[rank - 1])
+    if conformal_rank(len(x), beyond) <= len(x) - MIN_BEYOND + 1:
+        return ranked(x, beyond)
     threshold = float(np.quantile(x, 1 - THRESHOLD_SHARE))
     rate = float(np.mean(x > threshold))
+    if rate <= beyond:
+        return threshold
     maxima = cluster_maxima(np.where(np.isfinite(values), values, -np.inf), threshold)
-    if len(maxima) < MIN_CLUSTERS or rate <= beyond:
-        return float(x.max())
+    if len(maxima) < MIN_CLUSTERS:
+        return ranked(np.concatenate([x[x <= threshold], maxima]), beyond)
     tail = fit_pareto_quantiles(maxima - threshold)
     return threshold + tail.quantile(1 - beyond / rate)
+
+
+def conformal_rank(n: int, beyond: float) -> int:
+    """Split-conformal rank ceil((n + 1)(1 - beyond)), 1-based (Angelopoulos & Bates 2021)."""
+    return int(np.ceil((n + 1) * (1 - beyond)))
+
+
+def ranked(x: np.ndarray, beyond: float) -> float:
+    """The value at the conformal rank, or the largest when the rank is past the end."""
+    rank = min(conformal_rank(len(x), beyond), len(x))
+    return float(np.partition(x, rank - 1)[rank - 1])
