@@ -30,7 +30,7 @@ from ._facts import (
 from ._grid import Agg, as_utc_series, check_step, find_gaps, infer_step, regularize
 from ._sentences import sentences
 
-ENGINE_VERSION = "1.0.0"
+ENGINE_VERSION = "2.0.0"  # 2: sides calibrated on a backtest; the last day's level
 DEFAULT_HISTORY = pd.Timedelta(weeks=6)
 BAND_COLUMNS = ("expected", "lower", "upper", "trend", "seasonal", "band_scale")
 
@@ -67,7 +67,8 @@ def explain(
 ) -> Explanation:
     """Rebuild what `series` was expected to do in `window` from `history` before it.
 
-    `tolerance` is the band's half-width in robust standard deviations; `exclude` lists
+    `tolerance` is the band's width as a two-sided normal-equivalent level (3 asks for
+    99.73% inside; the sides are calibrated on the history, see `_calibrate`); `exclude` lists
     (start, end) spans left out of the baseline; `tz` is the wall clock the seasonal cycles
     follow; `agg` how points sharing a grid slot combine ("sum" for counts); `unit` is
     used in the sentences; `step` forces the grid step (inferred by default).
