@@ -26,9 +26,9 @@ Methods, all on the grid whyfired's explain() puts the data on:
 * whyfired: `explain()` as the Explain screen calls it;
 * seasonal naive: the value one day earlier (whole days back, so the window is never
   used), +- 3 robust sds (MAD x 1.4826) of the history's day-over-day differences;
-* STL + MAD: statsmodels STL(period = one day, robust=True) on the history with gaps
-  interpolated; the last trend value plus the last cycle's seasonal, +- 3 robust sds of
-  STL's residual.
+* STL + MAD: statsmodels STL(period = one day, robust=True, every smoother's jump 10% of
+  its span, as in bench_explain.py) on the history with gaps interpolated; the last trend
+  value plus the last cycle's seasonal, +- 3 robust sds of STL's residual.
 
 Bars: at most 5 stretches per week, at most 1% of normal samples outside, recall at least
 0.90, AUC at least 0.85 (all for whyfired; the other two are printed for comparison).
@@ -41,6 +41,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import math
 import sys
 import time
 from collections.abc import Callable
@@ -118,12 +119,28 @@ def stl_mad(values: np.ndarray, in_window: np.ndarray, step: pd.Timedelta) -> Ba
     n_window = int(in_window.sum())
     if len(history) < 2 * per_day or not np.isfinite(history).all():
         return (np.full(n_window, np.nan),) * 3
-    fit = STL(history, period=per_day, robust=True).fit()
+    seasonal, trend = 7, stl_trend_span(per_day)
+    fit = STL(
+        history,
+        period=per_day,
+        seasonal=seasonal,
+        trend=trend,
+        robust=True,
+        seasonal_jump=math.ceil(0.1 * seasonal),
+        trend_jump=math.ceil(0.1 * trend),
+        low_pass_jump=math.ceil(0.1 * (per_day + 1)),
+    ).fit()
     ahead = np.arange(n_window)
     seasonal = fit.seasonal[len(history) - per_day + ahead % per_day]
     expected = fit.trend[-1] + seasonal
     scale = robust_scale(fit.resid)
     return expected, expected - TOLERANCE * scale, expected + TOLERANCE * scale
+
+
+def stl_trend_span(period: int, seasonal: int = 7) -> int:
+    """STL's default trend span for this period and seasonal span (odd)."""
+    span = math.ceil(1.5 * period / (1 - 1.5 / seasonal))
+    return span + (span % 2 == 0)
 
 
 def grid_and_whyfired(series: pd.Series, start: pd.Timestamp, end: pd.Timestamp):
@@ -229,7 +246,8 @@ def in_any(index: pd.DatetimeIndex, windows) -> np.ndarray:
 def evaluate(items: list[Labelled], names: list[str]) -> dict[str, dict[str, Tally]]:
     """{group: {method: Tally}} for the groups cloud_hosts and traffic."""
     tallies: dict[str, dict[str, Tally]] = {}
-    for item in items:
+    for number, item in enumerate(items, 1):
+        print(f"  [{number}/{len(items)}] {item.name}", file=sys.stderr, flush=True)
         group = item.name.split("/")[0]
         per_method = tallies.setdefault(group, {m: Tally() for m in names})
         series = item.series
