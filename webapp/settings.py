@@ -32,7 +32,11 @@ SETTINGS: tuple[Setting, ...] = (
         "else a SQLite file in the user's data directory.",
     ),
     Setting("MAX_IMPORT_MB", 200, "Largest metric file accepted, in megabytes."),
-    Setting("DEFAULT_TOLERANCE", 3.0, "Band half-width in robust standard deviations."),
+    Setting(
+        "DEFAULT_TOLERANCE",
+        3.0,
+        "Band width as a normal-equivalent level: 3 holds 99.73% of normal samples.",
+    ),
     Setting("DEFAULT_HISTORY_WEEKS", 6, "Weeks of history the expected band is rebuilt from."),
     Setting("MAX_WINDOW_WEEKS", 4, "Longest window the Explain screen explains, in weeks."),
     Setting("MAX_SWEEP_LEVELS", 40, "Most thresholds (or tolerances) one what-if sweep may try."),

@@ -48,4 +48,6 @@ def test_given_periods_skip_detection():
     assert fit.periods == [pd.Timedelta("1D")]
     assert [c.reason for c in fit.candidates] == ["given"]
     band = fit.band(index[-10:] + pd.Timedelta("1D"), tolerance=2.0)
-    np.testing.assert_allclose(band["upper"] - band["lower"], 4 * band["band_scale"])
+    assert fit.calibration is not None  # ten days: the sides come from the backtest
+    sides = (band["upper"] - band["lower"]) / band["band_scale"]
+    assert sides.between(3.4, 4.6).all()  # unit normal noise: +-2 sd is about 4 sds wide

@@ -18,7 +18,8 @@ DOCUMENTED_FACTS = {
     "last_outside", "same_hour_start", "same_hour_end", "same_hour_value", "same_hour_weeks",
     "same_hour_rank", "same_hour_past_extreme", "same_hour_past_median", "same_hour_side",
     "confidence",
-    "confidence_reasons",
+    "confidence_reasons", "band_sides", "band_backtest_days", "band_coverage",
+    "band_coverage_nominal",
 }  # fmt: skip
 
 
@@ -49,7 +50,15 @@ def test_frame_has_the_contract_columns_and_grid(incident):
     assert f["in_window"].sum() == 288 and f["outside"].dtype == bool
     np.testing.assert_allclose(f["seasonal"], f["seasonal_1d"] + f["seasonal_7d"])
     np.testing.assert_allclose(f["expected"], f["trend"] + f["seasonal"])
-    np.testing.assert_allclose(f["upper"] - f["expected"], 3 * f["band_scale"])
+    # The sides are calibrated quantiles of the forecast errors, each on its own; on Gaussian
+    # noise each lies near 3 robust sds of the residual, except where the lower side stops
+    # at the smallest value the history took.
+    lowest = f["value"][~f["in_window"]].min()
+    floored = f["lower"] == lowest
+    width = (f["upper"] - f["expected"]) / f["band_scale"]
+    depth = (f["expected"] - f["lower"]) / f["band_scale"]
+    assert width.between(2.4, 3.6).all() and depth[~floored].between(2.4, 3.6).all()
+    assert (f["lower"] >= lowest).all() and floored.mean() < 0.05
     assert exp.step == pd.Timedelta("5min") and exp.periods == [pd.Timedelta("1D"), WEEK]
     assert exp.window == window and exp.engine_version == ENGINE_VERSION
     assert exp.confidence == "high"

@@ -8,16 +8,27 @@ This is the API for anything that needs "fit on this history, forecast on that g
 
 or in one call from raw points, `expected_band(history, grid_index, tolerance=3.0)`.
 
-The scale is the robust standard deviation (MAD x 1.4826) of the hold-out residual (each
-cycle scored against the seasonal pattern of the other cycles, see `Decomposition`), i.e. of
-the error a forecast makes, not of the smaller in-sample residual. It may
-vary with the hour of day (quieter nights): each wall-clock hour gets its own robust scale,
-shrunk toward the overall one with the weight of `HOURLY_PRIOR_SAMPLES` samples, so thin
-hours stay near the overall scale. The hourly profile is used only when it differs clearly:
-its highest hour is at least 1.25 times its lowest and beyond what sampling noise of the
-MAD gives (exp(5 / sqrt(n)) for n residuals per hour). Between hour centres the scale is
-interpolated, so the band has no steps. Both rules are our choice. A metric that never moves
-gets a scale of a billionth of its level rather than zero.
+Inside the window the forecast is the seasonal pattern plus the level of the last day of
+history (see `_calibrate`); over the history the band follows the fitted decomposition.
+
+The scale (`band_scale`) is the robust standard deviation (MAD x 1.4826) of the hold-out
+residual (each cycle scored against the seasonal pattern of the other cycles, see
+`Decomposition`). It may vary with the hour of day (quieter nights): each wall-clock hour
+gets its own robust scale, shrunk toward the overall one with the weight of
+`HOURLY_PRIOR_SAMPLES` samples, so thin hours stay near the overall scale. The hourly
+profile is used only when it differs clearly: its highest hour is at least 1.25 times its
+lowest and beyond what sampling noise of the MAD gives (exp(5 / sqrt(n)) for n residuals
+per hour). Between hour centres the scale is interpolated, so the band has no steps. Both
+rules are our choice. A metric that never moves gets a scale of a billionth of its level
+rather than zero.
+
+The sides are not +-tolerance x scale but calibrated out of sample: the quantiles, in units
+of the scale, of the errors a rolling-origin backtest made forecasting the last days of the
+history (`_calibrate`, `_tail`), each side on its own. Only when the history is too short
+to backtest (under two days) are they +-tolerance x scale. `Limits` keeps the band within
+what the metric can take: counts stay whole and non-negative, a ratio stays in [0, 1], and
+nothing expected or lower falls below the smallest value the history took when that is
+>= 0.
 """
 
 from __future__ import annotations
@@ -27,10 +38,12 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
+from scipy.stats import poisson
 
+from ._calibrate import Calibration, backtest_errors, beyond_share, calibrate, recent_level
 from ._checks import check_exclude, check_history, check_tolerance
 from ._clock import DAY_NS, HOUR_NS, check_tz, wall_clock_ns
-from ._decompose import Decomposition, decompose
+from ._decompose import Decomposition, decompose, others
 from ._grid import Agg, as_utc_series, infer_step, regularize, to_utc
 from ._periods import Candidate, select_periods
 from ._robust import band_scale_estimate, grouped_robust_scale
@@ -39,6 +52,8 @@ HOURLY_PRIOR_SAMPLES = 50
 HOURLY_MIN_RATIO = 1.25
 HOURLY_NOISE_Z = 5.0
 SCALE_FLOOR = 1e-9
+DAY = pd.Timedelta(days=1)
+SMALL_COUNT = 10  # a whole-number series whose median is at most this is read as counts
 EMPTY_BAND_COLUMNS = ("trend", "seasonal", "expected", "band_scale", "lower", "upper")
 
 
@@ -81,24 +96,100 @@ def fit_scale(
 
 
 @dataclass(frozen=True)
+class Limits:
+    """What the history says about the metric's range: the band never leaves it where the
+    metric cannot (see `bound`)."""
+
+    lowest: float
+    highest: float
+    counts: bool  # small non-negative integers (errors per minute), see `SMALL_COUNT`
+    ratio: bool  # within [0, 1] and reaching above one half
+    recent_mean: float  # over the last day: the rate a count band is read around
+
+    @classmethod
+    def of(cls, values: np.ndarray, span: int) -> Limits:
+        x = values[np.isfinite(values)]
+        if not len(x):
+            return cls(np.nan, np.nan, False, False, np.nan)
+        lowest, highest = float(x.min()), float(x.max())
+        recent = values[-span:]
+        recent = recent[np.isfinite(recent)]
+        return cls(
+            lowest=lowest,
+            highest=highest,
+            counts=bool(lowest >= 0 and np.median(x) <= SMALL_COUNT and np.all(x == np.round(x))),
+            ratio=bool(lowest >= 0 and 0.5 < highest <= 1),
+            recent_mean=float(recent.mean()) if len(recent) else float(x.mean()),
+        )
+
+    def clip_expected(self, expected: np.ndarray) -> np.ndarray:
+        """The expected value stays within the range the metric has taken."""
+        if not np.isfinite(self.lowest):
+            return expected
+        return np.clip(expected, self.lowest, self.highest)
+
+    def bound(
+        self, lower: np.ndarray, upper: np.ndarray, expected: np.ndarray, tolerance: float
+    ) -> tuple[np.ndarray, np.ndarray]:
+        """Sides that respect the metric's scale. Counts: whole numbers, at least the Poisson
+        quantiles around the expected rate (or the last day's mean rate, if higher), and one
+        count above the expected value is never outside (our rule: a single 0 -> 1 blip is
+        not news). Never below the smallest value taken when that is >= 0; a ratio's upper
+        side never above 1."""
+        if self.counts:
+            beyond = beyond_share(tolerance)
+            rate = np.maximum(np.nan_to_num(np.maximum(expected, self.recent_mean)), 1e-12)
+            upper = np.fmax(np.ceil(upper), poisson.isf(beyond, rate))
+            upper = np.fmax(upper, np.floor(expected) + 1)
+            lower = np.fmin(np.floor(lower), poisson.ppf(beyond, rate))
+        if self.lowest >= 0:
+            lower = np.maximum(lower, self.lowest)
+        if self.ratio:
+            upper = np.minimum(upper, 1.0)
+        return lower, upper
+
+
+@dataclass(frozen=True)
 class BaselineFit:
-    """Decomposition plus scale, fitted on a baseline; `band` evaluates them on a grid."""
+    """Decomposition, level, scale and calibration fitted on a baseline; `band` evaluates
+    them on a grid. Times after `end` are forecast: seasonal pattern plus `level`."""
 
     decomposition: Decomposition
     scale: ScaleModel
     candidates: list[Candidate]
+    level: float
+    end: pd.Timestamp
+    limits: Limits
+    calibration: Calibration | None
 
     @property
     def periods(self) -> list[pd.Timedelta]:
         return list(self.decomposition.periods)
 
     def band(self, index: pd.DatetimeIndex, tolerance: float = 3.0) -> pd.DataFrame:
-        """Columns: trend, seasonal_<label>..., seasonal, expected, band_scale, lower, upper."""
+        """Columns: trend, seasonal_<label>..., seasonal, expected, band_scale, lower, upper.
+
+        `band_scale` is the robust sd of the forecast errors at each time (hour of day);
+        the sides are expected + the calibrated quantiles times it, so they may differ."""
         out = self.decomposition.components(index)
-        out["expected"] = out["trend"] + out["seasonal"]
-        out["band_scale"] = self.scale.at(index)
-        out["lower"] = out["expected"] - tolerance * out["band_scale"]
-        out["upper"] = out["expected"] + tolerance * out["band_scale"]
+        ahead = np.asarray(index > self.end)
+        seasonal = out["seasonal"].to_numpy()
+        trend = np.where(ahead, self.level, out["trend"].to_numpy())
+        expected = self.limits.clip_expected(trend + seasonal)
+        out["trend"] = expected - seasonal  # the trend absorbs any clipping
+        out["expected"] = expected
+        scale = self.scale.at(index)
+        out["band_scale"] = scale
+        low, high = (
+            self.calibration.quantiles(tolerance)
+            if self.calibration is not None
+            else (-tolerance, tolerance)
+        )
+        lower, upper = self.limits.bound(
+            expected + low * scale, expected + high * scale, expected, tolerance
+        )
+        out["lower"] = lower
+        out["upper"] = upper
         return out
 
 
@@ -110,20 +201,69 @@ def fit_baseline(
 ) -> BaselineFit:
     """Fit on a regular-grid baseline (NaN = gap, excluded or not to be used).
 
-    `periods=None` detects them (see `_periods`); a list uses exactly those periods.
+    `periods=None` detects them (see `_periods`) and keeps them only when they forecast
+    the backtest days better than a plain level; a list uses exactly those periods.
     """
+    y = baseline.to_numpy(dtype=float)
+    span = samples_per_day(baseline.index)
     if periods is None:
         decomposition, candidates = select_periods(baseline, tz)
+        if decomposition.periods:
+            decomposition = earn_periods(decomposition, candidates, baseline, span)
     else:
         chosen = sorted(pd.Timedelta(p) for p in periods)
         decomposition = decompose(baseline, chosen, tz=tz)
         candidates = [Candidate(p, "given", kept=True, reason="given") for p in chosen]
+    level = recent_level(y - others(decomposition.fitted_seasonals, -1, len(y)), len(y), span)
+    typical = float(np.nanmedian(np.abs(y))) if np.isfinite(y).any() else 0.0
     holdout = decomposition.holdout
     if not np.isfinite(holdout).any():
-        holdout = baseline.to_numpy() - decomposition.fitted
-    level = float(np.nanmedian(np.abs(baseline))) if baseline.notna().any() else 0.0
-    scale = fit_scale(holdout, baseline.index, tz, level)
-    return BaselineFit(decomposition, scale, candidates)
+        holdout = y - decomposition.fitted
+    scale = fit_scale(holdout, baseline.index, tz, typical)
+    errors, days = backtest_errors(held_out_deseasonalised(decomposition, y), span)
+    calibration = calibrate(errors, scale.at(baseline.index), days)
+    end = baseline.index[-1] if len(baseline) else pd.Timestamp.min.tz_localize("UTC")
+    return BaselineFit(
+        decomposition, scale, candidates, level, end, Limits.of(y, span), calibration
+    )
+
+
+def samples_per_day(index: pd.DatetimeIndex) -> int:
+    step = index[1] - index[0] if len(index) > 1 else DAY
+    return max(1, round(DAY / step))
+
+
+def held_out_deseasonalised(decomposition: Decomposition, y: np.ndarray) -> np.ndarray:
+    """The values minus a seasonal pattern fitted without their own cycle (in-sample when
+    there is only one cycle)."""
+    if np.isfinite(decomposition.holdout).any():
+        return decomposition.holdout + decomposition.fitted_trend
+    return y - others(decomposition.fitted_seasonals, -1, len(y))
+
+
+def earn_periods(
+    decomposition: Decomposition, candidates: list[Candidate], baseline: pd.Series, span: int
+) -> Decomposition:
+    """The decomposition, or one without periods when a plain level forecast the backtest
+    days at least as well (mean absolute error): a cycle has to earn its place out of
+    sample, not only by its strength."""
+    y = baseline.to_numpy(dtype=float)
+    seasonal, days = backtest_errors(held_out_deseasonalised(decomposition, y), span)
+    plain, _ = backtest_errors(y, span)
+    both = np.isfinite(seasonal) & np.isfinite(plain)
+    if not days or not both.any():
+        return decomposition
+    with_cycles, without = np.mean(np.abs(seasonal[both])), np.mean(np.abs(plain[both]))
+    if with_cycles < without:
+        return decomposition
+    for cand in candidates:
+        if cand.kept:
+            cand.kept = False
+            cand.reason = (
+                f"dropped: a plain level forecast the last {days} days as well "
+                f"(mean absolute error {without:.3g}, with cycles {with_cycles:.3g})"
+            )
+    return decompose(baseline, [], tz=decomposition.tz)
 
 
 def excluded_mask(index: pd.DatetimeIndex, spans: Iterable) -> np.ndarray:

@@ -16,6 +16,7 @@ import numpy as np
 import pandas as pd
 
 from ._band import BaselineFit, excluded_mask, fit_baseline
+from ._calibrate import nominal_coverage
 from ._checks import check_exclude, check_history, check_tolerance, check_window
 from ._clock import check_tz
 from ._decompose import period_label
@@ -29,7 +30,7 @@ from ._facts import (
 from ._grid import Agg, as_utc_series, check_step, find_gaps, infer_step, regularize
 from ._sentences import sentences
 
-ENGINE_VERSION = "1.0.0"
+ENGINE_VERSION = "2.0.0"  # 2: sides calibrated on a backtest; the last day's level
 DEFAULT_HISTORY = pd.Timedelta(weeks=6)
 BAND_COLUMNS = ("expected", "lower", "upper", "trend", "seasonal", "band_scale")
 
@@ -66,7 +67,8 @@ def explain(
 ) -> Explanation:
     """Rebuild what `series` was expected to do in `window` from `history` before it.
 
-    `tolerance` is the band's half-width in robust standard deviations; `exclude` lists
+    `tolerance` is the band's width as a two-sided normal-equivalent level (3 asks for
+    99.73% inside; the sides are calibrated on the history, see `_calibrate`); `exclude` lists
     (start, end) spans left out of the baseline; `tz` is the wall clock the seasonal cycles
     follow; `agg` how points sharing a grid slot combine ("sum" for counts); `unit` is
     used in the sentences; `step` forces the grid step (inferred by default).
@@ -211,6 +213,7 @@ def build_facts(
         "scale": number(fit.scale.overall) if fit else None,
         "scale_varies_by_hour": bool(fit is not None and fit.scale.hourly is not None),
         "window_samples": int(in_window["value"].notna().sum()),
+        **band_coverage_facts(fit, tolerance),
     }
     points = point_facts(in_window)
     facts.update(points)
@@ -219,3 +222,14 @@ def build_facts(
     facts["confidence"] = level
     facts["confidence_reasons"] = reasons
     return facts
+
+
+def band_coverage_facts(fit: BaselineFit | None, tolerance: float) -> dict[str, Any]:
+    """How the band's sides were set, and the share of held-out history it held."""
+    calibration = fit.calibration if fit else None
+    return {
+        "band_sides": None if fit is None else ("backtest" if calibration else "scale"),
+        "band_backtest_days": calibration.days if calibration else None,
+        "band_coverage": number(calibration.coverage(tolerance)) if calibration else None,
+        "band_coverage_nominal": nominal_coverage(tolerance),
+    }

@@ -12,6 +12,12 @@ Keys (None where not applicable):
   every candidate that was tried), scale (overall robust sd of the residual),
   scale_varies_by_hour
 - window_samples (samples with a value in the window)
+- band_sides: "backtest" (the sides are quantiles of the errors of the band's own forecasts
+  of the last days of history, each day forecast from the days before it) or "scale" (the
+  history is too short for that: +-tolerance x scale); None without a band.
+  band_backtest_days: days forecast in that backtest; band_coverage: share of their
+  samples inside the band at this tolerance; band_coverage_nominal: the share the band is
+  built to hold, 1 - 2 x (1 - Phi(tolerance)) (0.9973 at 3)
 - peak_time, peak_value, peak_expected, peak_lower, peak_upper, peak_deviation_sd: the
   highest value in the window, and how far it was from expected in robust sds
 - strongest_time, strongest_value, strongest_expected, strongest_deviation_sd: the sample

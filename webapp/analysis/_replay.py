@@ -299,9 +299,11 @@ def band_centre(
     series: pd.Series,
     rule: BandRule,
     exclude: Iterable = (),
-) -> tuple[np.ndarray, np.ndarray]:
-    """Expected value and band scale per evaluation (NaN on days without enough history);
-    the band at tolerance ``k`` is ``expected -/+ k * scale``.
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Expected value and the scale of each side per evaluation (NaN on days without enough
+    history): the band at tolerance ``k`` is ``expected - k * below`` to ``expected + k *
+    above``. At the rule's tolerance these are the fit's calibrated sides exactly; a sweep
+    of other tolerances scales them in proportion.
 
     Each day's band is fitted on the ``rule.history`` before that day only. Choosing the
     seasonal periods is the costly part of a fit, so they are chosen again only after
@@ -314,7 +316,8 @@ def band_centre(
     exclude = list(exclude)
     clean = _clean(series)
     expected = np.full(len(times), np.nan)
-    scale = np.full(len(times), np.nan)
+    below = np.full(len(times), np.nan)
+    above = np.full(len(times), np.nan)
     periods: list[pd.Timedelta] | None = None
     chosen_at, chosen_reach = None, pd.Timedelta(0)
     for day_start, day_end in _local_days(times, rule.tz):
@@ -344,25 +347,34 @@ def band_centre(
                 periods=periods,
             )
         expected[lo:hi] = band["expected"].to_numpy(dtype=float)
-        scale[lo:hi] = band["band_scale"].to_numpy(dtype=float)
-    return expected, scale
+        below[lo:hi] = (band["expected"] - band["lower"]).to_numpy(dtype=float) / rule.tolerance
+        above[lo:hi] = (band["upper"] - band["expected"]).to_numpy(dtype=float) / rule.tolerance
+    return expected, below, above
 
 
 @dataclass(frozen=True)
 class BandGrid:
-    """A band rule's evaluation grid from its first banded day: values, expected, scale."""
+    """A band rule's evaluation grid from its first banded day: values, expected, scale.
+
+    The sides are calibrated separately: `below_scale` and `above_scale` are each side's
+    scale (the band at tolerance k is expected - k x below_scale to expected + k x
+    above_scale); `scale` is their mean. Without them both sides use `scale`."""
 
     times: pd.DatetimeIndex
     values: np.ndarray
     expected: np.ndarray
     scale: np.ndarray
     step: pd.Timedelta
+    below_scale: np.ndarray | None = None
+    above_scale: np.ndarray | None = None
 
     def condition(self, tolerance: float, direction: str) -> np.ndarray:
         """Outside the band at ``tolerance`` per evaluation; no data or no band is false."""
+        below_scale = self.scale if self.below_scale is None else self.below_scale
+        above_scale = self.scale if self.above_scale is None else self.above_scale
         with np.errstate(invalid="ignore"):
-            above = self.values > self.expected + tolerance * self.scale
-            below = self.values < self.expected - tolerance * self.scale
+            above = self.values > self.expected + tolerance * above_scale
+            below = self.values < self.expected - tolerance * below_scale
         return {"above": above, "below": below, "both": above | below}[direction]
 
 
@@ -371,8 +383,8 @@ def band_grid(series: pd.Series, rule: BandRule, exclude: Iterable = ()) -> Band
     the days before it could not have fired, and counting them would understate pages
     per week. Raises ValueError when no day has enough history."""
     times, values, step = evaluation_grid(series, rule.check_every)
-    expected, scale = band_centre(times, step, series, rule, exclude)
-    banded = np.flatnonzero(np.isfinite(expected) & np.isfinite(scale))
+    expected, below, above = band_centre(times, step, series, rule, exclude)
+    banded = np.flatnonzero(np.isfinite(expected) & np.isfinite(below) & np.isfinite(above))
     if banded.size == 0:
         raise ValueError(
             f"a band rule needs at least {short_duration(rule.min_history)} of data before "
@@ -380,7 +392,16 @@ def band_grid(series: pd.Series, rule: BandRule, exclude: Iterable = ()) -> Band
             f"{short_duration(times[-1] - times[0] + step)}"
         )
     first = int(banded[0])
-    return BandGrid(times[first:], values[first:], expected[first:], scale[first:], step)
+    part = slice(first, None)
+    return BandGrid(
+        times[part],
+        values[part],
+        expected[part],
+        0.5 * (below[part] + above[part]),
+        step,
+        below_scale=below[part],
+        above_scale=above[part],
+    )
 
 
 def evaluate(

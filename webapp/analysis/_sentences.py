@@ -81,7 +81,8 @@ def sentences(facts: dict[str, Any]) -> list[str]:
     if drop_leads(facts):
         points = [points[1]] + ([points[0]] if peak_outside(facts) else [])
     out = [window_sentence(facts), *points, same_hour_sentence(facts)]
-    out += [model_sentence(facts), coverage_sentence(facts), confidence_sentence(facts)]
+    out += [model_sentence(facts), band_coverage_sentence(facts)]
+    out += [coverage_sentence(facts), confidence_sentence(facts)]
     return [s for s in out if s]
 
 
@@ -176,8 +177,14 @@ def model_sentence(f: dict[str, Any]) -> str:
         f"residual ({fmt_value(f['scale'], f['unit'])} overall"
         + (", varying with the hour of day)" if f["scale_varies_by_hour"] else ")")
     )
+    if f.get("band_sides") == "backtest":
+        spread = (
+            f"its sides set from how far its own forecasts missed (robust standard deviation "
+            f"of the residual {fmt_value(f['scale'], f['unit'])}"
+            + (", varying with the hour of day)" if f["scale_varies_by_hour"] else ")")
+        )
     if not f["periods"]:
-        return f"No regular cycle was found in {days}: the band is the recent level {spread}."
+        return f"No regular cycle was found in {days}: the band is the last day's level, {spread}."
     strengths = f["period_strengths"]
     cycles = [
         f"{describe_period(label)} cycle (strength {strengths[label]:.2f})"
@@ -185,6 +192,27 @@ def model_sentence(f: dict[str, Any]) -> str:
     ]
     listed = cycles[0] if len(cycles) == 1 else ", ".join(cycles[:-1]) + " and " + cycles[-1]
     return f"The expected band is the trend plus the {listed}, learned from {days}, {spread}."
+
+
+def band_coverage_sentence(f: dict[str, Any]) -> str | None:
+    """What share of held-out history the band held, beside what it is built to hold."""
+    nominal = share(f["band_coverage_nominal"])
+    if f["band_sides"] == "scale":
+        return (
+            "The history is too short to test the band on its own forecasts (that takes two "
+            f"days), so its sides are the plain robust spread; it is meant to hold {nominal} "
+            "of samples."
+        )
+    if f["band_sides"] != "backtest" or f["band_coverage"] is None:
+        return None
+    days = f["band_backtest_days"]
+    span = (
+        f"{days // 7} weeks" if days % 7 == 0 and days >= 14 else f"{days} day" + "s" * (days != 1)
+    )
+    return (
+        f"Over the last {span}, each day forecast from the days before it, this band held "
+        f"{share(f['band_coverage'])} of samples; it is built to hold {nominal}."
+    )
 
 
 def coverage_sentence(f: dict[str, Any]) -> str:

@@ -100,11 +100,14 @@ def replay_figure(
 
 
 def _add_band(fig: go.Figure, grid: BandGrid, tolerance: float, tz: str, n_out: int) -> float:
-    """The band a band rule was evaluated against, ``expected -/+ tolerance * scale`` on its
-    grid, reduced like the series (both edges keep their extremes); returns its top."""
-    half = tolerance * grid.scale
+    """The band a band rule was evaluated against (``expected - tolerance * below_scale`` to
+    ``expected + tolerance * above_scale``) on its grid, reduced like the series (both edges
+    keep their extremes); returns its top."""
+    below = grid.scale if grid.below_scale is None else grid.below_scale
+    above = grid.scale if grid.above_scale is None else grid.above_scale
     edges = pd.DataFrame(
-        {"lower": grid.expected - half, "upper": grid.expected + half}, index=grid.times
+        {"lower": grid.expected - tolerance * below, "upper": grid.expected + tolerance * above},
+        index=grid.times,
     )
     edges = reduce_together(edges, ["lower", "upper"], n_out)
     x = wall_clock(pd.DatetimeIndex(edges.index), tz)

@@ -1,0 +1,323 @@
+"""Benchmark: the expected band on real operations data, beside two plain bands.
+
+Data: benchmarks/data/nab, cloud host metrics and road traffic sensors from the Numenta
+Anomaly Benchmark (MIT licence; see its README), with labelled anomaly windows.
+
+What is evaluated, for every series:
+
+* normal days: the series is cut into whole days from `MIN_HISTORY` after its first sample;
+  each day's band is built from the history before it (at most `MAX_HISTORY`), and its
+  samples outside every labelled window are the normal samples;
+* labelled windows: each window's band is built from the history before it.
+
+Figures, per method, at width 3 (the default):
+
+* out-of-band stretches per week of normal data: runs of consecutive normal samples
+  outside the band (samples without a value are stepped over), pooled over all series and
+  divided by the normal time in weeks;
+* the share of normal samples outside the band;
+* recall: the share of labelled windows with at least one sample outside;
+* AUC: how well each window's largest deviation tells labelled windows from normal days
+  (days that touch no labelled window); a deviation is measured in units of the band's
+  own half-width on its side, times 3, so that every method is read on its own band.
+
+Methods, all on the grid whyfired's explain() puts the data on:
+
+* whyfired: `explain()` as the Explain screen calls it;
+* seasonal naive: the value one day earlier (whole days back, so the window is never
+  used), +- 3 robust sds (MAD x 1.4826) of the history's day-over-day differences;
+* STL + MAD: statsmodels STL(period = one day, robust=True, every smoother's jump 10% of
+  its span, as in bench_explain.py) on the history with gaps interpolated; the last trend
+  value plus the last cycle's seasonal, +- 3 robust sds of STL's residual.
+
+Bars: at most 5 stretches per week, at most 1% of normal samples outside, recall at least
+0.90, AUC at least 0.85 (all for whyfired; the other two are printed for comparison).
+
+    python benchmarks/bench_real_data.py            # all three methods (a few minutes)
+    python benchmarks/bench_real_data.py --only whyfired
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+import time
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+from scipy.stats import rankdata
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+
+from webapp.analysis import explain  # noqa: E402
+from webapp.analysis._robust import robust_scale  # noqa: E402
+
+DATA = Path(__file__).resolve().parent / "data" / "nab"
+DAY = pd.Timedelta(days=1)
+WEEK = pd.Timedelta(weeks=1)
+MIN_HISTORY = 2 * DAY
+MAX_HISTORY = 8 * WEEK
+TOLERANCE = 3.0
+BARS = {"stretches per week": 5.0, "normal outside": 0.01, "recall": 0.90, "AUC": 0.85}
+
+
+# --- the data -------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Labelled:
+    name: str
+    series: pd.Series
+    windows: list[tuple[pd.Timestamp, pd.Timestamp]]
+
+
+def utc(text: str) -> pd.Timestamp:
+    return pd.Timestamp(text, tz="UTC")
+
+
+def load() -> list[Labelled]:
+    listing = json.loads((DATA / "windows.json").read_text())
+    out = []
+    for name, entry in sorted(listing.items()):
+        frame = pd.read_csv(DATA / name)
+        index = pd.DatetimeIndex(pd.to_datetime(frame["timestamp"]), tz="UTC")
+        series = pd.Series(frame["value"].to_numpy(dtype=float), index=index, name=name)
+        windows = [
+            (pd.Timestamp(s, tz="UTC"), pd.Timestamp(e, tz="UTC")) for s, e in entry["windows"]
+        ]
+        out.append(Labelled(name, series.sort_index(), windows))
+    return out
+
+
+# --- the three bands ------------------------------------------------------------------------
+# Each takes the regular-grid values (NaN = no value), the mask of the window slots and the
+# grid step, and returns (expected, lower, upper) on the window slots, from history only.
+
+Band = tuple[np.ndarray, np.ndarray, np.ndarray]
+
+
+def seasonal_naive(values: np.ndarray, in_window: np.ndarray, step: pd.Timedelta) -> Band:
+    per_day = round(DAY / step)
+    history = values[~in_window]
+    window_at = np.flatnonzero(in_window)
+    days_back = (window_at - window_at[0]) // per_day + 1  # whole days, before the window
+    expected = values[window_at - days_back * per_day]
+    scale = robust_scale(history[per_day:] - history[:-per_day])
+    return expected, expected - TOLERANCE * scale, expected + TOLERANCE * scale
+
+
+def stl_mad(values: np.ndarray, in_window: np.ndarray, step: pd.Timedelta) -> Band:
+    from statsmodels.tsa.seasonal import STL
+
+    per_day = round(DAY / step)
+    history = pd.Series(values[~in_window]).interpolate(limit_direction="both").to_numpy()
+    n_window = int(in_window.sum())
+    if len(history) < 2 * per_day or not np.isfinite(history).all():
+        return (np.full(n_window, np.nan),) * 3
+    seasonal, trend = 7, stl_trend_span(per_day)
+    fit = STL(
+        history,
+        period=per_day,
+        seasonal=seasonal,
+        trend=trend,
+        robust=True,
+        seasonal_jump=math.ceil(0.1 * seasonal),
+        trend_jump=math.ceil(0.1 * trend),
+        low_pass_jump=math.ceil(0.1 * (per_day + 1)),
+    ).fit()
+    ahead = np.arange(n_window)
+    seasonal = fit.seasonal[len(history) - per_day + ahead % per_day]
+    expected = fit.trend[-1] + seasonal
+    scale = robust_scale(fit.resid)
+    return expected, expected - TOLERANCE * scale, expected + TOLERANCE * scale
+
+
+def stl_trend_span(period: int, seasonal: int = 7) -> int:
+    """STL's default trend span for this period and seasonal span (odd)."""
+    span = math.ceil(1.5 * period / (1 - 1.5 / seasonal))
+    return span + (span % 2 == 0)
+
+
+def grid_and_whyfired(series: pd.Series, start: pd.Timestamp, end: pd.Timestamp):
+    """explain() on the window; returns its grid values, window mask, step and band."""
+    history = min(MAX_HISTORY, start - series.index[0])
+    exp = explain(series, window=(start, end), history=history, tolerance=TOLERANCE)
+    frame = exp.frame
+    w = frame["in_window"].to_numpy()
+    band = tuple(frame[c].to_numpy()[w] for c in ("expected", "lower", "upper"))
+    return frame["value"].to_numpy(), w, exp.step, band
+
+
+METHODS: dict[str, Callable | None] = {
+    "whyfired": None,  # computed by explain() itself, on the grid the others then use
+    "seasonal naive": seasonal_naive,
+    "STL + MAD": stl_mad,
+}
+
+
+# --- scoring one window ---------------------------------------------------------------------
+
+
+def outside(values: np.ndarray, band: Band) -> np.ndarray:
+    expected, lower, upper = band
+    with np.errstate(invalid="ignore"):
+        return (values < lower) | (values > upper)
+
+
+def stretches(flags: np.ndarray) -> int:
+    """Runs of consecutive True."""
+    padded = np.concatenate(([False], flags))
+    return int(np.sum(padded[1:] & ~padded[:-1]))
+
+
+def largest_deviation(values: np.ndarray, band: Band) -> float:
+    """Largest distance from expected in units of the band's half-width on that side, x 3;
+    minus infinity when nothing can be compared."""
+    expected, lower, upper = band
+    with np.errstate(invalid="ignore", divide="ignore"):
+        half = np.where(values >= expected, upper - expected, expected - lower)
+        score = TOLERANCE * np.abs(values - expected) / half
+    score = np.where(np.abs(values - expected) == 0, 0.0, score)
+    score = score[~np.isnan(score)]
+    return float(score.max()) if len(score) else -np.inf
+
+
+@dataclass
+class Tally:
+    normal_slots: int = 0
+    normal_samples: int = 0
+    normal_outside: int = 0
+    normal_stretches: int = 0
+    step_weeks: float = 0.0  # normal time in weeks
+    found: int = 0
+    windows: int = 0
+    labelled_scores: list[float] = field(default_factory=list)
+    normal_scores: list[float] = field(default_factory=list)
+
+    def add_normal(self, values, band, normal, step, whole_day: bool) -> None:
+        have = normal & np.isfinite(values) & np.isfinite(band[0])
+        flags = outside(values[have], tuple(b[have] for b in band))
+        self.normal_samples += int(have.sum())
+        self.normal_outside += int(flags.sum())
+        self.normal_stretches += stretches(flags)
+        self.step_weeks += int(normal.sum()) * (step / WEEK)
+        if whole_day:
+            self.normal_scores.append(largest_deviation(values[have], tuple(b[have] for b in band)))
+
+    def add_labelled(self, values, band) -> None:
+        self.windows += 1
+        self.found += bool(outside(values, band).any())
+        self.labelled_scores.append(largest_deviation(values, band))
+
+    def figures(self) -> dict[str, float]:
+        return {
+            "stretches per week": self.normal_stretches / self.step_weeks,
+            "normal outside": self.normal_outside / max(self.normal_samples, 1),
+            "recall": self.found / max(self.windows, 1),
+            "AUC": auc(self.labelled_scores, self.normal_scores),
+        }
+
+
+def auc(positive: list[float], negative: list[float]) -> float:
+    """Area under the ROC curve: the chance a labelled window scores above a normal day
+    (ties count half), from the Mann-Whitney rank sum."""
+    scores = np.concatenate([positive, negative])
+    scores = np.where(np.isfinite(scores), scores, np.where(scores > 0, 1e300, -1e300))
+    ranks = rankdata(scores)
+    n_pos, n_neg = len(positive), len(negative)
+    return float((ranks[:n_pos].sum() - n_pos * (n_pos + 1) / 2) / (n_pos * n_neg))
+
+
+# --- the run --------------------------------------------------------------------------------
+
+
+def in_any(index: pd.DatetimeIndex, windows) -> np.ndarray:
+    mask = np.zeros(len(index), dtype=bool)
+    for start, end in windows:
+        mask |= (index >= start) & (index <= end)
+    return mask
+
+
+def evaluate(items: list[Labelled], names: list[str]) -> dict[str, dict[str, Tally]]:
+    """{group: {method: Tally}} for the groups cloud_hosts and traffic."""
+    tallies: dict[str, dict[str, Tally]] = {}
+    for number, item in enumerate(items, 1):
+        print(f"  [{number}/{len(items)}] {item.name}", file=sys.stderr, flush=True)
+        group = item.name.split("/")[0]
+        per_method = tallies.setdefault(group, {m: Tally() for m in names})
+        series = item.series
+        day = series.index[0] + MIN_HISTORY
+        while day + DAY <= series.index[-1]:
+            end = day + DAY - pd.Timedelta(seconds=1)
+            values, w, step, band = grid_and_whyfired(series, day, end)
+            index = pd.date_range(day, periods=int(w.sum()), freq=step)
+            window_values = values[w]
+            normal = ~in_any(index, item.windows)
+            whole = bool(normal.all())
+            for name in names:
+                got = band if METHODS[name] is None else METHODS[name](values, w, step)
+                per_method[name].add_normal(window_values, got, normal, step, whole)
+            day += DAY
+        for start, end in item.windows:
+            values, w, step, band = grid_and_whyfired(series, start, end)
+            for name in names:
+                got = band if METHODS[name] is None else METHODS[name](values, w, step)
+                per_method[name].add_labelled(values[w], got)
+    return tallies
+
+
+def pooled(tallies: dict[str, dict[str, Tally]], name: str) -> Tally:
+    total = Tally()
+    for per_method in tallies.values():
+        t = per_method[name]
+        for attr in ("normal_slots", "normal_samples", "normal_outside", "normal_stretches"):
+            setattr(total, attr, getattr(total, attr) + getattr(t, attr))
+        total.step_weeks += t.step_weeks
+        total.found += t.found
+        total.windows += t.windows
+        total.labelled_scores += t.labelled_scores
+        total.normal_scores += t.normal_scores
+    return total
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--only", choices=list(METHODS), help="run one method only")
+    args = parser.parse_args()
+    names = [args.only] if args.only else list(METHODS)
+    if "whyfired" not in names:
+        names = ["whyfired", *names]  # its explain() call provides the grid
+    began = time.perf_counter()
+    tallies = evaluate(load(), names)
+    print(f"NAB subset, width {TOLERANCE:g}, history at most {MAX_HISTORY.days // 7} weeks")
+    header = f"{'':26}{'stretches/wk':>13}{'normal out':>12}{'recall':>8}{'AUC':>7}"
+    for group in [*tallies, "pooled"]:
+        print(f"\n{group}" + ("" if group != "pooled" else " (cloud_hosts + traffic)"))
+        print(header)
+        for name in names:
+            t = pooled(tallies, name) if group == "pooled" else tallies[group][name]
+            f = t.figures()
+            print(
+                f"  {name:24}{f['stretches per week']:>13.1f}{f['normal outside']:>12.2%}"
+                f"{f['recall']:>8.2f}{f['AUC']:>7.2f}"
+            )
+    t = pooled(tallies, "whyfired")
+    f = t.figures()
+    print(
+        f"\nwhyfired pooled: {t.step_weeks:.1f} weeks of normal data, {t.normal_samples:,} "
+        f"normal samples, {t.windows} labelled windows, {len(t.normal_scores)} normal days"
+    )
+    for key, bar in BARS.items():
+        ok = f[key] <= bar if key in ("stretches per week", "normal outside") else f[key] >= bar
+        sign = "at most" if key in ("stretches per week", "normal outside") else "at least"
+        print(f"  {key}: {f[key]:.4g} (bar: {sign} {bar:g})  {'PASS' if ok else 'FAIL'}")
+    print(f"({time.perf_counter() - began:.0f} s)")
+
+
+if __name__ == "__main__":
+    main()

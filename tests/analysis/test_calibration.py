@@ -1,0 +1,155 @@
+"""The band's sides are calibrated out of sample: coverage on synthetic noise of known
+distribution, the conformal guarantee, the Pareto tail, counts, ratios and level shifts.
+
+Series are synthetic (invented for the tests) unless a source is named."""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+from scipy.stats import genpareto, norm
+
+from webapp.analysis import expected_band, explain
+from webapp.analysis._tail import cluster_maxima, fit_pareto_quantiles, upper_quantile
+
+T0 = pd.Timestamp("2026-01-05", tz="UTC")
+NOMINAL_OUT = 2 * norm.sf(3)  # standard normal table: 0.27% beyond +-3 sd
+
+
+def share_outside(draw, seeds, weeks: int = 4, window_days: int = 7) -> tuple[float, int]:
+    """Share of window samples outside the band at width 3, pooled over seeds: each series
+    is `weeks` of history and a window of `window_days`, 5-minute i.i.d. noise."""
+    outside, total = 0, 0
+    for seed in seeds:
+        n = (weeks * 7 + window_days) * 288
+        index = pd.date_range(T0, periods=n, freq="5min")
+        series = pd.Series(draw(np.random.default_rng(seed), n), index=index)
+        window = (index[-window_days * 288], index[-1])
+        frame = explain(series, window=window, history=f"{weeks * 7}D").frame
+        w = frame[frame["in_window"]]
+        outside += int(w["outside"].sum())
+        total += len(w)
+    return outside / total, total
+
+
+def test_gaussian_noise_is_outside_its_nominal_share():
+    share, n = share_outside(lambda rng, n: rng.normal(100, 5, n), seeds=range(4))
+    assert abs(share - NOMINAL_OUT) < 4 * np.sqrt(NOMINAL_OUT * (1 - NOMINAL_OUT) / n)
+
+
+@pytest.mark.parametrize(
+    "draw",
+    [
+        pytest.param(lambda rng, n: 100 + 5 * rng.standard_t(3, n), id="student-t(3)"),
+        pytest.param(lambda rng, n: rng.lognormal(3, 0.8, n), id="log-normal"),
+    ],
+)
+def test_heavy_and_skewed_noise_stay_within_twice_nominal(draw):
+    share, _ = share_outside(draw, seeds=range(4))
+    assert NOMINAL_OUT / 2 <= share <= 2 * NOMINAL_OUT
+
+
+def test_skewed_noise_gets_a_skewed_band():
+    rng = np.random.default_rng(4)
+    index = pd.date_range(T0, periods=29 * 288, freq="5min")
+    series = pd.Series(rng.lognormal(3, 0.8, len(index)), index=index)
+    band = expected_band(series, index[-288:])
+    assert ((band["upper"] - band["expected"]) > 3 * (band["expected"] - band["lower"])).all()
+
+
+def test_conformal_coverage_guarantee_on_iid_noise():
+    # Angelopoulos & Bates 2021, "A gentle introduction to conformal prediction", Theorem 1:
+    # on exchangeable data the split-conformal interval holds at least the nominal share.
+    # Width 1 (68.27%) keeps both sides on the empirical conformal rank. Averaged over 40
+    # series of i.i.d. exponential noise, the share inside a day ahead must not fall more
+    # than 3 standard errors below nominal.
+    nominal = 1 - 2 * norm.sf(1.0)
+    shares = []
+    for seed in range(40):
+        rng = np.random.default_rng(100 + seed)
+        index = pd.date_range(T0, periods=6 * 288, freq="5min")
+        series = pd.Series(rng.exponential(10, len(index)), index=index)
+        band = expected_band(series, index[-288:], tolerance=1.0)
+        values = series.iloc[-288:].to_numpy()
+        shares.append(np.mean((values >= band["lower"]) & (values <= band["upper"])))
+    se = np.std(shares, ddof=1) / np.sqrt(len(shares))
+    assert np.mean(shares) >= nominal - 3 * se
+
+
+def test_pareto_fit_recovers_a_known_shape_as_scipy_does():
+    # Reference library: scipy.stats.genpareto (a sample of known shape 0.25, scale 2, and
+    # its maximum-likelihood fit).
+    sample = genpareto.rvs(0.25, scale=2.0, size=5000, random_state=np.random.default_rng(7))
+    ours = fit_pareto_quantiles(sample)
+    shape, _, scale = genpareto.fit(sample, floc=0)
+    assert ours.shape == pytest.approx(0.25, abs=0.06) and ours.shape == pytest.approx(
+        shape, abs=0.06
+    )
+    assert ours.scale == pytest.approx(scale, rel=0.08)
+    assert ours.quantile(0.999) == pytest.approx(genpareto.ppf(0.999, 0.25, scale=2), rel=0.15)
+    light = fit_pareto_quantiles(
+        genpareto.rvs(-0.2, size=5000, random_state=np.random.default_rng(8))
+    )
+    assert light.shape == pytest.approx(-0.2, abs=0.06)
+
+
+def test_a_long_run_of_exceedances_counts_as_one_cluster():
+    values = np.array([0, 5, 6, 7, 0, 9, 0, np.nan, 4, 4])
+    np.testing.assert_array_equal(cluster_maxima(values, 3.0), [7, 9, 4])
+    rng = np.random.default_rng(3)
+    noise = rng.normal(size=8000)
+    incident = noise.copy()
+    incident[4000:4024] = 50.0  # two hours of 5-minute samples far out
+    assert upper_quantile(incident, norm.sf(3)) < 1.3 * upper_quantile(noise, norm.sf(3))
+
+
+def test_a_level_shift_is_followed_within_a_day():
+    rng = np.random.default_rng(5)
+    index = pd.date_range(T0, periods=15 * 288, freq="5min")
+    values = 100 + rng.normal(0, 2, len(index))
+    values[-288 - 200 :] += 60  # the level moved 200 samples (16.7 h) before the window
+    band = expected_band(pd.Series(values, index=index), index[-288:])
+    assert band["expected"].sub(160).abs().max() < 2
+
+
+def test_counts_get_a_whole_non_negative_band_and_a_blip_is_not_news():
+    rng = np.random.default_rng(6)
+    index = pd.date_range(T0, periods=15 * 1440, freq="1min")
+    counts = pd.Series(rng.poisson(0.02, len(index)).astype(float), index=index)
+    counts.iloc[-30] = 1.0
+    exp = explain(counts, window=(index[-60], index[-1]), history="14D", agg="sum")
+    w = exp.frame[exp.frame["in_window"]]
+    assert (w["lower"] == 0).all() and (w["expected"] >= 0).all()
+    assert (w["upper"] >= 1).all() and (w["upper"] == np.round(w["upper"])).all()
+    assert not w["outside"].any()
+
+
+def test_a_ratio_band_stays_in_zero_to_one():
+    rng = np.random.default_rng(9)
+    index = pd.date_range(T0, periods=15 * 288, freq="5min")
+    ratio = pd.Series(rng.beta(30, 1.2, len(index)), index=index)  # a success ratio near 1
+    band = expected_band(ratio, index[-288:])
+    assert (band["upper"] <= 1).all() and (band["lower"] >= 0).all()
+
+
+def test_the_band_states_its_backtest_coverage(make_service_series):
+    series, _ = make_service_series(weeks=6, sigma=4, seed=2)
+    exp = explain(series, window=(series.index[-288], series.index[-1]), history="35D")
+    f = exp.facts
+    assert f["band_sides"] == "backtest" and f["band_backtest_days"] == 28
+    assert f["band_coverage_nominal"] == pytest.approx(0.9973, abs=1e-4)
+    assert abs(f["band_coverage"] - 0.9973) < 0.003
+    text = " ".join(exp.summary)
+    assert (
+        "Over the last 4 weeks, each day forecast from the days before it, this band held" in text
+    )
+    assert "it is built to hold 99.7%." in text
+
+
+def test_short_history_falls_back_to_the_plain_spread_and_says_so(make_service_series):
+    series, _ = make_service_series(weeks=1, sigma=4, seed=2)
+    end = series.index[-1]
+    exp = explain(series, window=(end - pd.Timedelta("2h"), end), history="1D")
+    assert exp.facts["band_sides"] == "scale" and exp.facts["band_coverage"] is None
+    assert any(s.startswith("The history is too short to test the band") for s in exp.summary)
