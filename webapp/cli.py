@@ -1,5 +1,8 @@
 """The ``whyfired`` command: a thin adapter that opens the store and builds the app.
 
+It imports the store, pandas and Flask only inside the commands that use them, so that
+``whyfired --help`` answers at once.
+
 Every command names the database it uses first. The URL comes from ``--db``, else
 ``WHYFIRED_DATABASE_URL``, else the SQLite file in the user's data directory (the demo
 keeps its own file there instead, rebuilt on every run).
@@ -11,18 +14,18 @@ import os
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import click
 import platformdirs
-from sqlalchemy import Engine, func, select
-from sqlalchemy.engine import make_url
-from sqlalchemy.exc import SQLAlchemyError
 
 from webapp import settings
-from webapp.imports import FORMATS, ImportRejected, parse_file
-from webapp.store import db
-from webapp.store.imports import record_import
+from webapp.imports.formats import FORMATS
+
+if TYPE_CHECKING:
+    from sqlalchemy import Engine
+
+    from webapp.imports import ImportRejected
 
 
 def _setting_help(name: str) -> str:
@@ -42,6 +45,8 @@ port_option = click.option(
 
 def describe(url: str) -> str:
     """Where a database lives, for people: a SQLite file's path, else the URL (no password)."""
+    from sqlalchemy.engine import make_url
+
     parsed = make_url(url)
     if parsed.get_backend_name() == "sqlite":
         if parsed.database in (None, "", ":memory:"):
@@ -66,6 +71,8 @@ def _announce(url: str) -> str:
 @contextmanager
 def _database_errors(url: str) -> Iterator[None]:
     """Turn a database failure into one readable line instead of a traceback."""
+    from sqlalchemy.exc import SQLAlchemyError
+
     try:
         yield
     except SQLAlchemyError as err:
@@ -76,6 +83,8 @@ def _database_errors(url: str) -> Iterator[None]:
 
 
 def _open(url: str) -> Engine:
+    from webapp.store import db
+
     engine = db.make_engine(url)
     db.upgrade(engine)
     return engine
@@ -94,6 +103,7 @@ def _max_bytes() -> int:
 def _serve(url: str, host: str, port: int) -> None:
     from webapp import create_app
     from webapp.serve import RemoteAddressRefused, address_for_people, make_server
+    from webapp.warmup import warm_in_background
 
     with _database_errors(url):
         app = create_app({"DATABASE_URL": url})
@@ -105,6 +115,7 @@ def _serve(url: str, host: str, port: int) -> None:
         raise click.ClickException(
             f"cannot listen on {host}:{port} ({err.strerror or err}); choose another --port"
         ) from None
+    warm_in_background(app)
     click.echo(f"whyfired is at {address_for_people(host, port)} (press Ctrl+C to stop)")
     try:
         server.run()
@@ -208,6 +219,10 @@ def import_files(
 def _import_one(
     engine: Engine, path: Path, format_: str | None, options: dict[str, Any], limit: int
 ) -> bool:
+    from webapp.imports import ImportRejected, parse_file
+    from webapp.store import db
+    from webapp.store.imports import record_import
+
     if not path.is_file():
         what = "is a folder, not a file" if path.is_dir() else "does not exist"
         click.echo(f"{path}: {what}; nothing stored.", err=True)
@@ -242,6 +257,9 @@ def demo_database_url() -> str:
 
 
 def _stored_rows(engine: Engine) -> dict[str, int]:
+    from sqlalchemy import func, select
+
+    from webapp.store import db
     from webapp.store.models import AlertRule, Import, Page, Review, Series
 
     with db.session_scope(engine) as session:
@@ -259,6 +277,8 @@ def _stored_rows(engine: Engine) -> dict[str, int]:
 
 
 def _remove_sqlite_file(url: str) -> None:
+    from sqlalchemy.engine import make_url
+
     database = make_url(url).database
     if database and database != ":memory:":
         for suffix in ("", "-wal", "-shm"):
@@ -285,6 +305,8 @@ def _prepare_demo_target(url: str, own_file: bool, replace: bool) -> Engine:
             "or leave out --db (and WHYFIRED_DATABASE_URL) to use the demo's own file."
         )
     if held:
+        from webapp.store import db
+
         click.echo("Emptying it first (--replace).")
         db.downgrade(engine, "base")
         db.upgrade(engine)
@@ -311,6 +333,7 @@ def demo(
     """Load the invented demo scenario into a fresh database and serve it."""
     from webapp.demo import build_demo
     from webapp.services.demo import load_demo
+    from webapp.store import db
 
     if not no_serve:
         _refuse_remote_early(host)
@@ -339,6 +362,8 @@ def db_group() -> None:
 @db_option
 def db_upgrade(db_url: str | None) -> None:
     """Bring the database schema to the latest revision."""
+    from webapp.store import db
+
     url = _announce(settings.database_url(db_url))
     with _database_errors(url):
         engine = _open(url)
@@ -363,6 +388,7 @@ def db_revision(message: str) -> None:
     from alembic.autogenerate import compare_metadata
     from alembic.runtime.migration import MigrationContext
 
+    from webapp.store import db
     from webapp.store.models import Base
 
     with tempfile.TemporaryDirectory(prefix="whyfired-revision-") as folder:
@@ -407,6 +433,7 @@ def export_group() -> None:
 def export_review_cmd(review_id: int, fmt: str, out_path: Path, db_url: str | None) -> None:
     """Export one review."""
     from webapp.services.review_export import ExportError
+    from webapp.store import db
     from webapp.web.export import export_review
 
     url = _announce(settings.database_url(db_url))

@@ -3,21 +3,14 @@
 No database code here: the store takes a ParsedImport and writes it in one transaction.
 """
 
-from webapp.imports._api import parse_bytes, parse_file
-from webapp.imports._detect import EXAMPLE_FILES, FORMATS, detect_format
-from webapp.imports._types import ImportRejected, ParsedImport, Problem, SeriesMeta
-from webapp.imports.keys import parse_series_key, series_key
+from webapp._lazy import lazy_exports
 
-__all__ = [
-    "EXAMPLE_FILES",
-    "FORMATS",
-    "ImportRejected",
-    "ParsedImport",
-    "Problem",
-    "SeriesMeta",
-    "detect_format",
-    "parse_bytes",
-    "parse_file",
-    "parse_series_key",
-    "series_key",
-]
+_EXPORTS = {
+    "._api": ("parse_bytes", "parse_file"),
+    "._detect": ("detect_format",),
+    ".formats": ("EXAMPLE_FILES", "FORMATS"),
+    "._types": ("ImportRejected", "ParsedImport", "Problem", "SeriesMeta"),
+    ".keys": ("parse_series_key", "series_key"),
+}
+
+__all__, __getattr__, __dir__ = lazy_exports(globals(), _EXPORTS)

@@ -8,24 +8,8 @@ from webapp.imports._csv import CSV_SHAPES, header_fields, looks_like_data, snif
 from webapp.imports._long import METRIC_NAMES, TIMESTAMP_NAMES, VALUE_NAMES
 from webapp.imports._problems import ProblemLog
 from webapp.imports._text import first_line, without_bom
+from webapp.imports.formats import FORMATS
 
-FORMATS: tuple[str, ...] = (
-    "csv-long",
-    "csv-wide",
-    "json-records",
-    "json-series",
-    "openmetrics",
-    "parquet",
-)
-EXAMPLE_FILES: dict[str, str] = {
-    "csv-long": "example-csv-long.csv",
-    "csv-wide": "example-csv-wide.csv",
-    "json-records": "example-json-records.json",
-    "json-series": "example-json-series.json",
-    "openmetrics": "example-openmetrics.txt",
-    "parquet": "example-parquet.parquet",
-}
-"""One small file per format in static/examples/ (described in its README.md)."""
 FAMILIES = {
     "csv-long": "csv",
     "csv-wide": "csv",

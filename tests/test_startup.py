@@ -1,0 +1,53 @@
+"""Start-up stays light: the command line and light modules load no analysis stack, the
+lazy package exports resolve, and the warm start pays the first request's costs."""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+import pytest
+
+import webapp.analysis
+import webapp.imports
+
+HEAVY = ("pandas", "scipy", "statsmodels", "plotly", "sqlalchemy", "flask")
+
+
+def modules_loaded_by(code: str) -> set[str]:
+    """Top-level packages a fresh interpreter has loaded after running ``code``."""
+    probe = f"{code}\nimport sys\nprint(' '.join(sorted({{m.split('.')[0] for m in sys.modules}})))"
+    done = subprocess.run([sys.executable, "-c", probe], capture_output=True, text=True, check=True)
+    return set(done.stdout.split())
+
+
+def test_the_command_line_help_loads_no_heavy_library() -> None:
+    code = (
+        "from webapp.cli import cli\n"
+        "try:\n    cli.main(args=['import', '--help'], prog_name='whyfired')\n"
+        "except SystemExit:\n    pass"
+    )
+    assert modules_loaded_by(code).isdisjoint(HEAVY)
+
+
+def test_the_time_helpers_load_no_scipy_or_statsmodels() -> None:
+    loaded = modules_loaded_by("import webapp.analysis.times, webapp.imports.formats")
+    assert "scipy" not in loaded and "statsmodels" not in loaded
+
+
+@pytest.mark.parametrize("package", [webapp.analysis, webapp.imports], ids=lambda p: p.__name__)
+def test_every_listed_export_resolves(package) -> None:
+    for name in package.__all__:
+        assert getattr(package, name) is not None
+    assert set(package.__all__) <= set(dir(package))
+    with pytest.raises(AttributeError, match="has no attribute 'nothing_here'"):
+        package.nothing_here  # noqa: B018
+
+
+def test_the_warm_start_compiles_every_page_template(app) -> None:
+    from webapp.warmup import warm_in_background
+
+    warm_in_background(app).join(timeout=120)
+    pages = app.jinja_env.list_templates(filter_func=lambda n: n.endswith(".html"))
+    cached = {key[1] for key in app.jinja_env.cache.keys()}  # noqa: SIM118 (an LRU cache)
+    assert pages and set(pages) <= cached
