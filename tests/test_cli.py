@@ -105,14 +105,16 @@ def test_an_unusable_database_gets_one_readable_line(runner, tmp_path):
 def test_a_database_failure_during_an_import_is_one_line_and_stores_nothing(
     runner, db_url, monkeypatch
 ):
-    import sqlite3
+    from sqlalchemy.engine import make_url
 
-    from webapp.store import imports as store_imports
+    from webapp.store import bulk
 
-    def locked(cursor, sql, rows):
-        raise sqlite3.OperationalError("database is locked")
+    dialect = make_url(db_url).get_dialect()
 
-    monkeypatch.setattr(store_imports, "_write_batch", locked)
+    def locked(n):
+        raise dialect.import_dbapi().OperationalError("database is locked")
+
+    monkeypatch.setattr(bulk, "_row_slices", locked)
     result = runner.invoke(cli, ["import", str(EXAMPLE_LONG), "--db", db_url])
     assert result.exit_code == 1
     assert "could not use the database at" in result.output and "locked" in result.output

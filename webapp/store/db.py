@@ -22,11 +22,14 @@ from sqlalchemy.orm import Session
 BUSY_TIMEOUT_MS = 10_000
 CACHE_KIB = 65_536
 ENGINE_KEY = "whyfired_engine"
+WRITE_LOCK_FIRST = "whyfired_write_lock_first"  # execution option: SQLite's BEGIN IMMEDIATE
 
 
 def make_engine(url: str, **kwargs: Any) -> Engine:
     """An engine for ``url``; for a SQLite file, its folder is created if missing."""
     parsed = make_url(url)
+    if parsed.drivername == "postgresql":  # no driver named: the one whyfired ships with
+        url = parsed.set(drivername="postgresql+psycopg")
     is_sqlite = parsed.get_backend_name() == "sqlite"
     if is_sqlite and parsed.database and parsed.database != ":memory:":
         Path(parsed.database).expanduser().parent.mkdir(parents=True, exist_ok=True)
@@ -57,7 +60,9 @@ def _configure_sqlite(engine: Engine, *, in_memory: bool) -> None:
 
     @event.listens_for(engine, "begin")
     def _on_begin(conn: Any) -> None:
-        conn.exec_driver_sql("BEGIN")
+        # A writer that must not start from a stale snapshot takes the write lock up front.
+        immediate = conn.get_execution_options().get(WRITE_LOCK_FIRST, False)
+        conn.exec_driver_sql("BEGIN IMMEDIATE" if immediate else "BEGIN")
 
 
 def alembic_config(connection: Any = None) -> Config:
@@ -73,9 +78,15 @@ def alembic_config(connection: Any = None) -> Config:
 
 
 def upgrade(engine: Engine, revision: str = "head") -> None:
-    """Bring the schema to ``revision`` (the latest by default)."""
-    with engine.begin() as connection:
-        command.upgrade(alembic_config(connection), revision)
+    """Bring the schema to ``revision`` (the latest by default). Runs that start together
+    take turns (PostgreSQL's migrations lock): the later one finds the work done."""
+    from webapp.store import locks
+
+    with engine.connect() as connection:
+        connection.execution_options(**{WRITE_LOCK_FIRST: True})
+        with connection.begin():
+            locks.hold(connection, locks.MIGRATIONS)
+            command.upgrade(alembic_config(connection), revision)
 
 
 def downgrade(engine: Engine, revision: str) -> None:
