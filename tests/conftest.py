@@ -30,6 +30,15 @@ POSTGRES_REQUIRED_VARIABLE = "WHYFIRED_TEST_POSTGRES_REQUIRED"
 STORES = ("sqlite", "postgresql")
 
 
+@pytest.fixture(scope="session", autouse=True)
+def instance_folder(tmp_path_factory: pytest.TempPathFactory) -> Iterator[Path]:
+    """Apps built by tests keep their files (the secret key) here, not in the user's folder."""
+    path = tmp_path_factory.mktemp("instance")
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setenv("WHYFIRED_INSTANCE_PATH", str(path))
+        yield path
+
+
 def sqlite_url(path: Path) -> str:
     return f"sqlite:///{path}"
 

@@ -14,8 +14,8 @@ from webapp.store import db
 from webapp.store.models import Base, Series
 
 
-def test_upgrade_then_downgrade_on_a_fresh_file(tmp_path):
-    eng = db.make_engine(f"sqlite:///{tmp_path / 'fresh.sqlite'}")
+def test_upgrade_then_downgrade_on_an_empty_store(empty_db_url):
+    eng = db.make_engine(empty_db_url)
     try:
         db.upgrade(eng)
         head = ScriptDirectory.from_config(db.alembic_config()).get_current_head()
@@ -55,9 +55,9 @@ def test_sqlite_connections_get_wal_foreign_keys_and_busy_timeout(sqlite_engine)
 def test_foreign_keys_are_enforced(session):
     from sqlalchemy.exc import IntegrityError
 
-    from webapp.store.models import Point
+    from webapp.store.models import ActionItem
 
-    session.add(Point(series_id=999, ts=0, value=1.0))
+    session.add(ActionItem(review_id=999, text="no such review"))
     with pytest.raises(IntegrityError):
         session.flush()
 

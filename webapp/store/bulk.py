@@ -4,8 +4,7 @@ SQLite: the driver's ``executemany`` on the session's own connection, in batches
 PostgreSQL: binary ``COPY`` (psycopg 3), straight into ``points`` for series the import has
 just created (they cannot hold points yet), and for the others into a temporary staging
 table followed by one ``INSERT … ON CONFLICT`` upsert. Either way the points share the
-caller's transaction and no ORM objects are built. A NaN value is stored as NULL (a gap) on
-both stores.
+caller's transaction and no ORM objects are built.
 """
 
 from __future__ import annotations
@@ -29,10 +28,19 @@ UPSERT = (
 # field count and (length, bytes) per field, big-endian; a length of -1 is NULL.
 COPY_SIGNATURE = b"PGCOPY\n\xff\r\n\x00" + bytes(8)
 COPY_TRAILER = b"\xff\xff"
-_ROW = [("fields", ">i2"), ("sid_len", ">i4"), ("sid", ">i4"), ("ts_len", ">i4"), ("ts", ">i8")]
-_IMPORT = [("import_len", ">i4"), ("import_id", ">i4")]
-VALUE_ROW = np.dtype([*_ROW, ("value_len", ">i4"), ("value", ">f8"), *_IMPORT])
-NULL_ROW = np.dtype([*_ROW, ("value_len", ">i4"), *_IMPORT])
+COPY_ROW = np.dtype(
+    [
+        ("fields", ">i2"),
+        ("sid_len", ">i4"),
+        ("sid", ">i4"),
+        ("ts_len", ">i4"),
+        ("ts", ">i8"),
+        ("value_len", ">i4"),
+        ("value", ">f8"),
+        ("import_len", ">i4"),
+        ("import_id", ">i4"),
+    ]
+)
 
 
 def write_points(
@@ -111,21 +119,11 @@ def _copy_points(
 
 
 def copy_rows(import_id: int, series_ids: np.ndarray, ts: np.ndarray, values: np.ndarray) -> bytes:
-    """The rows of a binary COPY into (series_id, ts, value, import_id), NaN as NULL."""
-    gap = np.isnan(values)
-    blocks = []
-    for dtype, keep in ((VALUE_ROW, ~gap), (NULL_ROW, gap)):
-        n = int(keep.sum())
-        if not n:
-            continue
-        rows = np.empty(n, dtype=dtype)
-        rows["fields"] = 4
-        rows["sid_len"], rows["sid"] = 4, series_ids[keep]
-        rows["ts_len"], rows["ts"] = 8, ts[keep]
-        if dtype is VALUE_ROW:
-            rows["value_len"], rows["value"] = 8, values[keep]
-        else:
-            rows["value_len"] = -1
-        rows["import_len"], rows["import_id"] = 4, import_id
-        blocks.append(rows.tobytes())
-    return b"".join(blocks)
+    """The rows of a binary COPY into (series_id, ts, value, import_id)."""
+    rows = np.empty(len(ts), dtype=COPY_ROW)
+    rows["fields"] = 4
+    rows["sid_len"], rows["sid"] = 4, series_ids
+    rows["ts_len"], rows["ts"] = 8, ts
+    rows["value_len"], rows["value"] = 8, values
+    rows["import_len"], rows["import_id"] = 4, import_id
+    return rows.tobytes()

@@ -101,6 +101,29 @@ def current_revision(engine: Engine) -> str | None:
         return MigrationContext.configure(connection).get_current_revision()
 
 
+class StoreNotReady(RuntimeError):
+    """The store cannot be served as it is; the message says what to do."""
+
+
+def require_team_store(engine: Engine) -> None:
+    """Refuse a store that is not PostgreSQL or whose schema is not the code's."""
+    from alembic.script import ScriptDirectory
+
+    if engine.dialect.name != "postgresql":
+        raise StoreNotReady(
+            "team mode needs a PostgreSQL store; give its URL with --db or "
+            "WHYFIRED_DATABASE_URL (the SQLite file is for one person on this machine)"
+        )
+    head = ScriptDirectory.from_config(alembic_config()).get_current_head()
+    current = current_revision(engine)
+    if current != head:
+        raise StoreNotReady(
+            f"the store's schema is at revision {current or 'none'} and this whyfired needs "
+            f"{head}; run `whyfired db upgrade --db URL` with the whyfired version that "
+            "serves it, then start again"
+        )
+
+
 def new_session(engine: Engine) -> Session:
     return Session(engine, expire_on_commit=False)
 
@@ -120,9 +143,13 @@ def session_scope(engine: Engine) -> Iterator[Session]:
 
 
 def init_app(app: Flask) -> None:
-    """Build the app's engine once, migrate it to head, and close request sessions."""
+    """Build the app's engine once, migrate it to head (not in team mode: there the schema
+    must already be current), and close request sessions."""
     engine = make_engine(app.config["DATABASE_URL"])
-    upgrade(engine)
+    if app.config.get("TEAM_MODE"):
+        require_team_store(engine)
+    else:
+        upgrade(engine)
     app.extensions[ENGINE_KEY] = engine
     app.teardown_appcontext(_close_session)
 
