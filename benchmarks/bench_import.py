@@ -85,16 +85,21 @@ def sqlite_bare(csv: Path, folder: Path, run: int) -> Timer:
 
 def postgres_bare(server: str, csv: Path) -> Timer:
     """One COPY of the CSV file into a plain table, committed, in a database of its own."""
+    with scratch_database(server) as url, Timer() as timer:
+        _copy_file(url, csv)
+    return timer
+
+
+def _copy_file(url: str, csv: Path) -> None:
     import psycopg
 
-    with scratch_database(server) as url, Timer() as timer:
-        with psycopg.connect(url.replace("+psycopg", "")) as conn, conn.cursor() as cur:
-            cur.execute("CREATE TABLE rows (timestamp text, metric text, host text, value float8)")
-            with cur.copy("COPY rows FROM STDIN (FORMAT csv, HEADER true)") as copy:
-                with csv.open("rb") as f:
-                    while block := f.read(1 << 20):
-                        copy.write(block)
-    return timer
+    table = "CREATE TABLE rows (timestamp text, metric text, host text, value float8)"
+    with psycopg.connect(url.replace("+psycopg", "")) as conn, conn.cursor() as cur:
+        cur.execute(table)
+        copy_sql = "COPY rows FROM STDIN (FORMAT csv, HEADER true)"
+        with cur.copy(copy_sql) as copy, csv.open("rb") as f:
+            while block := f.read(1 << 20):
+                copy.write(block)
 
 
 def whyfired(csv: Path, url: str) -> tuple[Timer, int]:
