@@ -19,6 +19,8 @@ from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session
 
+from webapp.store import guards  # noqa: F401 - registers the checks every flush makes
+
 BUSY_TIMEOUT_MS = 10_000
 CACHE_KIB = 65_536
 ENGINE_KEY = "whyfired_engine"

@@ -19,9 +19,11 @@ def register_web(app: Flask) -> None:
         reviews,
         rules,
         series,
+        textcheck,
     )
 
     csrf.init_app(app)
+    textcheck.init_app(app)
     errors.init_app(app)
     filters.init_app(app)
     app.add_template_global(assets.plotly_version, "plotly_version")
