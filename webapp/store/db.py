@@ -19,7 +19,7 @@ from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session
 
-from webapp.store import guards  # noqa: F401 - registers the checks every flush makes
+from webapp.store import audit, guards  # noqa: F401 - register what every flush does
 
 BUSY_TIMEOUT_MS = 10_000
 CACHE_KIB = 65_536

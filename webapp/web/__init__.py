@@ -8,6 +8,7 @@ from flask import Flask
 def register_web(app: Flask) -> None:
     from webapp.web import (
         assets,
+        auth,
         csrf,
         errors,
         explain,
@@ -22,6 +23,7 @@ def register_web(app: Flask) -> None:
         textcheck,
     )
 
+    auth.init_app(app)
     csrf.init_app(app)
     textcheck.init_app(app)
     errors.init_app(app)
