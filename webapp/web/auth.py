@@ -37,7 +37,7 @@ READ_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
 OPEN_ENDPOINTS = frozenset({"auth.sign_in", "static", "assets.plotly_js"})
 ADMIN_ENDPOINTS = frozenset({"imports.delete"})  # undoing an import removes data
 TRIES_PER_MINUTE = 10  # sign-in tries per client address, on top of the per-account wait
-_recent_tries: defaultdict[str, deque[float]] = defaultdict(deque)
+TRIES_KEY = "whyfired_sign_in_tries"
 
 
 def current_user() -> User | None:
@@ -125,7 +125,7 @@ def _refused(message: str, status: int) -> tuple[str, int]:
 
 def _too_many_tries(address: str) -> bool:
     now = time.monotonic()
-    tries = _recent_tries[address]
+    tries = current_app.extensions[TRIES_KEY][address]
     while tries and now - tries[0] > 60:
         tries.popleft()
     tries.append(now)
@@ -145,6 +145,7 @@ def _seconds(wait: Any) -> str:
 
 def init_app(app: Flask) -> None:
     """Register before the CSRF check, so an anonymous change is refused as such."""
+    app.extensions[TRIES_KEY] = defaultdict(deque)
     app.before_request(check_access)
     app.teardown_request(_forget_actor)
     app.add_template_global(current_user, "current_user")
