@@ -80,6 +80,7 @@ def _postgres_skip_reason() -> str | None:
     return reason + " (.ci/postgres starts one)"
 
 
+@pytest.hookimpl(trylast=True)  # after -k and -m have chosen, so the count is right
 def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
     """Without a server, leave out the PostgreSQL run and say so in one line."""
     reason = _postgres_skip_reason()

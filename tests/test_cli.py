@@ -50,6 +50,23 @@ def test_import_stores_a_file_and_says_what_it_did(runner, db_url):
     assert f"wrote {stored:,} points" in result.output
 
 
+def test_an_import_names_the_person_at_the_terminal_in_the_audit_trail(runner, db_url):
+    import getpass
+
+    from webapp.store import audit
+
+    runner.invoke(cli, ["import", str(EXAMPLE_LONG), "--db", db_url])
+    engine = db.make_engine(db_url)
+    try:
+        with db.session_scope(engine) as s:
+            entry = audit.entries(s, "imports")[0]
+            imported = s.get(Import, int(entry.record_id))
+    finally:
+        engine.dispose()
+    who = f"{getpass.getuser()} (command line)"
+    assert (entry.user_name, entry.action, imported.created_by) == (who, "insert", who)
+
+
 def test_import_of_the_same_file_again_reports_it(runner, db_url):
     runner.invoke(cli, ["import", str(EXAMPLE_LONG), "--db", db_url])
     result = runner.invoke(cli, ["import", str(EXAMPLE_LONG), "--db", db_url])

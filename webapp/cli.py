@@ -22,6 +22,7 @@ from sqlalchemy.exc import SQLAlchemyError
 from webapp import settings
 from webapp.imports import FORMATS, ImportRejected, parse_file
 from webapp.store import db
+from webapp.store.audit import acting_as
 from webapp.store.imports import record_import
 
 MAX_PROBLEMS_SHOWN = 20
@@ -163,7 +164,7 @@ def import_files(
     url = _announce(settings.database_url(db_url))
     max_bytes = _max_bytes()
     rejected = 0
-    with _database_errors(url):
+    with _database_errors(url), acting_as(_terminal_user()):
         engine = _open(url)
         try:
             for path in files:
@@ -366,19 +367,22 @@ def _say_who_can_sign_in(engine: Engine) -> None:
         click.echo("No admin account yet: add one with `whyfired user add NAME --role admin`.")
 
 
+def _terminal_user() -> str:
+    """Who the audit trail names for a change made here."""
+    import getpass
+
+    return f"{getpass.getuser()} (command line)"
+
+
 @contextmanager
 def _accounts(db_url: str | None) -> Iterator[Any]:
     """A session on a team store, as the person at this terminal (for the audit trail)."""
-    import getpass
-
-    from webapp.store.audit import acting_as
-
     url = _announce(settings.database_url(db_url))
     with _database_errors(url), _store_not_ready():
         engine = db.make_engine(url)
         try:
             db.require_team_store(engine)
-            with acting_as(f"{getpass.getuser()} (command line)"), db.session_scope(engine) as s:
+            with acting_as(_terminal_user()), db.session_scope(engine) as s:
                 yield s
         except (ValueError, LookupError) as err:
             raise click.ClickException(str(err)) from None
