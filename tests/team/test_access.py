@@ -74,9 +74,13 @@ def test_an_editor_writes_but_only_an_admin_undoes_an_import(signed_in, small_cs
     body["files"] = [(io.BytesIO(small_csv), "latency.csv")]
     assert editor.post("/imports", data=body, content_type="multipart/form-data").status_code == 200
     assert count(editor.application, Import) == 1
+    listing = editor.get("/imports").text
+    assert "an admin can undo" in listing and "by editor" in listing
+    assert 'action="/imports/1/delete"' not in listing
     assert editor.post("/imports/1/delete", data={"csrf_token": token}).status_code == 403
     assert count(editor.application, Import) == 1
     admin, admin_token = signed_in("admin")
+    assert 'action="/imports/1/delete"' in admin.get("/imports").text
     assert admin.post("/imports/1/delete", data={"csrf_token": admin_token}).status_code == 303
     assert count(editor.application, Import) == 0
 

@@ -57,11 +57,25 @@ def check_access() -> Response | None:
     g.audit_token = audit.acting.set(g.user.name)
     if request.endpoint == "auth.sign_out":
         return None
-    if request.method not in READ_METHODS and g.user.role == "viewer":
-        abort(403, description="Your account can read but not change anything (role: viewer).")
-    if request.endpoint in ADMIN_ENDPOINTS and g.user.role != "admin":
-        abort(403, description="Only an admin can do this (your role: " + g.user.role + ").")
+    changing = request.method not in READ_METHODS or request.endpoint in ADMIN_ENDPOINTS
+    if changing and not may(request.endpoint or ""):
+        if g.user.role == "viewer":
+            abort(403, description="Your account can read but not change anything (role: viewer).")
+        abort(403, description=f"Only an admin can do this (your role: {g.user.role}).")
     return None
+
+
+def may(endpoint: str) -> bool:
+    """Whether the person signed in may use this changing endpoint (anyone, in local mode);
+    templates ask it to leave out the buttons that would be refused."""
+    if not current_app.config.get("TEAM_MODE"):
+        return True
+    user = current_user()
+    if user is None:
+        return False
+    if endpoint in ADMIN_ENDPOINTS:
+        return user.role == "admin"
+    return user.role != "viewer"
 
 
 def _signed_in_user() -> User | None:
@@ -149,4 +163,5 @@ def init_app(app: Flask) -> None:
     app.before_request(check_access)
     app.teardown_request(_forget_actor)
     app.add_template_global(current_user, "current_user")
+    app.add_template_global(may, "may")
     app.register_blueprint(bp)
