@@ -51,6 +51,23 @@ def test_import_stores_a_file_and_says_what_it_did(runner, db_url):
     assert f"wrote {stored:,} points" in result.output
 
 
+def test_an_import_names_the_person_at_the_terminal_in_the_audit_trail(runner, db_url):
+    import getpass
+
+    from webapp.store import audit
+
+    runner.invoke(cli, ["import", str(EXAMPLE_LONG), "--db", db_url])
+    engine = db.make_engine(db_url)
+    try:
+        with db.session_scope(engine) as s:
+            entry = audit.entries(s, "imports")[0]
+            imported = s.get(Import, int(entry.record_id))
+    finally:
+        engine.dispose()
+    who = f"{getpass.getuser()} (command line)"
+    assert (entry.user_name, entry.action, imported.created_by) == (who, "insert", who)
+
+
 def test_import_of_the_same_file_again_reports_it(runner, db_url):
     runner.invoke(cli, ["import", str(EXAMPLE_LONG), "--db", db_url])
     result = runner.invoke(cli, ["import", str(EXAMPLE_LONG), "--db", db_url])
@@ -142,14 +159,16 @@ def test_an_unusable_database_gets_one_readable_line(runner, tmp_path):
 def test_a_database_failure_during_an_import_is_one_line_and_stores_nothing(
     runner, db_url, monkeypatch
 ):
-    import sqlite3
+    from sqlalchemy.engine import make_url
 
-    from webapp.store import imports as store_imports
+    from webapp.store import bulk
 
-    def locked(cursor, sql, rows):
-        raise sqlite3.OperationalError("database is locked")
+    dialect = make_url(db_url).get_dialect()
 
-    monkeypatch.setattr(store_imports, "_write_batch", locked)
+    def locked(n):
+        raise dialect.import_dbapi().OperationalError("database is locked")
+
+    monkeypatch.setattr(bulk, "_row_slices", locked)
     result = runner.invoke(cli, ["import", str(EXAMPLE_LONG), "--db", db_url])
     assert result.exit_code == 1
     assert "could not use the database at" in result.output and "locked" in result.output

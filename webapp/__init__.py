@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import secrets
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
@@ -30,9 +29,9 @@ def create_app(test_config: dict[str, Any] | None = None) -> Flask:
         __name__,
         template_folder=str(resource_dir("templates")),
         static_folder=str(resource_dir("static")),
+        instance_path=settings.instance_path(test_config),
     )
     app.config.update(settings.defaults())
-    app.config["SECRET_KEY"] = secrets.token_hex(32)
     app.config.from_prefixed_env("WHYFIRED")
     if test_config:
         app.config.update(test_config)
@@ -40,11 +39,13 @@ def create_app(test_config: dict[str, Any] | None = None) -> Flask:
         app.config["DATABASE_URL"] = settings.database_url()
     app.config["MAX_CONTENT_LENGTH"] = int(app.config["MAX_IMPORT_MB"]) * 1024 * 1024 + 65536
 
+    from webapp.secret import secret_key
     from webapp.store import db
     from webapp.web import refusals, register_web, security
 
     security.init_app(app)
     refusals.init_app(app)
     db.init_app(app)
+    app.config["SECRET_KEY"] = secret_key(app)
     register_web(app)
     return app

@@ -100,13 +100,18 @@ def _max_bytes() -> int:
         ) from None
 
 
-def _serve(url: str, host: str, port: int) -> None:
+def _serve(url: str, host: str, port: int, team: bool = False) -> None:
     from webapp import create_app
     from webapp.serve import RemoteAddressRefused, address_for_people, make_server
+    from webapp.store import db
     from webapp.warmup import warm_in_background
 
-    with _database_errors(url):
-        app = create_app({"DATABASE_URL": url})
+    with _database_errors(url), _store_not_ready():
+        app = create_app(
+            {"DATABASE_URL": url, "TEAM_MODE": team} if team else {"DATABASE_URL": url}
+        )
+    if team:
+        _say_who_can_sign_in(db.get_engine(app))
     try:
         server = make_server(app, host, port)
     except RemoteAddressRefused as refusal:
@@ -156,9 +161,10 @@ def cli() -> None:
 @host_option
 @port_option
 @db_option
-def serve(host: str, port: int, db_url: str | None) -> None:
-    """Serve the app on this machine."""
-    _serve(_announce(settings.database_url(db_url)), host, port)
+@click.option("--team", is_flag=True, help=_setting_help("TEAM_MODE"))
+def serve(host: str, port: int, db_url: str | None, team: bool) -> None:
+    """Serve the app (with --team: to a team, from a PostgreSQL store)."""
+    _serve(_announce(settings.database_url(db_url)), host, port, team)
 
 
 @cli.command("import")
@@ -203,7 +209,9 @@ def import_files(
     url = _announce(settings.database_url(db_url))
     max_bytes = _max_bytes()
     rejected = 0
-    with _database_errors(url):
+    from webapp.store.audit import acting_as
+
+    with _database_errors(url), acting_as(_terminal_user()):
         engine = _open(url)
         options = {"tz": tz, "day_first": day_first, "unit": unit}
         try:
@@ -404,6 +412,119 @@ def db_revision(message: str) -> None:
         finally:
             engine.dispose()
     click.echo(f"Wrote {script.path}")
+
+
+@contextmanager
+def _store_not_ready() -> Iterator[None]:
+    from webapp.store import db
+
+    try:
+        yield
+    except db.StoreNotReady as err:
+        raise click.ClickException(str(err)) from None
+
+
+def _say_who_can_sign_in(engine: Engine) -> None:
+    from webapp.store import db
+    from webapp.store.users import list_users
+
+    with db.session_scope(engine) as session:
+        admins = [u.name for u in list_users(session) if u.role == "admin"]
+    if not admins:
+        click.echo("No admin account yet: add one with `whyfired user add NAME --role admin`.")
+
+
+def _terminal_user() -> str:
+    """Who the audit trail names for a change made here."""
+    import getpass
+
+    return f"{getpass.getuser()} (command line)"
+
+
+@contextmanager
+def _accounts(db_url: str | None) -> Iterator[Any]:
+    """A session on a team store, as the person at this terminal (for the audit trail)."""
+    from webapp.store import db
+    from webapp.store.audit import acting_as
+
+    url = _announce(settings.database_url(db_url))
+    with _database_errors(url), _store_not_ready():
+        engine = db.make_engine(url)
+        try:
+            db.require_team_store(engine)
+            with acting_as(_terminal_user()), db.session_scope(engine) as s:
+                yield s
+        except (ValueError, LookupError) as err:
+            raise click.ClickException(str(err)) from None
+        finally:
+            engine.dispose()
+
+
+def _new_password() -> str:
+    return click.prompt("Password", hide_input=True, confirmation_prompt=True)
+
+
+@cli.group("user")
+def user_group() -> None:
+    """Manage the accounts of a team store (team mode)."""
+
+
+role_option = click.option(
+    "--role",
+    type=click.Choice(["viewer", "editor", "admin"]),
+    help="viewer reads; editor also writes; admin also undoes imports and manages accounts.",
+)
+
+
+@user_group.command("add")
+@click.argument("name")
+@role_option
+@db_option
+def user_add(name: str, role: str | None, db_url: str | None) -> None:
+    """Add an account (asks for its password)."""
+    from webapp.store import users
+
+    with _accounts(db_url) as session:
+        users.add_user(session, name, _new_password(), role or "editor")
+    click.echo(f"Added {name} ({role or 'editor'}).")
+
+
+@user_group.command("remove")
+@click.argument("name")
+@db_option
+def user_remove(name: str, db_url: str | None) -> None:
+    """Remove an account; what it wrote stays, under its name."""
+    from webapp.store import users
+
+    with _accounts(db_url) as session:
+        users.remove_user(session, name)
+    click.echo(f"Removed {name}; they are signed out everywhere.")
+
+
+@user_group.command("reset")
+@click.argument("name")
+@role_option
+@click.option("--keep-password", is_flag=True, help="Change only the role.")
+@db_option
+def user_reset(name: str, role: str | None, keep_password: bool, db_url: str | None) -> None:
+    """Set a new password (and role); ends the account's sessions and its sign-in wait."""
+    from webapp.store import users
+
+    with _accounts(db_url) as session:
+        password = None if keep_password else _new_password()
+        user = users.reset_user(session, name, password=password, role=role)
+        click.echo(f"Reset {user.name} ({user.role}).")
+
+
+@user_group.command("list")
+@db_option
+def user_list(db_url: str | None) -> None:
+    """List the accounts and their roles."""
+    from webapp.store import users
+
+    with _accounts(db_url) as session:
+        for user in users.list_users(session):
+            click.echo(f"{user.name}\t{user.role}")
 
 
 @cli.group("export")

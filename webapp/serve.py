@@ -2,8 +2,9 @@
 
 Two rules shape it:
 
-- whyfired has no sign-in, so it listens on a loopback address unless ``ALLOW_REMOTE`` is
-  set; anyone who can reach the port could read and change every review.
+- Outside team mode whyfired has no sign-in, so it listens on a loopback address unless
+  ``ALLOW_REMOTE`` is set: anyone who can reach the port could read and change every
+  review. Team mode, where everyone signs in, may listen anywhere.
 - Analyses (the Explain screen, its peers panel and figures, a rule's replay, exports)
   cost seconds of CPU; light pages cost milliseconds. :class:`HeavyGate` lets at most
   ``HEAVY_WORKERS`` analyses run at once and keeps a share of the server's threads free
@@ -52,9 +53,10 @@ def check_address(host: str, allow_remote: bool) -> None:
     if allow_remote or is_loopback(host):
         return
     raise RemoteAddressRefused(
-        f"refusing to listen on {host}: whyfired has no sign-in, so anyone who can reach "
-        "that address could read and change every review. Listen on 127.0.0.1 (the "
-        "default), or, to share it on purpose with people on a network you trust, set "
+        f"refusing to listen on {host}: without team mode whyfired has no sign-in, so anyone "
+        "who can reach that address could read and change every review. Listen on 127.0.0.1 "
+        "(the default); for a team, serve a PostgreSQL store with --team (everyone signs "
+        "in); or, to share it on purpose with people on a network you trust, set "
         "WHYFIRED_ALLOW_REMOTE=1 and list the names they will use in WHYFIRED_ALLOWED_HOSTS."
     )
 
@@ -112,7 +114,7 @@ def make_server(app: Flask, host: str, port: int) -> Any:
     """A waitress server for ``app``, bound but not yet running (``.run()`` to serve)."""
     import waitress
 
-    check_address(host, bool(app.config.get("ALLOW_REMOTE")))
+    check_address(host, bool(app.config.get("ALLOW_REMOTE") or app.config.get("TEAM_MODE")))
     if not is_loopback(host) and host not in ("0.0.0.0", "::", ""):
         extra = app.config.get("ALLOWED_HOSTS") or ""
         app.config["ALLOWED_HOSTS"] = f"{extra},{host.strip('[]')}".strip(",")

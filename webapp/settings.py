@@ -17,11 +17,23 @@ class Setting:
     help: str
 
 
+def data_dir() -> Path:
+    """The user's data directory for whyfired (created on first use)."""
+    path = Path(platformdirs.user_data_dir("whyfired", appauthor=False))
+    path.mkdir(parents=True, exist_ok=True)
+    return path
+
+
 def default_database_url() -> str:
-    """The SQLite file in the user's data directory (created on first use)."""
-    data_dir = Path(platformdirs.user_data_dir("whyfired", appauthor=False))
-    data_dir.mkdir(parents=True, exist_ok=True)
-    return f"sqlite:///{data_dir / 'whyfired.sqlite'}"
+    """The SQLite file in the user's data directory."""
+    return f"sqlite:///{data_dir() / 'whyfired.sqlite'}"
+
+
+def instance_path(test_config: dict[str, Any] | None = None) -> str:
+    """The instance folder: INSTANCE_PATH (test config or WHYFIRED_INSTANCE_PATH), else
+    the user's data directory. Flask needs it before any config is read."""
+    chosen = (test_config or {}).get("INSTANCE_PATH") or os.environ.get("WHYFIRED_INSTANCE_PATH")
+    return str(chosen or data_dir())
 
 
 SETTINGS: tuple[Setting, ...] = (
@@ -30,6 +42,24 @@ SETTINGS: tuple[Setting, ...] = (
         None,
         "SQLAlchemy URL of the store; from --db, else WHYFIRED_DATABASE_URL, "
         "else a SQLite file in the user's data directory.",
+    ),
+    Setting(
+        "TEAM_MODE",
+        False,
+        "Serve a shared PostgreSQL store to a team: sign-in, roles and an audit trail; the "
+        "schema must be current (whyfired db upgrade). `whyfired serve --team` sets it.",
+    ),
+    Setting(
+        "INSTANCE_PATH",
+        None,
+        "Folder for what a local instance keeps, such as its secret_key file; "
+        "default: the user's data directory.",
+    ),
+    Setting(
+        "SECRET_KEY",
+        None,
+        "Key that signs browser sessions; default: created once and kept in the instance "
+        "folder (local mode) or the store (team mode).",
     ),
     Setting("MAX_IMPORT_MB", 200, "Largest metric file accepted, in megabytes."),
     Setting(

@@ -305,3 +305,25 @@ def test_windows_line_endings_keep_line_numbers(rejected):
     text = HEADER + GOOD + "\n" + GOOD.replace("1450", "x")
     problems = rejected(text.replace("\n", "\r\n"))
     assert problems[0].startswith("upload.csv, line 4, column 'value': 'x' is not a number")
+
+
+@pytest.mark.parametrize(
+    "text, name, expected",
+    [
+        (
+            "timestamp,metric,host,value\n2026-01-01T00:00:00Z,cpu\x00,a,1\n",
+            "nul.csv",
+            "nul.csv, line 2, column 'metric': metric name 'cpu\\x00' contains a control "
+            "character (U+0000) at character 4",
+        ),
+        (
+            '[{"timestamp": "2026-01-01T00:00:00Z", "metric": "cpu", "host": "a\\u001bb", '
+            '"value": 1}]',
+            "escape.json",
+            "the value of label 'host' contains a control character (U+001B) at character 2",
+        ),
+    ],
+)
+def test_control_characters_in_names_and_labels_are_refused(rejected, text, name, expected):
+    problems = rejected(text, name)
+    assert any(expected in p for p in problems), problems

@@ -65,7 +65,11 @@ def test_metric_with_braces_is_refused():
 
 
 _names = st.from_regex(r"[a-z_][a-z0-9_]{0,8}", fullmatch=True)
-_values = st.text(st.characters(blacklist_categories=("Cs",)), max_size=12)
+# Any text a store keeps: no surrogates, no control characters but tab, LF and CR.
+_values = st.text(
+    st.one_of(st.characters(blacklist_categories=("Cs", "Cc")), st.sampled_from("\t\n\r")),
+    max_size=12,
+)
 
 
 @given(
@@ -74,3 +78,13 @@ _values = st.text(st.characters(blacklist_categories=("Cs",)), max_size=12)
 )
 def test_every_key_round_trips(metric, labels):
     assert parse_series_key(series_key(metric, labels)) == (metric, labels)
+
+
+@given(
+    before=_values,
+    control=st.sampled_from([chr(c) for c in (*range(0, 9), 11, 12, *range(14, 32), 127)]),
+    after=_values,
+)
+def test_a_label_value_with_a_control_character_is_refused(before, control, after):
+    with pytest.raises(ValueError, match=rf"label 'host' contains .*U\+{ord(control):04X}"):
+        series_key("cpu", {"host": before + control + after})

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import pytest
 from alembic.autogenerate import compare_metadata
 from alembic.runtime.migration import MigrationContext
@@ -12,8 +14,8 @@ from webapp.store import db
 from webapp.store.models import Base, Series
 
 
-def test_upgrade_then_downgrade_on_a_fresh_file(tmp_path):
-    eng = db.make_engine(f"sqlite:///{tmp_path / 'fresh.sqlite'}")
+def test_upgrade_then_downgrade_on_an_empty_store(empty_db_url):
+    eng = db.make_engine(empty_db_url)
     try:
         db.upgrade(eng)
         head = ScriptDirectory.from_config(db.alembic_config()).get_current_head()
@@ -37,14 +39,14 @@ def test_models_and_migrations_agree(engine):
     assert diff == [], f"models.py and migrations/ disagree; add a migration: {diff}"
 
 
-def test_points_table_is_clustered_on_its_key(engine):
-    with engine.connect() as conn:
+def test_points_table_is_clustered_on_its_key(sqlite_engine):
+    with sqlite_engine.connect() as conn:
         sql = conn.exec_driver_sql("SELECT sql FROM sqlite_master WHERE name = 'points'").scalar()
     assert "WITHOUT ROWID" in sql.upper()
 
 
-def test_sqlite_connections_get_wal_foreign_keys_and_busy_timeout(engine):
-    with engine.connect() as conn:
+def test_sqlite_connections_get_wal_foreign_keys_and_busy_timeout(sqlite_engine):
+    with sqlite_engine.connect() as conn:
         assert conn.exec_driver_sql("PRAGMA journal_mode").scalar() == "wal"
         assert conn.exec_driver_sql("PRAGMA foreign_keys").scalar() == 1
         assert conn.exec_driver_sql("PRAGMA busy_timeout").scalar() == db.BUSY_TIMEOUT_MS
@@ -53,9 +55,9 @@ def test_sqlite_connections_get_wal_foreign_keys_and_busy_timeout(engine):
 def test_foreign_keys_are_enforced(session):
     from sqlalchemy.exc import IntegrityError
 
-    from webapp.store.models import Point
+    from webapp.store.models import ActionItem
 
-    session.add(Point(series_id=999, ts=0, value=1.0))
+    session.add(ActionItem(review_id=999, text="no such review"))
     with pytest.raises(IntegrityError):
         session.flush()
 
@@ -108,3 +110,27 @@ def test_app_builds_one_engine_and_a_session_per_request(app):
         second = db.get_session()
         assert second is not first
         assert second.scalars(select(Series)).all() == []
+
+
+def test_two_upgrades_started_together_on_an_empty_store_both_succeed(empty_db_url, tmp_path):
+    import os
+    import subprocess
+    import sys
+
+    root = str(Path(__file__).resolve().parents[2])
+    env = {**os.environ, "PYTHONPATH": os.pathsep.join([root, os.environ.get("PYTHONPATH", "")])}
+    cli = "from webapp.cli import main; main()"
+    command = [sys.executable, "-c", cli, "db", "upgrade", "--db", empty_db_url]
+    runs = [
+        subprocess.Popen(command, env=env, stdout=subprocess.PIPE, stderr=subprocess.STDOUT)
+        for _ in range(2)
+    ]
+    outputs = [run.communicate(timeout=120)[0].decode() for run in runs]
+    assert [run.returncode for run in runs] == [0, 0], outputs
+    assert all("Schema at revision" in out for out in outputs), outputs
+    eng = db.make_engine(empty_db_url)
+    try:
+        head = ScriptDirectory.from_config(db.alembic_config()).get_current_head()
+        assert db.current_revision(eng) == head
+    finally:
+        eng.dispose()

@@ -18,7 +18,10 @@ ROUNDS = 15
 
 
 @pytest.fixture
-def counter(engine: Engine) -> Engine:
+def counter(sqlite_engine: Engine) -> Engine:
+    """A one-row table on a SQLite file (the locking here is SQLite's; PostgreSQL's row
+    locks and isolation levels are another story)."""
+    engine = sqlite_engine
     with engine.begin() as conn:
         conn.exec_driver_sql("CREATE TABLE counter (n INTEGER NOT NULL)")
         conn.exec_driver_sql("INSERT INTO counter VALUES (0)")

@@ -115,3 +115,11 @@ def test_waitress_serves_the_app_with_its_headers(app):
     finally:
         server.close()
         thread.join(5)
+
+
+def test_team_mode_may_listen_on_an_address_others_can_reach(app) -> None:
+    """Everyone signs in in team mode, so the loopback rule does not apply to it."""
+    with pytest.raises(RemoteAddressRefused):
+        make_server(app, "0.0.0.0", 0)
+    app.config["TEAM_MODE"] = True
+    make_server(app, "0.0.0.0", 0).close()

@@ -8,6 +8,8 @@ round-trips: ``parse_series_key(series_key(m, labels)) == (m, labels)``.
 
 from __future__ import annotations
 
+from webapp.imports.control import check_text
+
 _NEEDS_QUOTES = frozenset(',}="\\')
 _NAME_FORBIDDEN = frozenset('{},="\\')
 
@@ -17,6 +19,7 @@ def _check_metric(metric: str) -> None:
         raise ValueError("a metric name must not be empty")
     if any(ch in "{}" for ch in metric):
         raise ValueError(f"metric name {metric!r} must not contain '{{' or '}}'")
+    check_text(f"metric name {metric!r}", metric)
 
 
 def _check_label_name(name: str) -> None:
@@ -25,6 +28,7 @@ def _check_label_name(name: str) -> None:
             f"label name {name!r} must be non-empty, without surrounding spaces "
             'and without any of { } , = " \\'
         )
+    check_text(f"label name {name!r}", name)
 
 
 def _format_value(value: str) -> str:
@@ -42,7 +46,9 @@ def series_key(metric: str, labels: dict[str, str]) -> str:
     parts = []
     for name in sorted(labels):
         _check_label_name(name)
-        parts.append(f"{name}={_format_value(str(labels[name]))}")
+        value = str(labels[name])
+        check_text(f"the value of label {name!r}", value)
+        parts.append(f"{name}={_format_value(value)}")
     return f"{metric}{{{','.join(parts)}}}"
 
 

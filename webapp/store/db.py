@@ -33,6 +33,8 @@ from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session
 
+from webapp.store import audit, guards  # noqa: F401 - register what every flush does
+
 # A write waits up to a minute for the lock rather than fail: a 1M-row import holds it for
 # the seconds its points take to write (benchmarks/bench_import.py), and waiting beats a
 # lost save. Past that, the web says the store stayed busy and shows the typed text back.
@@ -50,6 +52,8 @@ class WriteInReadingTransaction(RuntimeError):
 def make_engine(url: str, **kwargs: Any) -> Engine:
     """An engine for ``url``; for a SQLite file, its folder is created if missing."""
     parsed = make_url(url)
+    if parsed.drivername == "postgresql":  # no driver named: the one whyfired ships with
+        url = parsed.set(drivername="postgresql+psycopg")
     is_sqlite = parsed.get_backend_name() == "sqlite"
     if is_sqlite and parsed.database and parsed.database != ":memory:":
         Path(parsed.database).expanduser().parent.mkdir(parents=True, exist_ok=True)
@@ -116,8 +120,12 @@ def alembic_config(connection: Any = None) -> Config:
 
 
 def upgrade(engine: Engine, revision: str = "head") -> None:
-    """Bring the schema to ``revision`` (the latest by default)."""
-    with engine.begin() as connection:
+    """Bring the schema to ``revision`` (the latest by default). Runs that start together
+    take turns (PostgreSQL's migrations lock): the later one finds the work done."""
+    from webapp.store import locks
+
+    with engine.begin() as connection:  # on SQLite, BEGIN IMMEDIATE: upgrades take turns
+        locks.hold(connection, locks.MIGRATIONS)
         command.upgrade(alembic_config(connection), revision)
 
 
@@ -131,6 +139,29 @@ def current_revision(engine: Engine) -> str | None:
 
     with engine.connect() as connection:
         return MigrationContext.configure(connection).get_current_revision()
+
+
+class StoreNotReady(RuntimeError):
+    """The store cannot be served as it is; the message says what to do."""
+
+
+def require_team_store(engine: Engine) -> None:
+    """Refuse a store that is not PostgreSQL or whose schema is not the code's."""
+    from alembic.script import ScriptDirectory
+
+    if engine.dialect.name != "postgresql":
+        raise StoreNotReady(
+            "team mode needs a PostgreSQL store; give its URL with --db or "
+            "WHYFIRED_DATABASE_URL (the SQLite file is for one person on this machine)"
+        )
+    head = ScriptDirectory.from_config(alembic_config()).get_current_head()
+    current = current_revision(engine)
+    if current != head:
+        raise StoreNotReady(
+            f"the store's schema is at revision {current or 'none'} and this whyfired needs "
+            f"{head}; run `whyfired db upgrade --db URL` with the whyfired version that "
+            "serves it, then start again"
+        )
 
 
 def new_session(engine: Engine, *, write: bool = True) -> Session:
@@ -153,9 +184,13 @@ def session_scope(engine: Engine, *, write: bool = True) -> Iterator[Session]:
 
 
 def init_app(app: Flask) -> None:
-    """Build the app's engine once, migrate it to head, and close request sessions."""
+    """Build the app's engine once, migrate it to head (not in team mode: there the schema
+    must already be current), and close request sessions."""
     engine = make_engine(app.config["DATABASE_URL"])
-    upgrade(engine)
+    if app.config.get("TEAM_MODE"):
+        require_team_store(engine)
+    else:
+        upgrade(engine)
     app.extensions[ENGINE_KEY] = engine
     app.teardown_appcontext(_close_session)
 

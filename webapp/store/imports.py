@@ -16,7 +16,7 @@ the store keeps one value per point, not its history.
 
 from __future__ import annotations
 
-from collections.abc import Iterable, Iterator, Sequence
+from collections.abc import Sequence
 from dataclasses import asdict, dataclass, field
 from typing import Any
 
@@ -27,8 +27,9 @@ from sqlalchemy.orm import Session
 
 from webapp.imports._types import ParsedImport
 from webapp.imports.keys import parse_series_key
-from webapp.store import stats
-from webapp.store._sql import chunks, driver_cursor, placeholder, require
+from webapp.store import locks, stats
+from webapp.store._sql import chunks, require
+from webapp.store.bulk import write_points
 from webapp.store.models import (
     AlertRule,
     ExcludedPeriod,
@@ -40,8 +41,6 @@ from webapp.store.models import (
 )
 from webapp.store.series import series_by_keys
 from webapp.store.times import from_ms
-
-BATCH_ROWS = 100_000
 
 
 class DuplicateImport(ValueError):
@@ -119,6 +118,7 @@ def record_import(
     session: Session, parsed: ParsedImport, *, allow_duplicate: bool = True
 ) -> ImportSummary:
     """Store ``parsed`` as one import; the caller commits (``db.session_scope``)."""
+    locks.hold(session, locks.IMPORTS)
     with session.begin_nested():
         return _record(session, parsed, allow_duplicate)
 
@@ -136,7 +136,8 @@ def _record(session: Session, parsed: ParsedImport, allow_duplicate: bool) -> Im
         duplicate_count=parsed.duplicate_count,
     )
     # Writing first takes SQLite's write lock (waiting out other writers) before this
-    # import reads anything, so no other import can commit between its reads and writes.
+    # import reads anything, so no other import can commit between its reads and writes;
+    # on PostgreSQL the imports lock taken by record_import does the same.
     session.add(imp)
     session.flush()
     earlier = _same_content(session, imp)
@@ -210,8 +211,8 @@ def _write_all(
     before = sum(_point_counts(session, [s.id for s in existing]).values())
     fresh = np.isin(series_ids, [series[k].id for k in created])
     old = ~fresh
-    _write_points(session, import_id, series_ids[fresh], ts[fresh], values[fresh], upsert=False)
-    _write_points(session, import_id, series_ids[old], ts[old], values[old], upsert=True)
+    write_points(session, import_id, series_ids[fresh], ts[fresh], values[fresh], upsert=False)
+    write_points(session, import_id, series_ids[old], ts[old], values[old], upsert=True)
     span = (int(ts[old].min()), int(ts[old].max())) if old.any() else None
     stats.refresh(session, existing, span)
     created_rows = {series[k].id: series[k] for k in created}
@@ -263,66 +264,13 @@ def _sorted_last_wins(
     return series_ids[last], ts[last], values[last]
 
 
-def _points_sql(paramstyle: str, import_id: int, *, upsert: bool) -> str:
-    """The bulk statement; the import id is written into it (one integer we made), which
-    saves binding it on every row."""
-    p = placeholder(paramstyle)
-    sql = (
-        "INSERT INTO points (series_id, ts, value, import_id) "
-        f"VALUES ({p}, {p}, {p}, {int(import_id)})"
-    )
-    if upsert:
-        sql += (
-            " ON CONFLICT (series_id, ts) DO UPDATE"
-            " SET value = excluded.value, import_id = excluded.import_id"
-        )
-    return sql
-
-
-def _write_points(
-    session: Session,
-    import_id: int,
-    series_ids: np.ndarray,
-    ts: np.ndarray,
-    values: np.ndarray,
-    *,
-    upsert: bool,
-) -> None:
-    """Write points in batches through the DB-API ``executemany`` of the session's own
-    connection, so they share its transaction without building ORM objects. Points of
-    series created by this import cannot exist yet and skip the upsert clause."""
-    if not len(ts):
-        return
-    connection = session.connection()
-    sql = _points_sql(connection.dialect.paramstyle, import_id, upsert=upsert)
-    with driver_cursor(connection, sql) as cursor:
-        for batch in _batches(series_ids, ts, values):
-            _write_batch(cursor, sql, batch)
-
-
-def _batches(
-    series_ids: np.ndarray, ts: np.ndarray, values: np.ndarray
-) -> Iterator[Iterable[tuple[int, int, float]]]:
-    for start in range(0, len(ts), BATCH_ROWS):
-        stop = start + BATCH_ROWS
-        yield zip(
-            series_ids[start:stop].tolist(),
-            ts[start:stop].tolist(),
-            values[start:stop].tolist(),
-            strict=True,
-        )
-
-
-def _write_batch(cursor: Any, sql: str, rows: Iterable[tuple[int, int, float]]) -> None:
-    cursor.executemany(sql, rows)
-
-
 def delete_import(session: Session, import_id: int) -> int:
     """Remove an import and the points whose stored value it wrote; returns how many.
 
     Series left without points that nothing else refers to (pages, alert rules, saved
     explanations, excluded periods) are removed too. Raises LookupError for an unknown id.
     """
+    locks.hold(session, locks.IMPORTS)
     imp = require(session, Import, import_id, "import")
     keys = list((imp.summary or {}).get("series_keys", []))
     touched = list(series_by_keys(session, keys).values())

@@ -87,6 +87,7 @@ class Import(Base):
     last_ts: Mapped[int | None] = mapped_column(BigInteger)
     summary: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
+    created_by: Mapped[str | None] = mapped_column(String(100))  # team mode: who imported
 
 
 class Series(Base):
@@ -115,18 +116,18 @@ class Point(Base):
     On SQLite the table is clustered on its key (``WITHOUT ROWID``): one B-tree, appended
     in (series, ts) order by bulk imports. An import's points always lie inside its own
     series and time range, so deleting an import needs no index on ``import_id``.
+
+    Neither id is a foreign key: only imports write points, with series ids they hold under
+    the imports lock, and a series is removed only once it has no points left. A per-row
+    check would make a bulk load on PostgreSQL several times slower.
     """
 
     __tablename__ = "points"
     __table_args__ = {"sqlite_with_rowid": False}
 
-    series_id: Mapped[int] = mapped_column(
-        ForeignKey("series.id", ondelete="CASCADE"), primary_key=True
-    )
+    series_id: Mapped[int] = mapped_column(Integer, primary_key=True)
     ts: Mapped[int] = mapped_column(BigInteger, primary_key=True)
     value: Mapped[float] = mapped_column(Float)
-    # No foreign key: deleting an import removes the points it owns first, and skipping the
-    # per-row parent lookup keeps bulk imports fast.
     import_id: Mapped[int | None] = mapped_column(Integer)
 
 
@@ -246,6 +247,8 @@ class Review(Base):
     exclude_from_baselines: Mapped[bool] = mapped_column(Boolean, default=True)
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
     updated_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow, onupdate=utcnow)
+    created_by: Mapped[str | None] = mapped_column(String(100))  # team mode: the author
+    updated_by: Mapped[str | None] = mapped_column(String(100))  # team mode: the last editor
 
     timeline: Mapped[list[TimelineEntry]] = relationship(
         back_populates="review", cascade="all, delete-orphan", order_by="TimelineEntry.at"
@@ -298,3 +301,41 @@ class ActionItem(Base):
     position: Mapped[int] = mapped_column(Integer, default=0)
 
     review: Mapped[Review] = relationship(back_populates="action_items")
+
+
+class AppKey(Base):
+    """A secret the instance keeps across restarts, e.g. the key that signs sessions."""
+
+    __tablename__ = "app_keys"
+
+    name: Mapped[str] = mapped_column(String(40), primary_key=True)
+    value: Mapped[str] = mapped_column(String(200))
+    created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
+
+
+class User(Base):
+    """A person who signs in to a team-mode instance. ``role``: viewer | editor | admin."""
+
+    __tablename__ = "users"
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    name: Mapped[str] = mapped_column(String(100), unique=True)
+    password_hash: Mapped[str] = mapped_column(String(300))
+    role: Mapped[str] = mapped_column(String(10), default="viewer")
+    failed_sign_ins: Mapped[int] = mapped_column(Integer, default=0)
+    last_failed_at: Mapped[dt.datetime | None] = mapped_column(UTCDateTime)
+    created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
+
+
+class AuditEntry(Base):
+    """Who changed which record when; ``changes`` holds old and new values of text fields."""
+
+    __tablename__ = "audit"
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow, index=True)
+    user_name: Mapped[str | None] = mapped_column(String(100))
+    action: Mapped[str] = mapped_column(String(10))  # insert | update | delete
+    table_name: Mapped[str] = mapped_column(String(60))
+    record_id: Mapped[str | None] = mapped_column(String(100))
+    changes: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)

@@ -8,7 +8,7 @@ from flask import Flask
 
 
 def register_web(app: Flask) -> None:
-    from webapp.web import assets, csrf, errors, filters
+    from webapp.web import assets, auth, csrf, errors, filters, textcheck
     from webapp.web.views import (
         explain,
         home,
@@ -20,7 +20,9 @@ def register_web(app: Flask) -> None:
         series,
     )
 
+    auth.init_app(app)
     csrf.init_app(app)
+    textcheck.init_app(app)
     errors.init_app(app)
     filters.init_app(app)
     app.add_template_global(assets.plotly_version, "plotly_version")

@@ -13,10 +13,12 @@ from webapp.web.htmx import is_htmx
 
 TITLES = {
     400: "That request could not be understood",
+    401: "Sign in first",
     403: "Not allowed",
     404: "Not found",
     405: "That action is not available here",
     413: "That upload is too large",
+    429: "Too many tries",
     500: "Something went wrong on our side",
 }
 
