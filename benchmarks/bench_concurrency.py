@@ -123,9 +123,8 @@ def free_port() -> int:
 
 
 def build_store(folder: Path) -> str:
-    from webapp.store.seed import load_demo
-
     from webapp.demo import build_demo
+    from webapp.services.demo import load_demo
 
     url = f"sqlite:///{folder / 'bench.sqlite'}"
     engine = db.make_engine(url)
