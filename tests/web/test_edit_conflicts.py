@@ -8,7 +8,7 @@ import re
 
 import pytest
 
-from webapp.store import action_items, reviews
+from webapp.store import action_items, attachments, reviews
 from webapp.store.models import Review
 
 FORM = {
@@ -105,3 +105,17 @@ def test_an_action_item_saved_from_an_older_version_quotes_theirs(client, csrf, 
     assert "Stored now: “Add a canary stage, open”" in text
     assert 'value="Roll back faster"' in text  # yours stays in the form
     assert stored(session, review.id).action_items[0].text == "Add a canary stage"
+
+
+def test_a_caption_saved_from_an_older_version_quotes_theirs(
+    client, csrf, review, session, make_explanation
+):
+    attachment = attachments.attach_explanation(session, review, make_explanation().id)
+    session.commit()
+    url = f"/reviews/{review.id}/attachments/{attachment.id}/caption"
+    theirs = {"csrf_token": csrf, "version": "1", "caption": "The band at noon"}
+    assert client.post(url, data=theirs).status_code == 302
+    refused = client.post(url, data={"csrf_token": csrf, "version": "1", "caption": "Mine"})
+    assert refused.status_code == 409
+    text = html.unescape(refused.text)
+    assert "Stored now: “The band at noon”" in text and 'value="Mine"' in text
