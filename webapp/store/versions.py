@@ -32,7 +32,7 @@ class EditConflict(ReviewInvalid):
             {
                 VERSION_FIELD: (
                     f"Someone else saved this {what} after you opened it (you started from "
-                    f"version {sent}). Nothing of yours was saved; compare both texts below."
+                    f"version {sent}). Nothing of yours was saved."
                 )
             }
         )
