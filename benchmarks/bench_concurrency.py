@@ -59,6 +59,7 @@ REVIEW_FORM = {
     "lessons": "",
 }
 TOLERANCES = (2.5, 3.0, 3.5, 4.0)
+VERSION = re.compile(r'id="review-version" value="(\d+)"')
 WHYFIRED = (sys.executable, "-c", "from webapp.cli import main; main()")
 
 
@@ -98,11 +99,16 @@ class Tally:
     read_seconds: list[float] = field(default_factory=list)
     write_seconds: list[float] = field(default_factory=list)
     acknowledged: dict[str, list[str]] = field(default_factory=dict)
+    conflicts: int = 0
     lock: threading.Lock = field(default_factory=threading.Lock)
 
     def error(self, what: str) -> None:
         with self.lock:
             self.errors.append(what)
+
+    def conflict(self) -> None:
+        with self.lock:
+            self.conflicts += 1
 
     def ack(self, kind: str, marker: str, seconds: float) -> None:
         with self.lock:
@@ -155,21 +161,33 @@ def new_review(browser: Browser, title: str) -> int:
     return int(headers["Location"].rstrip("/").split("/")[-2])
 
 
+def edit_version(browser: Browser, review_id: int) -> str:
+    """The version a review's edit page was opened at, as a tab would send it back."""
+    page = browser.request("GET", f"/reviews/{review_id}/edit")[1]
+    return VERSION.search(page).group(1)
+
+
 def writer(kind: str, base: str, ids: dict, series_id: int, until: threading.Event, t: Tally):
+    """One tab writing in a loop. The review editors carry the version they opened: autosave
+    takes the next one from each answer, a full edit opens the edit page again first."""
     browser = Browser(base)
+    version = edit_version(browser, ids[kind]) if kind in ("autosave", "edit") else ""
     n = 0
     while not until.is_set():
         n += 1
         marker = f"bench-{kind}-{n}"
         if kind == "autosave":
-            path, form = f"/reviews/{ids['autosave']}/autosave", {"summary": marker}
+            path = f"/reviews/{ids['autosave']}/autosave"
+            form = {"summary": marker, "version": version}
         elif kind == "timeline":
             path, form = (
                 f"/reviews/{ids['timeline']}/timeline",
                 {"at": "2026-11-30T14:20", "text": marker},
             )
         elif kind == "edit":
-            path, form = f"/reviews/{ids['edit']}/edit", REVIEW_FORM | {"lessons": marker}
+            version = edit_version(browser, ids["edit"])
+            path = f"/reviews/{ids['edit']}/edit"
+            form = REVIEW_FORM | {"lessons": marker, "version": version}
         else:
             path, form = "/explain/save", {"series": str(series_id), "title": marker}
         started = time.perf_counter()
@@ -180,6 +198,10 @@ def writer(kind: str, base: str, ids: dict, series_id: int, until: threading.Eve
             continue
         if status in (200, 204, 302, 303):
             t.ack(kind, marker, time.perf_counter() - started)
+            found = VERSION.search(body)
+            version = found.group(1) if found else version
+        elif status == 409:  # refused over a newer version: answered, not lost, not an error
+            t.conflict()
         else:
             text = re.sub(r"<[^>]+>|\s+", " ", body)[:160]
             t.error(f"{kind}: HTTP {status} {text}")
@@ -253,6 +275,7 @@ def report(t: Tally, ids: dict, url: str, seconds: float) -> None:
             f"reads: {len(t.read_seconds)}, p50 {statistics.median(t.read_seconds):.3f} s, "
             f"p95 {percentile(t.read_seconds, 95):.3f} s, max {max(t.read_seconds):.3f} s"
         )
+    print(f"edit conflicts answered (409, nothing stored): {t.conflicts}")
     print(f"errors: {len(t.errors)}")
     for line in t.errors[:10]:
         print("  ", line)

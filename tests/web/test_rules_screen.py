@@ -522,3 +522,23 @@ def test_a_threshold_rule_replay_has_no_band(client, rule) -> None:
     traces = replay_traces(client.get(f"/rules/{rule.id}/replay").text)
     assert traces, "the replay figure is there"
     assert not [t for t in traces if str(t.get("name")).startswith("expected band")]
+
+
+def test_a_rule_saved_from_an_older_version_is_refused_with_both_texts(
+    client, csrf, rule, watched, session
+) -> None:
+    page = client.get(f"/rules/{rule.id}/edit").text
+    assert 'name="version" value="1"' in page
+    mine = rule_form(watched.id, threshold="300", description="raised for the batch", version="1")
+    theirs = rule_form(watched.id, threshold="250", description="their words", version="1")
+    first = client.post(f"/rules/{rule.id}/edit", data={"csrf_token": csrf, **theirs})
+    assert first.status_code == 302
+    refused = client.post(f"/rules/{rule.id}/edit", data={"csrf_token": csrf, **mine})
+    assert refused.status_code == 409
+    text = html.unescape(refused.text)
+    assert "Someone else saved this alert rule" in text and "their words" in text
+    assert 'value="raised for the batch"' in text or "raised for the batch</textarea>" in text
+    assert 'name="version" value="2"' in text  # saving again replaces theirs, by choice
+    session.rollback()
+    session.expire_all()
+    assert store_rules.get_rule(session, rule.id).threshold == 250.0

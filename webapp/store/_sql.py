@@ -7,7 +7,7 @@ from contextlib import contextmanager
 from typing import Any, TypeVar
 
 from sqlalchemy import Connection
-from sqlalchemy.exc import DBAPIError
+from sqlalchemy.exc import DBAPIError, IntegrityError
 from sqlalchemy.orm import Session
 
 T = TypeVar("T")
@@ -71,3 +71,13 @@ def child_of(items: Iterable[Any], item_id: int, what: str) -> Any:
         if item.id == int(item_id):
             return item
     raise ReviewInvalid({"id": f"This review has no {what} #{item_id}."})
+
+
+def flush_unique(session: Session, errors: Mapping[str, str]) -> None:
+    """Flush in a savepoint; ReviewInvalid(``errors``) when a unique constraint refuses the
+    write (two hands adding the same thing at once), the rest of the transaction intact."""
+    try:
+        with session.begin_nested():
+            session.flush()
+    except IntegrityError as err:
+        raise ReviewInvalid(errors) from err

@@ -6,10 +6,12 @@ import datetime as dt
 from collections.abc import Mapping
 from typing import Any
 
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
-from webapp.store._sql import ReviewInvalid, child_of
+from webapp.store._sql import ReviewInvalid, child_of, flush_unique
 from webapp.store.models import ActionItem, Review
+from webapp.store.versions import claim
 
 ACTION_STATES = ("open", "in progress", "done")
 OWNER_MAX = 200
@@ -56,16 +58,29 @@ def add_action_item(session: Session, review: Review, data: Mapping[str, Any]) -
     values, errors = clean_action_item(data)
     if errors:
         raise ReviewInvalid(errors)
-    item = ActionItem(**values, position=len(review.action_items))
+    # After the last position stored (not the count: removals leave gaps). Adds to one review
+    # take turns: SQLite's write lock does it, PostgreSQL locks the review's row; the unique
+    # (review, position) constraint refuses a duplicate should two adds ever race anyway.
+    session.execute(select(Review.id).where(Review.id == review.id).with_for_update())
+    last = session.scalar(
+        select(func.max(ActionItem.position)).where(ActionItem.review_id == review.id)
+    )
+    item = ActionItem(**values, position=0 if last is None else last + 1)
     review.action_items.append(item)
-    session.flush()
+    flush_unique(session, {"text": "Another action item was added at the same moment; add again."})
     return item
 
 
 def update_action_item(
-    session: Session, review: Review, item_id: int, data: Mapping[str, Any]
+    session: Session,
+    review: Review,
+    item_id: int,
+    data: Mapping[str, Any],
+    version: int | None = None,
 ) -> ActionItem:
+    """Save the item's fields over ``version`` (EditConflict when a newer one is stored)."""
     item = child_of(review.action_items, item_id, "action item")
+    claim(session, item, version, "action item")
     values, errors = clean_action_item(data)
     if errors:
         raise ReviewInvalid(errors)

@@ -6,8 +6,9 @@ from collections.abc import Iterable
 
 from sqlalchemy.orm import Session
 
-from webapp.store._sql import ReviewInvalid, child_of
+from webapp.store._sql import ReviewInvalid, child_of, flush_unique
 from webapp.store.models import Explanation, Review, ReviewExplanation
+from webapp.store.versions import claim
 
 
 def attach_explanation(
@@ -17,20 +18,28 @@ def attach_explanation(
     explanation = session.get(Explanation, explanation_id)
     if explanation is None:
         raise ReviewInvalid({"explanation_id": f"There is no saved explanation #{explanation_id}."})
+    already = {"explanation_id": f"Explanation #{explanation_id} is already attached."}
     if any(a.explanation_id == explanation_id for a in review.attachments):
-        raise ReviewInvalid(
-            {"explanation_id": f"Explanation #{explanation_id} is already attached."}
-        )
+        raise ReviewInvalid(already)
     attachment = ReviewExplanation(
         explanation=explanation, caption=(caption or "").strip(), position=len(review.attachments)
     )
     review.attachments.append(attachment)
-    session.flush()
+    flush_unique(session, already)
     return attachment
 
 
-def set_caption(session: Session, review: Review, attachment_id: int, caption: str) -> None:
-    child_of(review.attachments, attachment_id, "attachment").caption = (caption or "").strip()
+def set_caption(
+    session: Session,
+    review: Review,
+    attachment_id: int,
+    caption: str,
+    version: int | None = None,
+) -> None:
+    """Save the caption over ``version`` (EditConflict when a newer one is stored)."""
+    attachment = child_of(review.attachments, attachment_id, "attachment")
+    claim(session, attachment, version, "caption")
+    attachment.caption = (caption or "").strip()
     session.flush()
 
 

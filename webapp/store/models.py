@@ -25,6 +25,7 @@ from sqlalchemy import (
     String,
     Text,
     TypeDecorator,
+    UniqueConstraint,
 )
 from sqlalchemy.orm import DeclarativeBase, Mapped, mapped_column, relationship
 
@@ -165,6 +166,7 @@ class AlertRule(Base):
     hold_seconds: Mapped[int] = mapped_column(Integer, default=0)
     check_every_seconds: Mapped[int | None] = mapped_column(Integer)
     description: Mapped[str] = mapped_column(Text, default="")
+    version: Mapped[int] = mapped_column(Integer, default=1, server_default="1")
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
 
 
@@ -245,6 +247,8 @@ class Review(Base):
     verdict_parameters: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
     verdict_rationale: Mapped[str] = mapped_column(Text, default="")
     exclude_from_baselines: Mapped[bool] = mapped_column(Boolean, default=True)
+    # Bumped by every edit of the fields above the verdict (webapp.store.versions).
+    version: Mapped[int] = mapped_column(Integer, default=1, server_default="1")
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
     updated_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow, onupdate=utcnow)
     created_by: Mapped[str | None] = mapped_column(String(100))  # team mode: the author
@@ -278,12 +282,14 @@ class TimelineEntry(Base):
 
 class ReviewExplanation(Base):
     __tablename__ = "review_explanations"
+    __table_args__ = (UniqueConstraint("review_id", "explanation_id"),)  # attached once
 
     id: Mapped[int] = mapped_column(Integer, primary_key=True)
     review_id: Mapped[int] = mapped_column(ForeignKey("reviews.id", ondelete="CASCADE"))
     explanation_id: Mapped[int] = mapped_column(ForeignKey("explanations.id", ondelete="CASCADE"))
     caption: Mapped[str] = mapped_column(Text, default="")
     position: Mapped[int] = mapped_column(Integer, default=0)
+    version: Mapped[int] = mapped_column(Integer, default=1, server_default="1")
 
     review: Mapped[Review] = relationship(back_populates="attachments")
     explanation: Mapped[Explanation] = relationship()
@@ -291,6 +297,7 @@ class ReviewExplanation(Base):
 
 class ActionItem(Base):
     __tablename__ = "action_items"
+    __table_args__ = (UniqueConstraint("review_id", "position"),)
 
     id: Mapped[int] = mapped_column(Integer, primary_key=True)
     review_id: Mapped[int] = mapped_column(ForeignKey("reviews.id", ondelete="CASCADE"))
@@ -299,6 +306,7 @@ class ActionItem(Base):
     due_date: Mapped[dt.date | None] = mapped_column()
     state: Mapped[str] = mapped_column(String(20), default="open")  # open | in progress | done
     position: Mapped[int] = mapped_column(Integer, default=0)
+    version: Mapped[int] = mapped_column(Integer, default=1, server_default="1")
 
     review: Mapped[Review] = relationship(back_populates="action_items")
 

@@ -19,6 +19,7 @@ from sqlalchemy.orm import Session
 from webapp.store._sql import ReviewInvalid as ReviewInvalid
 from webapp.store.models import ActionItem, Page, Review, TimelineEntry
 from webapp.store.times import utc_datetime
+from webapp.store.versions import claim
 
 STATUSES = ("draft", "final")
 TEXT_FIELDS = ("summary", "impact", "trigger", "root_cause", "detection", "resolution", "lessons")
@@ -127,9 +128,15 @@ def create_review(session: Session, data: Mapping[str, Any], tz: str = "UTC") ->
 
 
 def update_review(
-    session: Session, review: Review, data: Mapping[str, Any], tz: str = "UTC"
+    session: Session,
+    review: Review,
+    data: Mapping[str, Any],
+    tz: str = "UTC",
+    version: int | None = None,
 ) -> Review:
-    """Save every field at once, or nothing when any field is invalid."""
+    """Save every field at once, or nothing when any field is invalid or the review was saved
+    by someone else since ``version`` (EditConflict, checked first)."""
+    claim(session, review, version, "review")
     values, errors = _checked(session, data, tz)
     if errors:
         raise ReviewInvalid(errors)
@@ -140,20 +147,26 @@ def update_review(
 
 
 def autosave_review(
-    session: Session, review: Review, data: Mapping[str, Any], tz: str = "UTC"
+    session: Session,
+    review: Review,
+    data: Mapping[str, Any],
+    tz: str = "UTC",
+    version: int | None = None,
 ) -> tuple[list[str], dict[str, str]]:
     """Store the valid fields of a draft as typed; return (saved fields, errors).
 
     Invalid fields keep their last good stored value, so autosave never writes a bad
-    review; the form in the browser still holds what was typed.
+    review; the form in the browser still holds what was typed. A draft that differs from
+    the stored review is only written over ``version`` (EditConflict when a newer one is
+    stored); one that matches it writes nothing.
     """
     values, errors = _checked(session, data, tz, partial=True)
-    saved = []
-    for name, value in values.items():
-        if getattr(review, name) != value:
-            setattr(review, name, value)
-            saved.append(name)
-    session.flush()
+    saved = [name for name, value in values.items() if getattr(review, name) != value]
+    if saved:
+        claim(session, review, version, "review")
+        for name in saved:
+            setattr(review, name, values[name])
+        session.flush()
     return saved, errors
 
 

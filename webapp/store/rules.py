@@ -11,6 +11,7 @@ from sqlalchemy.orm import Session
 from webapp.analysis.vocabulary import DIRECTIONS, RULE_FIELDS, RULE_KINDS
 from webapp.store._sql import delete_by_id, require
 from webapp.store.models import AlertRule
+from webapp.store.versions import claim
 
 
 def _check(rule: AlertRule) -> None:
@@ -70,9 +71,13 @@ def get_rule(session: Session, rule_id: int) -> AlertRule | None:
     return session.get(AlertRule, rule_id)
 
 
-def update_rule(session: Session, rule_id: int, **fields: Any) -> AlertRule:
-    """Change some fields; nothing changes when the result would be invalid."""
+def update_rule(
+    session: Session, rule_id: int, version: int | None = None, **fields: Any
+) -> AlertRule:
+    """Change some fields over ``version``; nothing changes when the result would be invalid
+    or a newer version is stored (EditConflict)."""
     rule = require(session, AlertRule, rule_id, "alert rule")
+    claim(session, rule, version, "alert rule")
     previous = {name: getattr(rule, name) for name in RULE_FIELDS}
     _assign(rule, fields)
     try:

@@ -6,17 +6,85 @@ also sends ``CHECKBOX_SHOWN``; the verdict's parameters are typed as ``name: val
 
 from __future__ import annotations
 
-from collections.abc import Mapping
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
 from typing import Any
 
 from sqlalchemy.orm import Session
 
 from webapp.store import verdicts
 from webapp.store._sql import ReviewInvalid
-from webapp.store.models import Review
+from webapp.store.models import ActionItem, Review
+from webapp.store.reviews import REVIEW_FIELDS
+from webapp.store.versions import EditConflict
 
 CHECKBOX_SHOWN = "exclude_from_baselines_shown"
 TICKED = {"1", "on", "true", "yes"}
+# Sent by the conflict panel's "save mine" button: the stored version the reader chose to
+# replace, taking the place of the version the form was opened at.
+OVERWRITE = "overwrite_version"
+
+
+@dataclass
+class FieldPair:
+    name: str
+    label: str
+    theirs: str
+    yours: str
+
+
+@dataclass
+class Conflict:
+    """A refused save: the fields where the stored review and the typed form differ."""
+
+    message: str
+    stored_version: int
+    stored_at: Any
+    fields: list[FieldPair]
+
+
+def chosen_version(form: Mapping[str, Any]) -> Any:
+    """The version a save is made over: the one the reader chose to replace, if any."""
+    return form.get(OVERWRITE) or form.get("version")
+
+
+def review_conflict(
+    stored: Mapping[str, Any], typed: Mapping[str, Any], err: EditConflict, review: Review
+) -> Conflict:
+    """Both texts of every field where ``stored`` (form values of the stored review) and
+    ``typed`` (the form as sent) differ; a field the form did not send is not compared."""
+    pairs = []
+    for name in REVIEW_FIELDS:
+        if name == "exclude_from_baselines":
+            theirs = "on" if stored.get(name) else "off"
+            yours = "on" if _ticked(typed.get(name, "")) else "off"
+            if CHECKBOX_SHOWN not in typed:
+                continue
+        elif name in typed:
+            theirs, yours = _text(stored.get(name)), _text(typed.get(name))
+        else:
+            continue
+        if theirs != yours:
+            pairs.append(FieldPair(name, name.replace("_", " ").capitalize(), theirs, yours))
+    return Conflict(err.errors["version"], review.version, review.updated_at, pairs)
+
+
+def _text(value: Any) -> str:
+    return str(value or "").replace("\r\n", "\n").strip()
+
+
+def quoted(texts: Iterable[str]) -> str:
+    """The first of ``texts`` in quotes, or a note that it is gone."""
+    for text in texts:
+        return f"“{text}”" if text else "(empty)"
+    return "(removed)"
+
+
+def action_text(item: ActionItem) -> str:
+    """An action item in one line, as the conflict message quotes it."""
+    due = f", due {item.due_date.isoformat()}" if item.due_date else ""
+    owner = f", owner {item.owner}" if item.owner else ""
+    return f"{item.text}{owner}{due}, {item.state}"
 
 
 def review_data(form: Mapping[str, Any]) -> dict[str, Any]:

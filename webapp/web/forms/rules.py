@@ -132,6 +132,7 @@ def rule_form_values(rule: AlertRule | None) -> dict[str, str]:
         "hold": f"{rule.hold_seconds}s",
         "check_every": f"{rule.check_every_seconds}s" if rule.check_every_seconds else "",
         "description": rule.description or "",
+        "version": str(rule.version),
     }
 
 

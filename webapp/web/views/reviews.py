@@ -25,6 +25,7 @@ from webapp.store import rules as store_rules
 from webapp.store import timeline as store_timeline
 from webapp.store.models import Review
 from webapp.store.reviews import ReviewInvalid
+from webapp.store.versions import EditConflict, sent_version
 from webapp.web import export, filters
 from webapp.web.charts.evidence import figure_embed
 from webapp.web.forms import reviews as review_forms
@@ -51,18 +52,35 @@ def form_values(review: Review) -> dict[str, Any]:
     values["incident_end"] = filters.input_time(review.incident_end, TZ)
     values["exclude_from_baselines"] = "on" if review.exclude_from_baselines else ""
     values["page_id"] = str(review.page_id or "")
+    values["version"] = str(review.version)
     return values
 
 
 def _form_page(
-    template: str, review: Review | None, values: Mapping[str, Any], errors: Mapping[str, str]
+    template: str,
+    review: Review | None,
+    values: Mapping[str, Any],
+    errors: Mapping[str, str],
+    conflict: review_forms.Conflict | None = None,
 ) -> tuple[str, int]:
     session = db.get_session()
     pages = store_pages.list_pages(session)[:200]
     html = render_template(
-        template, review=review, values=values, errors=errors, pages=pages, tz=TZ
+        template,
+        review=review,
+        values=values,
+        errors=errors,
+        pages=pages,
+        conflict=conflict,
+        tz=TZ,
     )
-    return html, 422 if errors else 200
+    return html, 409 if conflict else 422 if errors else 200
+
+
+def _conflict(review_id: int, err: EditConflict) -> review_forms.Conflict:
+    """After the rollback: the review as stored now beside the form as typed."""
+    stored = load_review(review_id)
+    return review_forms.review_conflict(form_values(stored), request.form, err, stored)
 
 
 @bp.get("/reviews")
@@ -165,7 +183,12 @@ def edit(review_id: int) -> Any:
         return _form_page("reviews/edit.html", review, form_values(review), {})
     session = db.get_session()
     try:
-        store.update_review(session, review, review_forms.review_data(request.form), TZ)
+        version = sent_version(review_forms.chosen_version(request.form))
+        store.update_review(session, review, review_forms.review_data(request.form), TZ, version)
+    except EditConflict as err:
+        session.rollback()
+        conflict = _conflict(review_id, err)
+        return _form_page("reviews/edit.html", review, request.form, {}, conflict)
     except ReviewInvalid as err:
         session.rollback()
         return _form_page("reviews/edit.html", review, request.form, err.errors)
@@ -175,19 +198,34 @@ def edit(review_id: int) -> Any:
 
 
 @bp.post("/reviews/<int:review_id>/autosave")
-def autosave(review_id: int) -> str:
-    """Store what is valid of the draft; answer with the status line and the field errors."""
+def autosave(review_id: int) -> Any:
+    """Store what is valid of the draft; answer with the status line, the field errors and
+    the version now stored. Against a newer version it stores nothing and answers with both
+    texts; the page stops autosaving until the reader chooses (static/reviews.js)."""
     session = db.get_session()
     review = load_review(review_id)
-    saved, errors = store.autosave_review(
-        session, review, review_forms.review_data(request.form), TZ
-    )
+    try:
+        version = sent_version(request.form.get("version"))
+        saved, errors = store.autosave_review(
+            session, review, review_forms.review_data(request.form), TZ, version
+        )
+    except EditConflict as err:
+        session.rollback()
+        conflict = _conflict(review_id, err)
+        html = render_template(
+            "reviews/_autosave_conflict.html", conflict=conflict, review=load_review(review_id)
+        )
+        return html, 409
+    except ReviewInvalid as err:  # a malformed version number
+        session.rollback()
+        saved, errors = [], err.errors
     session.commit()
     return render_template(
         "reviews/_autosave.html",
         saved=saved,
         errors=errors,
         fields=store.REVIEW_FIELDS,
+        version=review.version,
         at=filters.local_time(review.updated_at, TZ),
     )
 
@@ -203,13 +241,31 @@ def delete(review_id: int) -> Response:
     return redirect(url_for("reviews.index"))
 
 
-def _change(review_id: int, form: str, anchor: str, change: Callable[..., Any], note: str) -> Any:
+def _change(
+    review_id: int,
+    form: str,
+    anchor: str,
+    change: Callable[..., Any],
+    note: str,
+    stored_text: Callable[[Review], str] | None = None,
+) -> Any:
     """Run one change to a review; on a validation error show the page again, 422, with the
-    sub-form's typed values and its messages."""
+    sub-form's typed values and its messages. On an edit conflict (409) the message quotes
+    ``stored_text`` of the review as stored now, the form keeps what was typed and carries
+    the stored version, so saving again replaces theirs by choice."""
     session = db.get_session()
     review = load_review(review_id)
     try:
         change(session, review)
+    except EditConflict as err:
+        session.rollback()
+        stored = load_review(review_id)
+        message = err.errors["version"]
+        if stored_text is not None:
+            message += f" Stored now: {stored_text(stored)}. Yours is in the form: save again"
+            message += " to put it in place of theirs."
+        html, _status = _show(stored, {form: request.form}, {form: {"version": message}})
+        return html, 409
     except ReviewInvalid as err:
         session.rollback()
         return _show(load_review(review_id), {form: request.form}, {form: err.errors})
@@ -279,8 +335,11 @@ def caption(review_id: int, attachment_id: int) -> Any:
         review_id,
         f"caption-{attachment_id}",
         f"attachment-{attachment_id}",
-        lambda s, r: store_attachments.set_caption(s, r, attachment_id, text),
+        lambda s, r: store_attachments.set_caption(
+            s, r, attachment_id, text, sent_version(request.form.get("version"))
+        ),
         "Caption saved.",
+        lambda r: review_forms.quoted(a.caption for a in r.attachments if a.id == attachment_id),
     )
 
 
@@ -326,8 +385,13 @@ def update_action(review_id: int, item_id: int) -> Any:
         review_id,
         f"action-{item_id}",
         "actions",
-        lambda s, r: store_actions.update_action_item(s, r, item_id, form),
+        lambda s, r: store_actions.update_action_item(
+            s, r, item_id, form, sent_version(form.get("version"))
+        ),
         "Action item saved.",
+        lambda r: review_forms.quoted(
+            review_forms.action_text(i) for i in r.action_items if i.id == item_id
+        ),
     )
 
 

@@ -20,6 +20,7 @@ from webapp.store import rules as store_rules
 from webapp.store import series as store_series
 from webapp.store.models import AlertRule, Review
 from webapp.store.reviews import ReviewInvalid
+from webapp.store.versions import EditConflict, sent_version
 from webapp.web.charts import rules as rule_charts
 from webapp.web.charts.evidence import figure_embed
 from webapp.web.forms import reviews as review_forms
@@ -82,7 +83,20 @@ def _save(rule: AlertRule | None) -> Any:
         if rule is None:
             rule = store_rules.create_rule(session, **fields)
         else:
-            store_rules.update_rule(session, rule.id, **fields)
+            version = sent_version(request.form.get("version"))
+            store_rules.update_rule(session, rule.id, version, **fields)
+    except EditConflict as err:
+        session.rollback()
+        stored = load_rule(rule.id)
+        message = (
+            f"{err.errors['version']} Stored now: “{stored.name}”, {rule_text(stored)}; "
+            f"description: “{stored.description or ''}”. Yours is in the form: save again to "
+            "put it in place of theirs."
+        )
+        html, _status = _rule_form(
+            stored, {**request.form, "version": stored.version}, {"form": message}
+        )
+        return html, 409
     except RuleFormInvalid as err:
         session.rollback()
         return _rule_form(rule, request.form, err.errors)
