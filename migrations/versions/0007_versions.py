@@ -9,7 +9,7 @@ explanation is dropped (the first, with its caption, stays) and each review's ac
 are renumbered 0, 1, 2... in their shown order. Downgrade drops the constraints and columns.
 
 Revision ID: 0007_versions
-Revises: 0003_compact_store
+Revises: 0004_team_mode
 Created: 2026-12-02
 """
 

@@ -7,6 +7,7 @@ import html
 import pytest
 from sqlalchemy import event
 
+from webapp import create_app
 from webapp.store import db
 
 HUGE = "99999999999999999999"
@@ -48,6 +49,18 @@ def test_the_explain_form_has_a_slot_beside_each_time_field(client, stored):
         assert f'id="{field}-error"' in body
 
 
+@pytest.fixture
+def sqlite_client(tmp_path):
+    """A client of an app on a SQLite file, and its CSRF token: a full or read-only store is
+    made here with SQLite's own pragmas."""
+    app = create_app({"TESTING": True, "DATABASE_URL": f"sqlite:///{tmp_path / 'store.sqlite'}"})
+    client = app.test_client()
+    with client.session_transaction() as flask_session:
+        flask_session["csrf_token"] = "token-for-refusals"
+    yield client, "token-for-refusals"
+    db.get_engine(app).dispose()
+
+
 def _on_every_connection(app, pragma) -> None:
     engine = db.get_engine(app)
     event.listen(engine, "connect", lambda conn, _record: pragma(conn))
@@ -67,7 +80,8 @@ def _full(conn) -> None:
     ("pragma", "reason"),
     [(_read_only, "store is read-only"), (_full, "store is full")],
 )
-def test_a_store_that_cannot_write_says_why_and_shows_the_typed_text(client, csrf, pragma, reason):
+def test_a_store_that_cannot_write_says_why_and_shows_the_typed_text(sqlite_client, pragma, reason):
+    client, csrf = sqlite_client
     _on_every_connection(client.application, pragma)
     summary = TYPED + "\n\n" + "More notes. " * 20_000  # enough to need new pages
     response = client.post(
@@ -82,7 +96,8 @@ def test_a_store_that_cannot_write_says_why_and_shows_the_typed_text(client, csr
     assert ">csrf token<" not in text  # the security token is not shown back as a field
 
 
-def test_an_htmx_save_to_a_read_only_store_gets_the_reason_as_a_fragment(client, csrf):
+def test_an_htmx_save_to_a_read_only_store_gets_the_reason_as_a_fragment(sqlite_client):
+    client, csrf = sqlite_client
     _on_every_connection(client.application, _read_only)
     response = client.post(
         "/reviews/new",

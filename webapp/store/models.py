@@ -74,7 +74,7 @@ class Import(Base):
     file_name: Mapped[str] = mapped_column(String(500))
     sha256: Mapped[str] = mapped_column(String(64), index=True)
     format: Mapped[str] = mapped_column(String(40))
-    timestamp_unit: Mapped[str | None] = mapped_column(String(40))
+    timestamp_unit: Mapped[str | None] = mapped_column(String(120))
     naive_tz: Mapped[str] = mapped_column(String(64), default="UTC")
     size_bytes: Mapped[int] = mapped_column(BigInteger, default=0)
     row_count: Mapped[int] = mapped_column(Integer, default=0)

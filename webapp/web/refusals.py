@@ -11,7 +11,7 @@
 from __future__ import annotations
 
 from flask import Flask, current_app, render_template, request
-from sqlalchemy.exc import OperationalError
+from sqlalchemy.exc import DataError, OperationalError
 from werkzeug.routing import IntegerConverter
 
 from webapp.store.db import BUSY_TIMEOUT_MS
@@ -19,6 +19,7 @@ from webapp.web.errors import render_error
 from webapp.web.htmx import is_htmx
 
 LARGEST_ID = 2**63 - 1  # SQLite and PostgreSQL bigint alike
+NUMERIC_OUT_OF_RANGE = "22003"  # PostgreSQL's SQLSTATE for a number past its column's type
 TOO_LARGE_FOR_SQLITE = "too large to convert to SQLite INTEGER"
 UNSENT_FIELDS = frozenset({"csrf_token"})
 
@@ -85,8 +86,16 @@ def _too_large_id(error: OverflowError):
     return render_error(404, "There is no record with that number.")
 
 
+def _out_of_range_number(error: DataError):
+    """PostgreSQL's answer to a number past its column's type: no such record either."""
+    if getattr(getattr(error, "orig", None), "sqlstate", None) != NUMERIC_OUT_OF_RANGE:
+        raise error
+    return render_error(404, "There is no record with that number.")
+
+
 def init_app(app: Flask) -> None:
     """Register before the blueprints: the converter applies to routes added after it."""
     app.url_map.converters["int"] = BoundedId
     app.register_error_handler(OperationalError, _store_failure)
     app.register_error_handler(OverflowError, _too_large_id)
+    app.register_error_handler(DataError, _out_of_range_number)
