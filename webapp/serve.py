@@ -24,7 +24,7 @@ from flask import Flask
 from webapp.web.security import HEADERS
 
 HEAVY_PATH = re.compile(
-    r"^/(explain(/|$)|pages/\d+/explain|rules/\d+/replay|reviews/\d+/export\.|"
+    r"^/(explain(/|$)|screening(/|$)|pages/\d+/explain|rules/\d+/replay|reviews/\d+/export\.|"
     r"explanations/\d+(/figure/|$))"
 )
 READING_METHODS = frozenset({"GET", "HEAD"})
