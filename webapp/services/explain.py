@@ -210,6 +210,23 @@ def frozen_evidence(row: Any, unit: str | None) -> Evidence:
     return evidence
 
 
+def saved_header(row: Any) -> dict[str, Any]:
+    """What a saved explanation's data download carries beside its frame: where it came
+    from, its parameters and engine, its facts and sentences, and the peer comparison and
+    screening saved with it."""
+    return {
+        "saved_explanation": row.id,
+        "series": row.series_key,
+        "window": [row.window_start.isoformat(), row.window_end.isoformat()],
+        "engine_version": row.engine_version,
+        **(row.parameters or {}),
+        "facts": row.facts or {},
+        "summary": row.summary or [],
+        "peers": row.peers,
+        "screening": row.screening,
+    }
+
+
 @dataclass(frozen=True)
 class Peers:
     """The stored series of the group: the target's row plus its peers, and the label

@@ -23,6 +23,7 @@ from webapp.web.forms.params import (
     parse_tz,
     read_query,
 )
+from webapp.web.downloads import check_format, download
 from webapp.web.htmx import is_htmx, render
 
 bp = Blueprint("explain", __name__)
@@ -112,6 +113,12 @@ def peers_panel_url(series: Any, query: ExplainQuery) -> str | None:
     return url_for("peers.panel", **query.args())
 
 
+def screening_url(query: ExplainQuery) -> str:
+    """The Screening screen over the same window and parameters."""
+    args = {k: v for k, v in query.args().items() if k not in ("series", "exclude")}
+    return url_for("screening.index", **args)
+
+
 def current_query(args: Any) -> tuple[Any, ExplainQuery]:
     series = load_series(parse_int(args.get("series"), "series number"))
     if series.last_ts is None:
@@ -163,6 +170,7 @@ def explain_page(series: Any, query: ExplainQuery) -> Response:
         stored=stored_list(series.id),
         fine=lambda name: url_for("explain.live_figure", name=name, **query.args()),
         peers_url=peers_panel_url(series, query),
+        screening_url=screening_url(query),
     )
     # The address bar shows the canonical query (a period just added appears as exclude=).
     return Response(html, headers={"HX-Push-Url": url_for("explain.index", **query.args())})
@@ -199,15 +207,34 @@ def live_figure(name: str) -> Response:
     return figure_response(live(series, query), name)
 
 
+@bp.get("/explain/data.<fmt>")
+def live_data(fmt: str) -> Response:
+    """The live explanation's frame with its parameters, as CSV or JSON."""
+    check_format(fmt)
+    series, query = current_query(request.args)
+    evidence = live(series, query)
+    if evidence.explanation is None:
+        bad_request(evidence.errors.get("explain", "There is nothing to download."))
+    return download(evidence.explanation, fmt, f"explanation-{series.id}")
+
+
 @bp.post("/explain/save")
 def save() -> WerkzeugResponse:
+    from webapp.services.screening import extras_to_freeze
     from webapp.store import explanations
 
     with db.reading_phase():  # the analysis runs without holding the write lock
         series, query = current_query(request.form)
         evidence = live(series, query)
-    if evidence.explanation is None:
-        bad_request(evidence.errors.get("explain", "There is nothing to save."))
+        if evidence.explanation is None:
+            bad_request(evidence.errors.get("explain", "There is nothing to save."))
+        extras = extras_to_freeze(
+            db.get_session(),
+            series,
+            query,
+            [*query.exclude, *stored_exclusions(series.id)],
+            screen_too=request.form.get("with_screening") == "on",
+        )
     title = (request.form.get("title") or "").strip()[:300] or f"{series.key} around the window"
     session = db.get_session()
     row = explanations.save_explanation(
@@ -217,6 +244,8 @@ def save() -> WerkzeugResponse:
         overlay=evidence.overlay,
         title=title,
         page_id=query.page_id,
+        peers=extras.peers,
+        screening=extras.screening,
     )
     session.commit()
     target = url_for("explain.saved", explanation_id=row.id)
@@ -337,6 +366,17 @@ def again_args(row: Any, tz: str) -> dict[str, Any] | None:
 @bp.get("/explanations/<int:explanation_id>/figure/<name>")
 def saved_figure(explanation_id: int, name: str) -> Response:
     return figure_response(frozen(load_saved(explanation_id)), name)
+
+
+@bp.get("/explanations/<int:explanation_id>/data.<fmt>")
+def saved_data(explanation_id: int, fmt: str) -> Response:
+    """A saved explanation's stored frame with everything saved beside it, as CSV or JSON."""
+    check_format(fmt)
+    row = load_saved(explanation_id)
+    evidence = frozen(row)
+    if evidence.frame is None:
+        bad_request(evidence.errors.get("explain", "The stored frame cannot be read."))
+    return download(evidence.frame.rename_axis("time"), fmt, f"explanation-{row.id}", ev.saved_header(row))
 
 
 @bp.post("/explanations/<int:explanation_id>/delete")
