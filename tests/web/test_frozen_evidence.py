@@ -9,10 +9,10 @@ import json
 import pandas as pd
 import pytest
 
+from webapp.services.review_export import review_context
 from webapp.store import attachments as store_attachments
 from webapp.store import db, reviews
 from webapp.web.export import _environment, export_review
-from webapp.services.review_export import review_context
 
 
 @pytest.fixture
@@ -67,8 +67,10 @@ def test_they_reopen_as_saved_after_the_data_changed(client, csrf, saved, make_c
     assert "Peers, as saved" in first and "the screening, as saved" in first
     # The data changes: every import undone, and api-1 imported again with its own jump.
     for number in (1, 2, 3):
-        assert client.post(f"/imports/{number}/delete", data={"csrf_token": csrf}).status_code == 303
-    assert upload_files([(make_csv(host="api-1", spike=90.0, seed=11), "new.csv")]).status_code == 200
+        response = client.post(f"/imports/{number}/delete", data={"csrf_token": csrf})
+        assert response.status_code == 303
+    jumped = make_csv(host="api-1", spike=90.0, seed=11)
+    assert upload_files([(jumped, "new.csv")]).status_code == 200
     again = client.get(saved).get_data(as_text=True)
     start = first.index("Peers, as saved")
     assert again[again.index("Peers, as saved") :] == first[start:]
@@ -110,8 +112,10 @@ def test_the_review_and_its_exports_show_them(client, saved, tmp_path):
     with client.application.app_context():
         session = db.get_session()
         (html_file,) = export_review(session, review_id, "html", tmp_path / "review.html")
-        markdown = _environment().get_template("export/review.md").render(
-            **review_context(session, review_id)
+        markdown = (
+            _environment()
+            .get_template("export/review.md")
+            .render(**review_context(session, review_id))
         )
     html = html_file.read_text()
     assert "Peers, as saved" in html and "the screening, as saved" in html

@@ -14,6 +14,7 @@ from webapp.services import explain as ev
 from webapp.store import db
 from webapp.web.charts import evidence as panels
 from webapp.web.charts.explain import from_wall_clock
+from webapp.web.downloads import check_format, download
 from webapp.web.forms.params import (
     ExplainQuery,
     Span,
@@ -23,7 +24,6 @@ from webapp.web.forms.params import (
     parse_tz,
     read_query,
 )
-from webapp.web.downloads import check_format, download
 from webapp.web.htmx import is_htmx, render
 
 bp = Blueprint("explain", __name__)
@@ -376,7 +376,8 @@ def saved_data(explanation_id: int, fmt: str) -> Response:
     evidence = frozen(row)
     if evidence.frame is None:
         bad_request(evidence.errors.get("explain", "The stored frame cannot be read."))
-    return download(evidence.frame.rename_axis("time"), fmt, f"explanation-{row.id}", ev.saved_header(row))
+    frame = evidence.frame.rename_axis("time")
+    return download(frame, fmt, f"explanation-{row.id}", ev.saved_header(row))
 
 
 @bp.post("/explanations/<int:explanation_id>/delete")

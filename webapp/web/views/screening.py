@@ -123,4 +123,3 @@ def data(fmt: str) -> Response:
         abort(400, description=error)
     extra = {"filter": query.filter} if query.filter else None
     return download(screening.result, fmt, "screening", extra)
-
