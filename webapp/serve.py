@@ -25,7 +25,7 @@ from webapp.web.security import HEADERS
 
 HEAVY_PATH = re.compile(
     r"^/(explain(/|$)|screening(/|$)|pages/\d+/explain|rules/\d+/replay|reviews/\d+/export\.|"
-    r"explanations/\d+(/figure/|$))"
+    r"explanations/\d+(/figure/|/data\.|$))"
 )
 READING_METHODS = frozenset({"GET", "HEAD"})
 
