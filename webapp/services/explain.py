@@ -284,6 +284,7 @@ def compare_with_peers(
             unit=series.unit or "",
             names=peers.names,
             label=peers.label,
+            labels={key: dict(row.labels or {}) for key, row in peers.rows.items()},
         )
 
     return _comparisons.get((series.id, version, query, tuple(exclude)), build)
