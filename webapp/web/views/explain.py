@@ -113,6 +113,16 @@ def peers_panel_url(series: Any, query: ExplainQuery) -> str | None:
     return url_for("peers.panel", **query.args())
 
 
+SECOND_CHOICES = 500
+
+
+def second_choices() -> list[Any]:
+    """The stored series offered as a second series over the band (the first so many)."""
+    from webapp.store import series as store_series
+
+    return store_series.list_series(db.get_session(), limit=SECOND_CHOICES)
+
+
 def screening_url(query: ExplainQuery) -> str:
     """The Screening screen over the same window and parameters."""
     args = {k: v for k, v in query.args().items() if k not in ("series", "exclude")}
@@ -139,9 +149,13 @@ def chooser() -> str:
 
     session = db.get_session()
     series_list = store_series.list_series(session)
+    from webapp.services.aggregates import HOW, metrics_with_fleets
+
     return render(
         "explain/choose.html",
         "explain/choose.html",
+        metrics=metrics_with_fleets(session),
+        hows=HOW,
         series_list=series_list,
         keys={s.id: s.key for s in series_list},
         pages=pages.list_pages(session)[:20],
@@ -171,6 +185,7 @@ def explain_page(series: Any, query: ExplainQuery) -> Response:
         fine=lambda name: url_for("explain.live_figure", name=name, **query.args()),
         peers_url=peers_panel_url(series, query),
         screening_url=screening_url(query),
+        second_choices=second_choices(),
     )
     # The address bar shows the canonical query (a period just added appears as exclude=).
     return Response(html, headers={"HX-Push-Url": url_for("explain.index", **query.args())})
@@ -205,6 +220,58 @@ def figure_response(evidence: ev.Evidence, name: str) -> Response:
 def live_figure(name: str) -> Response:
     series, query = current_query(request.args)
     return figure_response(live(series, query), name)
+
+
+def aggregate_request() -> tuple[str, str, ExplainQuery, ev.Evidence]:
+    """The aggregate the request asks for and its evidence; 400 with a message when it
+    cannot be made."""
+    from webapp.services import aggregates
+    from webapp.services.screening import everywhere_excluded
+
+    metric = (request.args.get("metric") or "").strip()
+    how = (request.args.get("how") or "p95").strip()
+    if not metric:
+        bad_request("Choose the metric whose series to combine.")
+    query = read_query(request.args, 0, None, current_app.config)
+    exclude = [*query.exclude, *everywhere_excluded(db.get_session())]
+    try:
+        evidence = aggregates.aggregate_evidence(db.get_session(), metric, how, query, exclude)
+    except ValueError as error:
+        bad_request(str(error))
+    return metric, how, query, evidence
+
+
+@bp.get("/explain/aggregate")
+def aggregate_page() -> str:
+    """A fleet aggregate (sum, mean, p50, p95 or max of a metric's series) explained like
+    any series, computed on the fly."""
+    from webapp.services import aggregates
+
+    metric, how, query, evidence = aggregate_request()
+    return render(
+        "explain/aggregate.html",
+        "explain/aggregate.html",
+        metric=metric,
+        how=how,
+        hows=aggregates.HOW,
+        metrics=aggregates.metrics_with_fleets(db.get_session()),
+        query=query,
+        evidence=evidence,
+        panels=panels.build_panels(evidence),
+        fine=None,
+        data_args={**query.args(), "metric": metric, "how": how},
+    )
+
+
+@bp.get("/explain/aggregate/data.<fmt>")
+def aggregate_data(fmt: str) -> Response:
+    """The aggregate's explanation frame with its parameters, as CSV or JSON."""
+    check_format(fmt)
+    metric, how, _, evidence = aggregate_request()
+    if evidence.explanation is None:
+        bad_request(evidence.errors.get("explain", "There is nothing to download."))
+    extra = {"aggregate": how, "metric": metric}
+    return download(evidence.explanation, fmt, f"aggregate-{how}", extra)
 
 
 @bp.get("/explain/data.<fmt>")
