@@ -8,6 +8,7 @@ compared peer's deviation and the range of their middle 80 %.
 
 from __future__ import annotations
 
+import warnings
 from typing import Any
 
 import numpy as np
@@ -47,7 +48,8 @@ def fleet_envelope(comparison: Any, tz: str) -> list[dict]:
     others = [r.deviation for r in comparison.others if r.deviation is not None]
     matrix = pd.concat(others, axis=1).to_numpy(dtype="float64")
     index = others[0].index
-    with np.errstate(all="ignore"):
+    with warnings.catch_warnings():  # a step where no peer has a value is simply a gap
+        warnings.simplefilter("ignore", RuntimeWarning)
         low, mid, high = np.nanpercentile(matrix, [10, 50, 90], axis=1)
     frame = pd.DataFrame({"low": low, "mid": mid, "high": high}, index=index)
     frame = reduce_together(frame, ["low", "mid", "high"], FIGURE_POINTS)
