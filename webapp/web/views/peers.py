@@ -116,6 +116,8 @@ def panel() -> str:
         rows=table_rows(comparison) if comparison is not None else [],
         groups=groups(comparison) if comparison is not None else [],
         data_args=query.args(),
+        table_peers=TABLE_PEERS,
+        figure_peers=peer_charts.TOP_PEERS,
         panel=panels.Panel("peers", figure=fig, error=None if fig else error),
         error=error,
         peers=peers,
