@@ -43,6 +43,7 @@ def test_the_screen_orders_the_onsets_and_says_it_is_a_lead(screened):
     links = re.findall(r'<figcaption><a href="(/explain\?series=\d+[^"]*)">([^<]+)</a>', html)
     assert links and all("start=" in href for href, _ in links)
     assert "checkout.requests{host=api-1}" in html  # screened, stayed in
+    assert "<td>nan</td>" not in html  # a series that stayed in has no side
 
 
 def test_the_filter_narrows_what_is_screened(demo_client):
