@@ -17,7 +17,8 @@ slow growth, rare one-to-three-minute latency spikes, and gaps: a collector outa
 
 What happened:
 - Last night (Monday 30 November, 01:38-02:51 UTC) the payment provider slowed down:
-  p95 latency rose past a second on every host and the error ratio jumped.
+  its callbacks backed up in the payment queues from 01:32, and from 01:38 p95 latency
+  rose past a second on every host and the error ratio jumped.
 - A week earlier (Tuesday 24 November, 14:12-14:58 UTC) api-4 alone went bad.
 - Every Monday at 08:05 local time the weekly fare-settlement batch fills the payment
   queues for about an hour: harmless, but the queue-depth rule pages for it.
@@ -56,6 +57,8 @@ PAYMENT_SLOWDOWN = (
     pd.Timestamp("2026-11-30 01:38", tz="UTC"),
     pd.Timestamp("2026-11-30 02:51", tz="UTC"),
 )
+# The provider's callbacks back up in the payment queues a few minutes before checkout slows.
+QUEUE_BACKLOG = (PAYMENT_SLOWDOWN[0] - pd.Timedelta(minutes=6), PAYMENT_SLOWDOWN[1])
 API4_FAULT = (
     pd.Timestamp("2026-11-24 14:12", tz="UTC"),
     pd.Timestamp("2026-11-24 14:58", tz="UTC"),
@@ -176,6 +179,7 @@ def _generate(seed: int) -> tuple[pd.DatetimeIndex, dict[str, np.ndarray]]:
     shape = _load_shape(hour, weekday)
     growth = 1.0 + 0.03 * t_min / n
     slowdown = _bump(t_min, *PAYMENT_SLOWDOWN, ramp=4.0)
+    backlog = _bump(t_min, *QUEUE_BACKLOG, ramp=4.0)
     api4 = _bump(t_min, *API4_FAULT, ramp=3.0)
     maintenance = _mask(t_min, MAINTENANCE)
     batch = _monday_batch(minute_of_week)
@@ -200,7 +204,7 @@ def _generate(seed: int) -> tuple[pd.DatetimeIndex, dict[str, np.ndarray]]:
         if host == "api-4":
             latency += api4 * 1050.0 * rng.normal(1.0, 0.06, n)
 
-        queue = 3.0 + 12.0 * load + 255.0 * weight * batch + 55.0 * slowdown
+        queue = 3.0 + 12.0 * load + 255.0 * weight * batch + 55.0 * backlog
         queue = rng.poisson(np.clip(queue, 0.0, None)).astype(float)
         queue = np.where(maintenance, 0.0, queue)
 

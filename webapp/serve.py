@@ -25,8 +25,8 @@ from flask import Flask
 from webapp.web.security import HEADERS
 
 HEAVY_PATH = re.compile(
-    r"^/(explain(/|$)|pages/\d+/explain|rules/\d+/replay|reviews/\d+/export\.|"
-    r"explanations/\d+(/figure/|$))"
+    r"^/(explain(/|$)|screening(/|$)|pages/\d+/explain|rules/\d+/replay|reviews/\d+/export\.|"
+    r"explanations/\d+(/figure/|/data\.|$))"
 )
 READING_METHODS = frozenset({"GET", "HEAD"})
 

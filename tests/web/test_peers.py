@@ -2,9 +2,11 @@
 
 from __future__ import annotations
 
+import io
 import json
 import re
 
+import pandas as pd
 import pytest
 
 from webapp.services import explain as explain_service
@@ -113,4 +115,49 @@ def test_an_unusable_window_is_explained_in_the_panel(client, hosts):
     assert 'class="panel panel-peers"' in body
     assert "api-3 could not be compared with its peers: the series has no values" in body
     assert "No peer could be explained over this window." in body
-    assert body.count('<td colspan="3" class="muted">') == 3
+    assert body.count('<td colspan="4" class="muted">') == 3
+
+
+@pytest.fixture
+def fleet(client, upload_files, make_csv) -> dict[str, int]:
+    """Twenty hosts; api-1 to api-5 jump together in the last three hours of the window."""
+    files = [
+        (make_csv(host=f"api-{n}", spike=80.0 if n <= 5 else 0.0, seed=100 + n), f"api-{n}.csv")
+        for n in range(1, 21)
+    ]
+    response = upload_files(files)
+    assert response.status_code == 200, response.get_data(as_text=True)
+    from webapp.store import db
+    from webapp.store import series as store_series
+
+    with client.application.app_context():
+        rows = store_series.list_series(db.get_session())
+    return {row.labels["host"]: row.id for row in rows}
+
+
+def test_a_fleet_shows_its_group_and_its_top_peers_not_every_host(client, fleet, url_for_explain):
+    body = peers_fragment(client, url_for_explain, fleet["api-1"])
+    assert "Peers that left together" in body
+    group = re.search(r"<strong>Group 1</strong>: (\d+) series", body)
+    assert group is not None and group.group(1) == "5"
+    names = re.findall(r'<th scope="row" title="[^"]+">([^<]+)', body)
+    assert len(names) == 13  # the explained series and the 12 that went furthest
+    assert {n.strip() for n in names[:5]} == {f"api-{n}" for n in range(1, 6)}
+    fig = figure(body)
+    lines = [t["name"] for t in fig["data"] if t.get("name")]
+    assert "median of the peers" in lines
+    assert any(name.startswith("middle 80 % of the 19 peers") for name in lines)
+    hosts = [name for name in lines if name.startswith("api-")]
+    assert len(hosts) == 7  # the explained series and six peers, not twenty lines
+    assert "The download has every peer" in body
+
+
+def test_the_peer_comparison_downloads_with_every_peer(client, fleet, url_for_explain):
+    url = url_for_explain(fleet["api-1"]).replace("/explain?", "/explain/peers/data.json?")
+    body = json.loads(client.get(url).get_data(as_text=True))
+    assert body["kind"] == "peers" and body["parameters"]["label"] == "host"
+    assert len(body["rows"]) == 20
+    assert sum(r["group"] is not None for r in body["rows"]) == 5
+    text = client.get(url.replace("data.json", "data.csv")).get_data(as_text=True)
+    table = pd.read_csv(io.StringIO(text), comment="#")
+    assert sorted(table["name"]) == sorted(r["name"] for r in body["rows"])

@@ -7,6 +7,8 @@ lasting 30 minutes; one review records the second burst as an incident.
 from __future__ import annotations
 
 import html
+import io
+import json
 import re
 
 import numpy as np
@@ -542,3 +544,18 @@ def test_a_rule_saved_from_an_older_version_is_refused_with_both_texts(
     session.rollback()
     session.expire_all()
     assert store_rules.get_rule(session, rule.id).threshold == 250.0
+
+
+def test_the_replay_downloads_as_csv_and_json(client, rule, watched) -> None:
+    fragment = client.get(f"/rules/{rule.id}/replay").text
+    assert f"/rules/{rule.id}/replay/data.csv?" in fragment
+    body = json.loads(client.get(f"/rules/{rule.id}/replay/data.json").text)
+    assert body["kind"] == "replay"
+    assert body["parameters"]["rule"] == "Queue deep"
+    assert body["parameters"]["series"] == watched.key
+    assert len(body["rows"]) == 3  # the three bursts
+    text = client.get(f"/rules/{rule.id}/replay/data.csv").text
+    assert text.startswith('# kind: "replay"')
+    table = pd.read_csv(io.StringIO(text), comment="#")
+    assert len(table) == 3
+    assert client.get(f"/rules/{rule.id}/replay/data.pdf").status_code == 404

@@ -46,6 +46,7 @@ class ExplainQuery:
     tz: str
     exclude: tuple[Span, ...] = field(default=())
     page_id: int | None = None
+    second: int | None = None  # a second stored series laid over the band, on its own axis
 
     @property
     def history(self) -> pd.Timedelta:
@@ -65,6 +66,8 @@ class ExplainQuery:
             args["exclude"] = [format_span(s) for s in self.exclude]
         if self.page_id is not None:
             args["page"] = self.page_id
+        if self.second is not None:
+            args["second"] = self.second
         return args
 
     def options(self) -> dict[str, Any]:
@@ -78,6 +81,15 @@ class ExplainQuery:
 
     def with_window(self, window: Span) -> ExplainQuery:
         return replace(self, window=window)
+
+
+@dataclass(frozen=True)
+class Second:
+    """A second series drawn over the band figure on its own axis (requests over latency)."""
+
+    key: str
+    unit: str | None
+    values: pd.Series
 
 
 @dataclass
@@ -97,6 +109,7 @@ class Evidence:
     explanation: Any = None  # the live analysis result, kept for "save explanation"
     errors: dict[str, str] = field(default_factory=dict)
     marks: list[tuple[pd.Timestamp, str]] = field(default_factory=list)
+    second: Second | None = None
     # The panels drawn from it, kept with it: cached evidence is drawn once, not per request.
     drawn: dict[str, Any] | None = field(default=None, repr=False, compare=False)
 
@@ -138,21 +151,52 @@ def live_evidence(
         (series.id, version, start, end),
         lambda: store_series.read_series(session, series.id, start, end),
     )
-    return _explanations.get(
-        (series.id, version, query, exclude),
-        lambda: _compute(series, values, query, list(exclude)),
-    )
+
+    def build() -> Evidence:
+        evidence = _compute(series, values, query, list(exclude))
+        if query.second is not None:
+            add_second(session, evidence, query.second, start, end)
+        return evidence
+
+    return _explanations.get((series.id, version, query, exclude), build)
+
+
+def add_second(
+    session: Session, evidence: Evidence, series_id: int, start: pd.Timestamp, end: pd.Timestamp
+) -> None:
+    """Read the second series over the same span into the evidence (or say why not)."""
+    row = store_series.get_series(session, series_id)
+    if row is None:
+        evidence.errors["second"] = f"There is no series #{series_id} to lay over the band."
+        return
+    values = store_series.read_series(session, row.id, start, end)
+    if values.dropna().empty:
+        evidence.errors["second"] = f"{row.key} has no points in this span to lay over the band."
+        return
+    evidence.second = Second(key=row.key, unit=row.unit, values=values)
 
 
 def _compute(series: Any, values: pd.Series, query: ExplainQuery, exclude: list[Span]) -> Evidence:
-    evidence = Evidence(series_key=series.key, unit=series.unit, tz=query.tz)
     if values.dropna().empty:
+        evidence = Evidence(series_key=series.key, unit=series.unit, tz=query.tz)
         evidence.errors["explain"] = no_data_message(series, query)
         return evidence
+    return compute_evidence(series.key, series.unit, values, query, exclude)
+
+
+def compute_evidence(
+    key: str, unit: str | None, values: pd.Series, query: ExplainQuery, exclude: list[Span]
+) -> Evidence:
+    """The evidence of `values` (a stored series' points, or a series made from several)
+    around the query's window."""
+    evidence = Evidence(series_key=key, unit=unit, tz=query.tz)
+    if values.dropna().empty:
+        evidence.errors["explain"] = f"{key} has no data in the window or the history before it."
+        return evidence
     try:
-        exp = explain(values, **query.options(), exclude=exclude, unit=series.unit or "")
+        exp = explain(values, **query.options(), exclude=exclude, unit=unit or "")
     except ValueError as error:
-        evidence.errors["explain"] = f"{series.key}: {error}"
+        evidence.errors["explain"] = f"{key}: {error}"
         return evidence
     evidence.explanation = exp
     evidence.frame = exp.frame
@@ -208,6 +252,23 @@ def frozen_evidence(row: Any, unit: str | None) -> Evidence:
     except Exception as error:
         evidence.errors["overlay"] = f"The stored past-weeks overlay is unreadable: {error}"
     return evidence
+
+
+def saved_header(row: Any) -> dict[str, Any]:
+    """What a saved explanation's data download carries beside its frame: where it came
+    from, its parameters and engine, its facts and sentences, and the peer comparison and
+    screening saved with it."""
+    return {
+        "saved_explanation": row.id,
+        "series": row.series_key,
+        "window": [row.window_start.isoformat(), row.window_end.isoformat()],
+        "engine_version": row.engine_version,
+        **(row.parameters or {}),
+        "facts": row.facts or {},
+        "summary": row.summary or [],
+        "peers": row.peers,
+        "screening": row.screening,
+    }
 
 
 @dataclass(frozen=True)
@@ -267,6 +328,7 @@ def compare_with_peers(
             unit=series.unit or "",
             names=peers.names,
             label=peers.label,
+            labels={key: dict(row.labels or {}) for key, row in peers.rows.items()},
         )
 
     return _comparisons.get((series.id, version, query, tuple(exclude)), build)

@@ -47,8 +47,11 @@ def save_explanation(
     overlay: pd.DataFrame | None = None,
     title: str = "",
     page_id: int | None = None,
+    peers: dict[str, Any] | None = None,
+    screening: dict[str, Any] | None = None,
 ) -> Explanation:
-    """Freeze ``exp`` (a ``webapp.analysis.Explanation``) for one stored series."""
+    """Freeze ``exp`` (a ``webapp.analysis.Explanation``) for one stored series, with its
+    peer comparison and screening as JSON objects when given."""
     series = require(session, Series, series_id, "series")
     start, end = exp.window
     row = Explanation(
@@ -64,6 +67,8 @@ def save_explanation(
         overlay=encode_frame(overlay) if overlay is not None else None,
         facts=jsonable(dict(exp.facts)),
         summary=[str(s) for s in exp.summary],
+        peers=jsonable(peers) if peers is not None else None,
+        screening=jsonable(screening) if screening is not None else None,
     )
     session.add(row)
     session.flush()

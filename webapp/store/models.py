@@ -218,6 +218,9 @@ class Explanation(Base):
     overlay: Mapped[bytes | None] = mapped_column(LargeBinary)  # the same, may be absent
     facts: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
     summary: Mapped[list[str]] = mapped_column(JSON, default=list)
+    # The peer comparison and the screening, as their JSON downloads (may be absent).
+    peers: Mapped[dict[str, Any] | None] = mapped_column(JSON)
+    screening: Mapped[dict[str, Any] | None] = mapped_column(JSON)
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
 
 

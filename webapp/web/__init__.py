@@ -17,6 +17,7 @@ def register_web(app: Flask) -> None:
         peers,
         reviews,
         rules,
+        screening,
         series,
     )
 
@@ -26,5 +27,16 @@ def register_web(app: Flask) -> None:
     errors.init_app(app)
     filters.init_app(app)
     app.add_template_global(assets.plotly_version, "plotly_version")
-    for module in (assets, home, imports, series, explain, peers, pages, rules, reviews):
+    for module in (
+        assets,
+        home,
+        imports,
+        series,
+        explain,
+        peers,
+        screening,
+        pages,
+        rules,
+        reviews,
+    ):
         app.register_blueprint(module.bp)

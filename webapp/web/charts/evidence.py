@@ -53,7 +53,13 @@ def build_figure(evidence: Evidence, name: str, view: Span | None = None) -> go.
             raise ValueError("No data in that time range.")
     if name == "band":
         return figures.band_figure(
-            frame, evidence.tz, evidence.unit, evidence.series_key, view=view, marks=evidence.marks
+            frame,
+            evidence.tz,
+            evidence.unit,
+            evidence.series_key,
+            view=view,
+            marks=evidence.marks,
+            second=evidence.second,
         )
     if name == "components":
         return figures.components_figure(frame, evidence.tz, evidence.unit, view=view)

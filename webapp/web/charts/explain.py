@@ -12,6 +12,7 @@ detail, which is how the page fetches finer data when the reader zooms in.
 from __future__ import annotations
 
 from collections.abc import Sequence
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -208,10 +209,12 @@ def band_figure(
     view: Window | None = None,
     marks: Sequence[tuple[pd.Timestamp, str]] = (),
     n_out: int = DEFAULT_POINTS,
+    second: Any = None,
 ) -> go.Figure:
     """The value against its expected band; out-of-band samples as vermillion triangles
     (pointing the way they left the band), out-of-band stretches inside the window shaded
-    vermillion, the window itself tinted yellow, page times as dotted lines."""
+    vermillion, the window itself tinted yellow, page times as dotted lines; `second` (with
+    key, unit and values) drawn in orange on its own right-hand axis."""
     view = view or default_view(frame)
     band = _rows(frame, ["lower", "upper", "expected"], n_out, view)
     traces = _band_traces(band, "lower", "upper", tz, "expected band", palette.BAND_EDGE, 0.32)
@@ -275,7 +278,23 @@ def band_figure(
     )
     layout["margin"]["t"] = 64
     layout["legend"]["y"] = 1.01
+    if second is not None:
+        traces.append(second_trace(second, tz, n_out, view))
+        layout["yaxis2"] = style.axis(
+            title={"text": f"{second.key} ({second.unit})" if second.unit else second.key},
+            overlaying="y",
+            side="right",
+            showgrid=False,
+            automargin=True,
+        )
+        layout["margin"]["r"] = 64
     return style.figure(traces, layout)
+
+
+def second_trace(second: Any, tz: str, n_out: int, view: Window | None) -> dict:
+    frame = second.values.to_frame("value")
+    x, y = _points(frame, "value", n_out, view)
+    return style.line(x, y, tz, f"{second.key} (right axis)", palette.ORANGE, width=1.3, yaxis="y2")
 
 
 def overlay_figure(

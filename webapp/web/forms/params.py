@@ -159,6 +159,7 @@ def read_query(
         tz=tz,
         exclude=tuple(dict.fromkeys(exclude)),
         page_id=parse_int(multi.get("page"), "page number"),
+        second=parse_int(multi.get("second"), "second series number"),
     )
 
 

@@ -14,6 +14,7 @@ from webapp.services import explain as ev
 from webapp.store import db
 from webapp.web.charts import evidence as panels
 from webapp.web.charts.explain import from_wall_clock
+from webapp.web.downloads import check_format, download
 from webapp.web.forms.params import (
     ExplainQuery,
     Span,
@@ -112,6 +113,22 @@ def peers_panel_url(series: Any, query: ExplainQuery) -> str | None:
     return url_for("peers.panel", **query.args())
 
 
+SECOND_CHOICES = 500
+
+
+def second_choices() -> list[Any]:
+    """The stored series offered as a second series over the band (the first so many)."""
+    from webapp.store import series as store_series
+
+    return store_series.list_series(db.get_session(), limit=SECOND_CHOICES)
+
+
+def screening_url(query: ExplainQuery) -> str:
+    """The Screening screen over the same window and parameters."""
+    args = {k: v for k, v in query.args().items() if k not in ("series", "exclude")}
+    return url_for("screening.index", **args)
+
+
 def current_query(args: Any) -> tuple[Any, ExplainQuery]:
     series = load_series(parse_int(args.get("series"), "series number"))
     if series.last_ts is None:
@@ -132,9 +149,13 @@ def chooser() -> str:
 
     session = db.get_session()
     series_list = store_series.list_series(session)
+    from webapp.services.aggregates import HOW, metrics_with_fleets
+
     return render(
         "explain/choose.html",
         "explain/choose.html",
+        metrics=metrics_with_fleets(session),
+        hows=HOW,
         series_list=series_list,
         keys={s.id: s.key for s in series_list},
         pages=pages.list_pages(session)[:20],
@@ -163,6 +184,8 @@ def explain_page(series: Any, query: ExplainQuery) -> Response:
         stored=stored_list(series.id),
         fine=lambda name: url_for("explain.live_figure", name=name, **query.args()),
         peers_url=peers_panel_url(series, query),
+        screening_url=screening_url(query),
+        second_choices=second_choices(),
     )
     # The address bar shows the canonical query (a period just added appears as exclude=).
     return Response(html, headers={"HX-Push-Url": url_for("explain.index", **query.args())})
@@ -199,15 +222,86 @@ def live_figure(name: str) -> Response:
     return figure_response(live(series, query), name)
 
 
+def aggregate_request() -> tuple[str, str, ExplainQuery, ev.Evidence]:
+    """The aggregate the request asks for and its evidence; 400 with a message when it
+    cannot be made."""
+    from webapp.services import aggregates
+    from webapp.services.screening import everywhere_excluded
+
+    metric = (request.args.get("metric") or "").strip()
+    how = (request.args.get("how") or "p95").strip()
+    if not metric:
+        bad_request("Choose the metric whose series to combine.")
+    query = read_query(request.args, 0, None, current_app.config)
+    exclude = [*query.exclude, *everywhere_excluded(db.get_session())]
+    try:
+        evidence = aggregates.aggregate_evidence(db.get_session(), metric, how, query, exclude)
+    except ValueError as error:
+        bad_request(str(error))
+    return metric, how, query, evidence
+
+
+@bp.get("/explain/aggregate")
+def aggregate_page() -> str:
+    """A fleet aggregate (sum, mean, p50, p95 or max of a metric's series) explained like
+    any series, computed on the fly."""
+    from webapp.services import aggregates
+
+    metric, how, query, evidence = aggregate_request()
+    return render(
+        "explain/aggregate.html",
+        "explain/aggregate.html",
+        metric=metric,
+        how=how,
+        hows=aggregates.HOW,
+        metrics=aggregates.metrics_with_fleets(db.get_session()),
+        query=query,
+        evidence=evidence,
+        panels=panels.build_panels(evidence),
+        fine=None,
+        data_args={**query.args(), "metric": metric, "how": how},
+    )
+
+
+@bp.get("/explain/aggregate/data.<fmt>")
+def aggregate_data(fmt: str) -> Response:
+    """The aggregate's explanation frame with its parameters, as CSV or JSON."""
+    check_format(fmt)
+    metric, how, _, evidence = aggregate_request()
+    if evidence.explanation is None:
+        bad_request(evidence.errors.get("explain", "There is nothing to download."))
+    extra = {"aggregate": how, "metric": metric}
+    return download(evidence.explanation, fmt, f"aggregate-{how}", extra)
+
+
+@bp.get("/explain/data.<fmt>")
+def live_data(fmt: str) -> Response:
+    """The live explanation's frame with its parameters, as CSV or JSON."""
+    check_format(fmt)
+    series, query = current_query(request.args)
+    evidence = live(series, query)
+    if evidence.explanation is None:
+        bad_request(evidence.errors.get("explain", "There is nothing to download."))
+    return download(evidence.explanation, fmt, f"explanation-{series.id}")
+
+
 @bp.post("/explain/save")
 def save() -> WerkzeugResponse:
+    from webapp.services.screening import extras_to_freeze
     from webapp.store import explanations
 
     with db.reading_phase():  # the analysis runs without holding the write lock
         series, query = current_query(request.form)
         evidence = live(series, query)
-    if evidence.explanation is None:
-        bad_request(evidence.errors.get("explain", "There is nothing to save."))
+        if evidence.explanation is None:
+            bad_request(evidence.errors.get("explain", "There is nothing to save."))
+        extras = extras_to_freeze(
+            db.get_session(),
+            series,
+            query,
+            [*query.exclude, *stored_exclusions(series.id)],
+            screen_too=request.form.get("with_screening") == "on",
+        )
     title = (request.form.get("title") or "").strip()[:300] or f"{series.key} around the window"
     session = db.get_session()
     row = explanations.save_explanation(
@@ -217,6 +311,8 @@ def save() -> WerkzeugResponse:
         overlay=evidence.overlay,
         title=title,
         page_id=query.page_id,
+        peers=extras.peers,
+        screening=extras.screening,
     )
     session.commit()
     target = url_for("explain.saved", explanation_id=row.id)
@@ -337,6 +433,18 @@ def again_args(row: Any, tz: str) -> dict[str, Any] | None:
 @bp.get("/explanations/<int:explanation_id>/figure/<name>")
 def saved_figure(explanation_id: int, name: str) -> Response:
     return figure_response(frozen(load_saved(explanation_id)), name)
+
+
+@bp.get("/explanations/<int:explanation_id>/data.<fmt>")
+def saved_data(explanation_id: int, fmt: str) -> Response:
+    """A saved explanation's stored frame with everything saved beside it, as CSV or JSON."""
+    check_format(fmt)
+    row = load_saved(explanation_id)
+    evidence = frozen(row)
+    if evidence.frame is None:
+        bad_request(evidence.errors.get("explain", "The stored frame cannot be read."))
+    frame = evidence.frame.rename_axis("time")
+    return download(frame, fmt, f"explanation-{row.id}", ev.saved_header(row))
 
 
 @bp.post("/explanations/<int:explanation_id>/delete")

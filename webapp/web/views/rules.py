@@ -23,6 +23,7 @@ from webapp.store.reviews import ReviewInvalid
 from webapp.store.versions import EditConflict, sent_version
 from webapp.web.charts import rules as rule_charts
 from webapp.web.charts.evidence import figure_embed
+from webapp.web.downloads import check_format, download
 from webapp.web.forms import reviews as review_forms
 from webapp.web.forms.rules import (
     RuleFormInvalid,
@@ -131,6 +132,31 @@ def replay(rule_id: int) -> Any:
     return _show(load_rule(rule_id))
 
 
+def chosen_series(candidates: list, chosen: str) -> Any:
+    """The matching series the request names, else the first; None when none match."""
+    return next(
+        (s for s in candidates if str(s.id) == chosen), candidates[0] if candidates else None
+    )
+
+
+@bp.get("/rules/<int:rule_id>/replay/data.<fmt>")
+def replay_data(rule_id: int, fmt: str) -> Any:
+    """The replay's firings with the rule, the series and the counts, as CSV or JSON."""
+    check_format(fmt)
+    rule = load_rule(rule_id)
+    session = db.get_session()
+    candidates = matching_series(session, rule)
+    info = chosen_series(candidates, request.args.get("series_id", ""))
+    if info is None:
+        abort(404, description="No stored series matches this rule yet, so there is no replay.")
+    try:
+        replay = run_replay(session, rule, info, None, request.args.get("incidents", "all"))
+    except ValueError as err:
+        abort(400, description=f"This rule cannot be replayed: {err}.")
+    extra = {"rule": rule.name, "series": info.key, "incidents": replay.scope}
+    return download(replay.report, fmt, f"replay-rule-{rule.id}", extra)
+
+
 def _show(
     rule: AlertRule,
     form: Mapping[str, Any] | None = None,
@@ -140,10 +166,7 @@ def _show(
 ):
     session = db.get_session()
     candidates = matching_series(session, rule)
-    chosen = request.values.get("series_id", "")
-    info = next(
-        (s for s in candidates if str(s.id) == chosen), candidates[0] if candidates else None
-    )
+    info = chosen_series(candidates, request.values.get("series_id", ""))
     replay, problem, sweep_errors = None, None, {}
     scope = request.values.get("incidents", "all")
     level = sweep_level(rule.kind)
