@@ -27,9 +27,12 @@ from ._burn import (
     budget_consumed,
     budget_spent,
     burn_rates,
+    burn_report,
+    burn_rule_from_fields,
     detection_time,
     event_grid,
     replay_burn,
+    window_fields,
 )
 from ._burn_sweep import BURN_SWEEP_COLUMNS, burn_sweep, burn_sweep_grid
 from ._explain import ENGINE_VERSION, Explanation, explain
@@ -85,9 +88,12 @@ __all__ = [
     "budget_consumed",
     "budget_spent",
     "burn_rates",
+    "burn_report",
+    "burn_rule_from_fields",
     "detection_time",
     "event_grid",
     "replay_burn",
+    "window_fields",
     "BURN_SWEEP_COLUMNS",
     "burn_sweep",
     "burn_sweep_grid",
