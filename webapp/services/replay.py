@@ -33,9 +33,14 @@ def matching_series(session: Session, rule: AlertRule) -> list[store_series.Seri
 
 def rule_text(rule: AlertRule) -> str:
     try:
-        return rule_from_fields(_fields(rule)).text
+        return analysed_rule(rule).text
     except ValueError as err:
         return f"incomplete rule: {err}"
+
+
+def analysed_rule(rule: AlertRule) -> Any:
+    """The core's rule for a stored alert rule (any kind); ValueError when incomplete."""
+    return rule_from_fields(_fields(rule))
 
 
 def _fields(rule: AlertRule) -> dict[str, Any]:
@@ -110,7 +115,7 @@ def run_replay(
     cannot be replayed."""
     if scope not in INCIDENT_SCOPES:
         raise ValueError(f"incidents must be one of {', '.join(INCIDENT_SCOPES)}, got {scope!r}")
-    analysed = rule_from_fields(_fields(rule))
+    analysed = analysed_rule(rule)
     version = (info.id, *data_version(session, info))
     values = _points.get(version, lambda: store_series.read_series(session, info.id).dropna())
     if values.empty:

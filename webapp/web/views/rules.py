@@ -31,6 +31,7 @@ from webapp.web.forms.rules import (
     sweep_level,
 )
 from webapp.web.htmx import render
+from webapp.web.views import burn_rules
 
 bp = Blueprint("rules", __name__)
 
@@ -130,6 +131,8 @@ def _show(
     info = next(
         (s for s in candidates if str(s.id) == chosen), candidates[0] if candidates else None
     )
+    if rule.kind == "burn_rate":
+        return burn_rules.show(rule, candidates, info, lazy)
     replay, problem, sweep_errors = None, None, {}
     scope = request.values.get("incidents", "all")
     level = sweep_level(rule.kind)
