@@ -38,6 +38,7 @@ from ._burn_sweep import BURN_SWEEP_COLUMNS, burn_sweep, burn_sweep_grid
 from ._explain import ENGINE_VERSION, Explanation, explain
 from ._export_data import to_csv, to_json
 from ._grid import infer_step, regularize
+from ._kinds import KindRow, best_setting, kind_row, kinds_sentence, row_from_sweep
 from ._overlay import past_weeks_overlay
 from ._peers import PeerComparison, PeerGroup, PeerResult, compare_peers
 from ._replay import BandGrid, BandRule, ThresholdRule, band_grid, replay, rule_from_fields
@@ -48,6 +49,11 @@ from ._verdict import VerdictDraft, draft_verdict
 from ._whatif import band_sweep, sweep_grid, whatif_sweep
 
 __all__ = [
+    "KindRow",
+    "best_setting",
+    "kind_row",
+    "kinds_sentence",
+    "row_from_sweep",
     "aggregate",
     "ENGINE_VERSION",
     "RuleReplay",

@@ -16,6 +16,7 @@ def register_web(app: Flask) -> None:
         pages,
         peers,
         reviews,
+        rule_kinds,
         rules,
         series,
     )
@@ -24,5 +25,16 @@ def register_web(app: Flask) -> None:
     errors.init_app(app)
     filters.init_app(app)
     app.add_template_global(assets.plotly_version, "plotly_version")
-    for module in (assets, home, imports, series, explain, peers, pages, rules, reviews):
+    for module in (
+        assets,
+        home,
+        imports,
+        series,
+        explain,
+        peers,
+        pages,
+        rules,
+        rule_kinds,
+        reviews,
+    ):
         app.register_blueprint(module.bp)
