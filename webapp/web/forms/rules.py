@@ -71,7 +71,7 @@ def parse_rule_form(session: Session, form: Mapping[str, str]) -> dict[str, Any]
     fields.update(_target(session, form, errors))
     for name in ("threshold", "tolerance"):
         raw = form.get(name, "").strip()
-        needed = (kind == "threshold") == (name == "threshold")
+        needed = kind == {"threshold": "threshold", "tolerance": "band"}[name]
         if not needed:
             fields[name] = None
         elif (
