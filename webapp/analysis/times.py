@@ -68,7 +68,7 @@ def parse_duration(text: Any) -> pd.Timedelta | None:
         return None
     try:
         # days as short_duration writes them ("3d"); pandas wants "3D"
-        words = re.sub(r"(?<=\d)d\b", "D", raw)
+        words = re.sub(r"(?<=\d)d(?![a-z])", "D", raw)
         delta = pd.Timedelta(float(raw), unit="s") if is_number(raw) else pd.Timedelta(words)
     except (TypeError, ValueError, OverflowError):
         delta = None
