@@ -184,5 +184,15 @@
     });
   });
 
+  // A swapped-out figure is purged first: otherwise its resize listener and its toolbar
+  // outlive it and the redrawn figure is laid out against the old one.
+  document.addEventListener("htmx:beforeSwap", function (event) {
+    var target = event.detail.target;
+    if (!target || !target.querySelectorAll) return;
+    target.querySelectorAll(".js-plotly-plot").forEach(function (el) {
+      Plotly.purge(el);
+    });
+  });
+
   htmx.onLoad(draw);
 })();

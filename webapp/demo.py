@@ -25,7 +25,10 @@ What happened:
 - 4-5 November, 23:00-00:30 UTC: a planned maintenance window (checkout read-only),
   recorded as an excluded period.
 
-The pages are the firings of the two alert rules replayed over the generated data, so the
+A third rule, proposed and not yet paging, is the workbook's burn-rate rule on the 99.9%
+checkout objective, read from the error ratio.
+
+The pages are the firings of the two paging rules replayed over the generated data, so the
 pages, the rules and the data always agree. Everything is vectorised and deterministic for
 a seed; ``write_demo_csv`` is the one function that touches a file.
 """
@@ -42,7 +45,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from webapp.analysis import replay, rule_from_fields
+from webapp.analysis import WORKBOOK_WINDOWS, replay, rule_from_fields, window_fields
 from webapp.imports._types import ParsedImport, Problem, SeriesMeta
 from webapp.imports.keys import parse_series_key, series_key
 
@@ -85,6 +88,7 @@ UNITS = {
 }
 LATENCY_RULE_KEY = series_key("checkout.latency_p95", {"host": "api-4"})
 QUEUE_RULE_KEY = series_key("payment.queue_depth", {"host": "api-1"})
+ERROR_RATIO_KEY = "checkout.error_ratio"
 
 
 @dataclass(frozen=True)
@@ -274,7 +278,8 @@ def _span_text(span: tuple[pd.Timestamp, pd.Timestamp]) -> str:
 
 
 def _rules() -> list[dict]:
-    """The two alert rules as stored alert-rule fields (``series_key`` names the series)."""
+    """The alert rules as stored alert-rule fields (``series_key`` names the series): the
+    two that paged, and a proposed burn-rate rule on the error ratio that pages nobody."""
     common = {
         "kind": "threshold",
         "direction": "above",
@@ -303,6 +308,24 @@ def _rules() -> list[dict]:
             "hold_seconds": 600,
             "description": "Meant to catch a stuck payment worker before riders notice.",
         },
+        {
+            "name": "Checkout error budget burning",
+            "series_key": ERROR_RATIO_KEY,
+            "metric": "checkout.error_ratio",
+            "label_filter": {},
+            "kind": "burn_rate",
+            "direction": "above",
+            "threshold": None,
+            "tolerance": None,
+            "hold_seconds": 0,
+            "check_every_seconds": 60,
+            "objective": 0.999,
+            "period_seconds": 30 * 86400,
+            "burn_windows": window_fields(WORKBOOK_WINDOWS),
+            "severity": "page",
+            "description": "Proposed: the workbook's burn-rate pages on the 99.9% checkout "
+            "objective, tried beside the latency rule before anyone is paged by it.",
+        },
     ]
 
 
@@ -314,6 +337,8 @@ def _pages(demo_series: Callable[[str], pd.Series], rules: list[dict]) -> list[d
     }
     pages = []
     for fields in rules:
+        if fields["kind"] == "burn_rate":
+            continue  # proposed, not paging yet
         key, rule = fields["series_key"], rule_from_fields(fields)
         for start, end in replay(demo_series(key), rule).itertuples(index=False):
             pages.append(

@@ -25,7 +25,7 @@ from flask import Flask
 from webapp.web.security import HEADERS
 
 HEAVY_PATH = re.compile(
-    r"^/(explain(/|$)|screening(/|$)|pages/\d+/explain|rules/\d+/replay|reviews/\d+/export\.|"
+    r"^/(explain(/|$)|screening(/|$)|pages/\d+/explain|rules/\d+/(replay|kinds)|reviews/\d+/export\.|"
     r"explanations/\d+(/figure/|/data\.|$))"
 )
 READING_METHODS = frozenset({"GET", "HEAD"})

@@ -18,7 +18,7 @@ def test_replay_draws_and_the_verdict_reaches_a_review(
     page, live_server, screenshot, unlabelled
 ) -> None:
     page.goto(live_server.at("/rules"))
-    page.click("table a >> nth=0")
+    page.click("table a:has-text('Checkout p95 latency')")
     page.wait_for_selector("#replay-summary")
     page.wait_for_function(
         "() => document.querySelectorAll('#replay .js-plotly-plot svg.main-svg').length >= 2"

@@ -4,11 +4,16 @@ review's frozen evidence. Data are synthetic (tests/conftest.py)."""
 
 from __future__ import annotations
 
+import numpy as np
+import pandas as pd
 import pytest
 
+from webapp.analysis import band_grid
 from webapp.services import replay as replay_service
 from webapp.services import review_export
 from webapp.store import attachments, reviews, rules
+from webapp.store.imports import record_import
+from webapp.store.series import series_by_keys
 
 WINDOW = {"incident_start": "2026-11-30T14:00", "incident_end": "2026-11-30T16:00"}
 
@@ -37,3 +42,43 @@ def test_a_review_is_gathered_for_export_from_the_store(session, make_explanatio
     assert item.parameters["engine version"] == item.explanation.engine_version
     with pytest.raises(review_export.ExportError, match="no review #999"):
         review_export.review_context(session, 999)
+
+
+def _weeks_of_points(session, make_parsed, key: str, weeks: int = 3) -> int:
+    index = pd.date_range("2026-11-01", periods=weeks * 7 * 288, freq="5min", tz="UTC")
+    minutes = (index.hour * 60 + index.minute).to_numpy()
+    values = 200 + 40 * np.sin(2 * np.pi * minutes / 1440)
+    values += np.random.default_rng(3).normal(0, 3, len(index))
+    record_import(session, make_parsed([key] * len(index), index.as_unit("ms").asi8, values))
+    return series_by_keys(session, [key])[key].id
+
+
+def test_a_band_rule_is_fitted_once_per_data_version(session, make_parsed, monkeypatch) -> None:
+    series_id = _weeks_of_points(session, make_parsed, "checkout.latency_p95{host=api-8}")
+    fits = []
+
+    def counted(*args, **kwargs):
+        fits.append(args[1].tolerance)
+        return band_grid(*args, **kwargs)
+
+    monkeypatch.setattr(replay_service, "band_grid", counted)
+    rule = rules.create_rule(
+        session,
+        name="p95 band",
+        series_id=series_id,
+        kind="band",
+        direction="above",
+        tolerance=4.0,
+        hold_seconds=600,
+    )
+    (info,) = replay_service.matching_series(session, rule)
+    first = replay_service.run_replay(session, rule, info)
+    rules.update_rule(session, rule.id, tolerance=6.0, hold_seconds=0)
+    again = replay_service.run_replay(session, rule, info)
+    assert len(fits) == 1  # another tolerance and hold: the same daily fits
+    assert again.result.bands is first.result.bands
+    assert again.rule.tolerance == 6.0
+
+    _weeks_of_points(session, make_parsed, "checkout.latency_p95{host=api-9}", 1)
+    replay_service.run_replay(session, rule, info)  # a new import: a new data version
+    assert len(fits) == 2

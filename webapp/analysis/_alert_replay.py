@@ -74,7 +74,9 @@ class RuleReplay:
     ``exclude``: (start, end) spans left out of a band rule's baselines, so past incidents
     do not teach the band what is expected. ``grid``: levels and holds for the what-if
     sweep (None: ``sweep_grid``'s default around the rule); the rule's own setting is
-    always added to it.
+    always added to it. ``bands``: a band rule's ``band_grid`` fitted before on the same
+    series, history and exclusions (the fit does not depend on tolerance, hold or
+    direction, so a caller may keep it across replays).
     """
 
     def __init__(
@@ -84,6 +86,7 @@ class RuleReplay:
         incidents: Iterable[object] | None = None,
         exclude: Iterable[object] = (),
         grid: tuple[Sequence[float], Sequence[object]] | None = None,
+        bands: BandGrid | None = None,
     ) -> None:
         if not isinstance(rule, ThresholdRule | BandRule):
             raise ValueError(f"a replay needs a ThresholdRule or a BandRule, got {rule!r}")
@@ -97,10 +100,13 @@ class RuleReplay:
         self.incidents = incident_windows(incidents)
         self.exclude = list(exclude)
         self.grid = None if grid is None else _check_grid(grid)
+        self.bands = bands
 
     def fit(self) -> RuleReplayResult:
         rule, values, exclude = self.rule, self.series, self.exclude
-        bands = band_grid(values, rule, exclude) if isinstance(rule, BandRule) else None
+        bands = None
+        if isinstance(rule, BandRule):
+            bands = self.bands if self.bands is not None else band_grid(values, rule, exclude)
         report = replay_report(values, rule, self.incidents, exclude=exclude, bands=bands)
         levels, holds = self.grid or sweep_grid(values, rule)
         used = (sorted({*levels, _level_of(rule)}), sorted({*holds, rule.hold}))

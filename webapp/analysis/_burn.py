@@ -39,6 +39,7 @@ import numpy as np
 import pandas as pd
 
 from webapp.analysis._grid import as_utc_series
+from webapp.analysis._incidents import DEFAULT_LEAD
 from webapp.analysis._replay import (
     _as_timedelta,
     evaluation_grid,
@@ -47,6 +48,7 @@ from webapp.analysis._replay import (
     hold_samples,
     runs,
 )
+from webapp.analysis._report import DEFAULT_FLAP_GAP, ReplayReport, measure
 from webapp.analysis.times import short_duration
 
 __all__ = [
@@ -57,6 +59,9 @@ __all__ = [
     "budget_consumed",
     "budget_spent",
     "burn_rates",
+    "burn_report",
+    "burn_rule_from_fields",
+    "window_fields",
     "detection_time",
     "event_grid",
     "replay_burn",
@@ -198,6 +203,52 @@ class BurnRateRule:
         if self.check_every is not None:
             out += f", checked every {short_duration(self.check_every)}"
         return out
+
+
+def window_fields(windows: Iterable[BurnWindow]) -> list[dict]:
+    """Window pairs as stored (``burn_windows`` of an alert rule): seconds and plain values."""
+    return [
+        {
+            "long_seconds": int(w.long.total_seconds()),
+            "short_seconds": int(w.short.total_seconds()),
+            "factor": w.factor,
+            "severity": w.severity,
+        }
+        for w in windows
+    ]
+
+
+def burn_rule_from_fields(fields: dict) -> BurnRateRule:
+    """A burn-rate rule from stored alert-rule fields (``objective``, ``period_seconds``,
+    ``burn_windows``, ``severity``, ``hold_seconds``, ``check_every_seconds``); the
+    workbook's windows when none are stored. Raises ValueError naming what is wrong."""
+    stored = fields.get("burn_windows") or window_fields(WORKBOOK_WINDOWS)
+    windows = []
+    for number, item in enumerate(stored, start=1):
+        try:
+            windows.append(
+                BurnWindow(
+                    pd.Timedelta(seconds=int(item["long_seconds"])),
+                    pd.Timedelta(seconds=int(item["short_seconds"])),
+                    item["factor"],
+                    item.get("severity", "page"),
+                )
+            )
+        except (KeyError, TypeError) as err:
+            raise ValueError(
+                f"window {number}: expected long_seconds, short_seconds, factor and severity, "
+                f"got {item!r}"
+            ) from err
+    period = fields.get("period_seconds")
+    every = fields.get("check_every_seconds")
+    return BurnRateRule(
+        objective=0.999 if fields.get("objective") is None else fields["objective"],
+        period=pd.Timedelta(seconds=int(period)) if period else pd.Timedelta(days=30),
+        windows=tuple(windows),
+        severity=fields.get("severity") or "page",
+        hold=pd.Timedelta(seconds=int(fields.get("hold_seconds") or 0)),
+        check_every=pd.Timedelta(seconds=int(every)) if every else None,
+    )
 
 
 # ------------------------------------------------------------------ the events on a grid
@@ -353,6 +404,22 @@ def replay_burn(events: object, rule: BurnRateRule) -> pd.DataFrame:
     starts, ends = fire_indices(run_starts, run_ends, hold_samples(rule.hold, grid.step))
     start_times, end_times = firing_times(grid.times, starts, ends)
     return pd.DataFrame({"start": start_times, "end": end_times})
+
+
+def burn_report(
+    events: object,
+    rule: BurnRateRule,
+    incidents: Iterable[object] | None = None,
+    flap_gap: pd.Timedelta = DEFAULT_FLAP_GAP,
+    lead: pd.Timedelta = DEFAULT_LEAD,
+) -> ReplayReport:
+    """The replay report of ``rule`` over ``events`` against ``incidents``: the same
+    measures, with the same definitions, as ``replay_report`` gives the other kinds."""
+    grid = _grid(events, rule)
+    condition = burn_condition(grid, rule)
+    return measure(
+        grid.times, condition, grid.step, rule.hold, rule.text, incidents, flap_gap, lead
+    )
 
 
 def burn_rates(events: object, rule: BurnRateRule) -> pd.DataFrame:

@@ -31,7 +31,7 @@ from __future__ import annotations
 import math
 from collections.abc import Iterable
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 import pandas as pd
@@ -170,10 +170,16 @@ def _check_timing(rule: Rule, hold: object, check_every: object) -> None:
         object.__setattr__(rule, "check_every", delta)
 
 
-def rule_from_fields(fields: dict) -> Rule:
+def rule_from_fields(fields: dict) -> Any:
     """Build a rule from stored alert-rule fields (``kind``, ``direction``, ``threshold``,
-    ``tolerance``, ``hold_seconds``, ``check_every_seconds``); raises ValueError when incomplete."""
+    ``tolerance``, ``hold_seconds``, ``check_every_seconds``; a burn-rate rule's as
+    ``burn_rule_from_fields`` reads them); raises ValueError when incomplete."""
     kind = fields.get("kind") or "threshold"
+    if kind == "burn_rate":
+        # imported here: the burn-rate module builds on this one's check grid
+        from webapp.analysis._burn import burn_rule_from_fields
+
+        return burn_rule_from_fields(fields)
     hold = pd.Timedelta(seconds=int(fields.get("hold_seconds") or 0))
     every_seconds = fields.get("check_every_seconds")
     check_every = pd.Timedelta(seconds=int(every_seconds)) if every_seconds else None
@@ -188,7 +194,7 @@ def rule_from_fields(fields: dict) -> Rule:
             check_every=check_every,
         )
     if kind != "threshold":
-        raise ValueError(f"unknown rule kind {kind!r}: expected 'threshold' or 'band'")
+        raise ValueError(f"unknown rule kind {kind!r}: expected 'threshold', 'band' or 'burn_rate'")
     threshold = fields.get("threshold")
     if threshold is None:
         raise ValueError("a threshold rule needs a threshold")

@@ -154,13 +154,28 @@ def replay_report(
 
     ``exclude``: spans left out of a band rule's baselines, as in ``replay``; ``bands``: that
     rule's ``band_grid``, when the caller has built it already."""
+    times, condition, step = evaluate(series, rule, exclude, bands)
+    return measure(times, condition, step, rule.hold, rule.text, incidents, flap_gap, lead)
+
+
+def measure(
+    times: pd.DatetimeIndex,
+    condition: np.ndarray,
+    step: pd.Timedelta,
+    hold: pd.Timedelta,
+    rule_text: str,
+    incidents: Iterable[object] | None = None,
+    flap_gap: pd.Timedelta = DEFAULT_FLAP_GAP,
+    lead: pd.Timedelta = DEFAULT_LEAD,
+) -> ReplayReport:
+    """The report of any rule kind from its condition at each grid time: what
+    ``replay_report`` does once a rule has been checked over its grid."""
     flap_gap, lead = pd.Timedelta(flap_gap), pd.Timedelta(lead)
     if flap_gap < pd.Timedelta(0) or lead < pd.Timedelta(0):
         raise ValueError("flap_gap and lead must not be negative")
     windows = incident_windows(incidents)
-    times, condition, step = evaluate(series, rule, exclude, bands)
     run_starts, run_ends = runs(condition)
-    first_idx, end_idx = fire_indices(run_starts, run_ends, hold_samples(rule.hold, step))
+    first_idx, end_idx = fire_indices(run_starts, run_ends, hold_samples(hold, step))
     grid_ns = times.asi8
     step_ns = int(step.value)
     data_end_ns = int(grid_ns[-1]) + step_ns
@@ -207,7 +222,7 @@ def replay_report(
             }
         )
     return ReplayReport(
-        rule_text=rule.text,
+        rule_text=rule_text,
         firings=firings,
         span=span,
         step=step,

@@ -7,6 +7,7 @@ UTC columns, the forms for what a reader types, the screens and exports for what
 from __future__ import annotations
 
 import math
+import re
 from typing import Any
 from zoneinfo import ZoneInfo
 
@@ -66,7 +67,9 @@ def parse_duration(text: Any) -> pd.Timedelta | None:
     if not raw:
         return None
     try:
-        delta = pd.Timedelta(float(raw), unit="s") if is_number(raw) else pd.Timedelta(raw)
+        # days as short_duration writes them ("3d"); pandas wants "3D"
+        words = re.sub(r"(?<=\d)d(?![a-z])", "D", raw)
+        delta = pd.Timedelta(float(raw), unit="s") if is_number(raw) else pd.Timedelta(words)
     except (TypeError, ValueError, OverflowError):
         delta = None
     if delta is None or pd.isna(delta):

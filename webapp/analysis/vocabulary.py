@@ -13,22 +13,36 @@ __all__ = [
     "VERDICTS",
     "OWNER_DECIDES",
     "SWEEP_LEVEL",
+    "KIND_NAMES",
     "FACT_LABELS",
     "fact_label",
 ]
 
-#: An alert rule compares the value with a fixed threshold or with the expected band.
-RULE_KINDS = ("threshold", "band")
+#: An alert rule compares the value with a fixed threshold or with the expected band, or
+#: (burn_rate) how fast an objective's error budget is spent with burn-rate factors.
+RULE_KINDS = ("threshold", "band", "burn_rate")
 
 #: Which side of its limit a rule is raised on, per kind; the first is the form's default.
-DIRECTIONS = {"threshold": ("above", "below"), "band": ("both", "above", "below")}
+DIRECTIONS = {
+    "threshold": ("above", "below"),
+    "band": ("both", "above", "below"),
+    "burn_rate": ("above",),
+}
 
-#: What a what-if sweep varies besides the hold, per kind.
-SWEEP_LEVEL = {"threshold": "threshold", "band": "tolerance"}
+#: What a what-if sweep varies besides the hold (for a burn-rate rule: the window pair).
+SWEEP_LEVEL = {"threshold": "threshold", "band": "tolerance", "burn_rate": "factor"}
+
+#: Words for each rule kind in tables and sentences.
+KIND_NAMES = {"threshold": "threshold", "band": "band", "burn_rate": "burn-rate"}
 
 #: The stored fields of an alert rule (``webapp.store.models.AlertRule``), in form order.
 #: ``hold_seconds``: how long the condition must hold before the rule is raised;
 #: ``check_every_seconds``: how often it is checked (None: the series' own step).
+#: A burn-rate rule: ``objective`` (0.999 for 99.9%), ``period_seconds`` (the compliance
+#: period), ``burn_windows`` (window pairs: long_seconds, short_seconds, factor, severity),
+#: ``severity`` (the conditions it raises on: page or ticket); it watches ``series_id``,
+#: an error-ratio series, or with ``good_series_id`` a good/total pair of event counts per
+#: sample (``series_id`` then counts all events).
 RULE_FIELDS = (
     "name",
     "series_id",
@@ -41,6 +55,11 @@ RULE_FIELDS = (
     "hold_seconds",
     "check_every_seconds",
     "description",
+    "objective",
+    "period_seconds",
+    "burn_windows",
+    "severity",
+    "good_series_id",
 )
 
 #: What a drafted (and a recorded) verdict on an alert rule may say.

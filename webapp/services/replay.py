@@ -9,8 +9,10 @@ from typing import Any
 import pandas as pd
 from sqlalchemy.orm import Session
 
-from webapp.analysis import RuleReplay, RuleReplayResult, rule_from_fields
+from webapp.analysis import BandRule, RuleReplay, RuleReplayResult, band_grid, rule_from_fields
 from webapp.analysis.vocabulary import RULE_FIELDS
+from webapp.services.cache import Recent
+from webapp.services.explain import data_version
 from webapp.store import excluded as store_excluded
 from webapp.store import incidents as store_incidents
 from webapp.store import series as store_series
@@ -31,9 +33,14 @@ def matching_series(session: Session, rule: AlertRule) -> list[store_series.Seri
 
 def rule_text(rule: AlertRule) -> str:
     try:
-        return rule_from_fields(_fields(rule)).text
+        return analysed_rule(rule).text
     except ValueError as err:
         return f"incomplete rule: {err}"
+
+
+def analysed_rule(rule: AlertRule) -> Any:
+    """The core's rule for a stored alert rule (any kind); ValueError when incomplete."""
+    return rule_from_fields(_fields(rule))
 
 
 def _fields(rule: AlertRule) -> dict[str, Any]:
@@ -108,11 +115,35 @@ def run_replay(
     cannot be replayed."""
     if scope not in INCIDENT_SCOPES:
         raise ValueError(f"incidents must be one of {', '.join(INCIDENT_SCOPES)}, got {scope!r}")
-    analysed = rule_from_fields(_fields(rule))
-    values = store_series.read_series(session, info.id).dropna()
+    analysed = analysed_rule(rule)
+    version = (info.id, *data_version(session, info))
+    values = _points.get(version, lambda: store_series.read_series(session, info.id).dropna())
     if values.empty:
         raise ValueError(f"{info.key} has no stored points to replay over")
     incidents = store_incidents.incident_windows(session, None if scope == "all" else info.id)
     exclude = store_excluded.periods_for(session, info.id)
-    result = RuleReplay(values, analysed, incidents, exclude, grid).fit()
+    bands = band_fit(version, values, analysed, exclude)
+    result = RuleReplay(values, analysed, incidents, exclude, grid, bands).fit()
     return Replay(info, result, values, scope)
+
+
+# The points and a band rule's daily fits, kept by data version: replaying again (another
+# tolerance, another sweep) reads and fits nothing.
+_points = Recent(4)
+_band_fits = Recent(8)
+
+
+def band_fit(version: tuple, values: pd.Series, rule: Any, exclude: list) -> Any:
+    """A band rule's daily bands, fitted once per data version, history and exclusions
+    (tolerance, hold and direction do not change the fit); None for other kinds."""
+    if not isinstance(rule, BandRule):
+        return None
+    key = (
+        version,
+        rule.history,
+        rule.min_history,
+        rule.tz,
+        rule.check_every,
+        tuple((pd.Timestamp(a), pd.Timestamp(b)) for a, b in exclude),
+    )
+    return _band_fits.get(key, lambda: band_grid(values, rule, exclude))

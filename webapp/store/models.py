@@ -150,7 +150,10 @@ class PointBlock(Base):
 
 
 class AlertRule(Base):
-    """The condition that produced pages: a threshold or an expected-band rule."""
+    """The condition that produced pages: a threshold, an expected-band or a burn-rate rule.
+
+    A burn-rate rule watches ``series_id`` as an error-ratio series, or, with
+    ``good_series_id``, as the total events of a good/total pair of counts per sample."""
 
     __tablename__ = "alert_rules"
 
@@ -159,7 +162,7 @@ class AlertRule(Base):
     series_id: Mapped[int | None] = mapped_column(ForeignKey("series.id", ondelete="SET NULL"))
     metric: Mapped[str | None] = mapped_column(String(500))
     label_filter: Mapped[dict[str, str]] = mapped_column(JSON, default=dict)
-    kind: Mapped[str] = mapped_column(String(20), default="threshold")  # threshold | band
+    kind: Mapped[str] = mapped_column(String(20), default="threshold")  # RULE_KINDS
     direction: Mapped[str] = mapped_column(String(10), default="above")  # above | below
     threshold: Mapped[float | None] = mapped_column(Float)
     tolerance: Mapped[float | None] = mapped_column(Float)
@@ -167,6 +170,11 @@ class AlertRule(Base):
     check_every_seconds: Mapped[int | None] = mapped_column(Integer)
     description: Mapped[str] = mapped_column(Text, default="")
     version: Mapped[int] = mapped_column(Integer, default=1, server_default="1")
+    objective: Mapped[float | None] = mapped_column(Float)  # 0.999 for 99.9%
+    period_seconds: Mapped[int | None] = mapped_column(Integer)  # the compliance period
+    burn_windows: Mapped[list[dict[str, Any]] | None] = mapped_column(JSON)
+    severity: Mapped[str | None] = mapped_column(String(10))  # page | ticket
+    good_series_id: Mapped[int | None] = mapped_column(ForeignKey("series.id", ondelete="SET NULL"))
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
 
 

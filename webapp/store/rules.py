@@ -8,6 +8,7 @@ from typing import Any
 from sqlalchemy import select
 from sqlalchemy.orm import Session
 
+from webapp.analysis import burn_rule_from_fields
 from webapp.analysis.vocabulary import DIRECTIONS, RULE_FIELDS, RULE_KINDS
 from webapp.store._sql import delete_by_id, require
 from webapp.store.models import AlertRule
@@ -30,12 +31,21 @@ def _check(rule: AlertRule) -> None:
         raise ValueError(f"a threshold rule needs a finite threshold, got {rule.threshold!r}")
     if rule.kind == "band" and not (_finite(rule.tolerance) and rule.tolerance > 0):
         raise ValueError(f"a band rule needs a tolerance above 0, got {rule.tolerance!r}")
+    if rule.kind == "burn_rate":
+        _check_burn(rule)
     if rule.hold_seconds is None or rule.hold_seconds < 0:
         raise ValueError(f"hold_seconds must be 0 or more, got {rule.hold_seconds!r}")
     if rule.check_every_seconds is not None and rule.check_every_seconds <= 0:
         raise ValueError(
             f"check_every_seconds must be above 0 when given, got {rule.check_every_seconds!r}"
         )
+
+
+def _check_burn(rule: AlertRule) -> None:
+    """A burn-rate rule's objective, period and windows, checked by the core's own rule."""
+    if rule.good_series_id is not None and rule.good_series_id == rule.series_id:
+        raise ValueError("the good events and the total events must be two different series")
+    burn_rule_from_fields({name: getattr(rule, name) for name in RULE_FIELDS})
 
 
 def _finite(value: Any) -> bool:

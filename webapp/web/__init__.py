@@ -16,6 +16,7 @@ def register_web(app: Flask) -> None:
         pages,
         peers,
         reviews,
+        rule_kinds,
         rules,
         screening,
         series,
@@ -37,6 +38,7 @@ def register_web(app: Flask) -> None:
         screening,
         pages,
         rules,
+        rule_kinds,
         reviews,
     ):
         app.register_blueprint(module.bp)

@@ -1,4 +1,5 @@
-"""Figures for the Alert rules screen: the replay over history and the what-if sweep."""
+"""Figures for the Alert rules screen: the replay over history, the what-if sweep, and a
+burn-rate rule's budget spent and burn rates against its factors."""
 
 from __future__ import annotations
 
@@ -152,12 +153,13 @@ def sweep_figure(
 ) -> go.Figure:
     """Pages per week against incidents caught, one line per hold along which the
     sweep's level changes: the threshold, or a band rule's tolerance (the sweep's first
-    column). ``current`` and ``drafted`` are (level, hold) points to mark."""
-    level = level_column(sweep)
+    column); for a burn-rate rule one line per window pair along which the factor changes.
+    ``current`` and ``drafted`` are (level, hold or window pair) points to mark."""
+    level, line = level_column(sweep), line_column(sweep)
     fig = go.Figure()
-    for i, (hold, rows) in enumerate(sweep.groupby("hold", sort=True)):
+    for i, (key, rows) in enumerate(sweep.groupby(line, sort=line == "hold")):
         rows = rows.sort_values(level)
-        label = f"hold {short_duration(hold)}" if hold else "no hold"
+        label = _line_label(line, key)
         fig.add_trace(
             go.Scatter(
                 x=rows["pages_per_week"],
@@ -187,7 +189,7 @@ def sweep_figure(
                     name=name,
                     marker={"symbol": symbol, "size": 18, "color": colour, "line": {"width": 2}},
                     hovertemplate=f"{name}: {level} {row[level]:.4g}, "
-                    f"hold {short_duration(row['hold'])}<extra></extra>",
+                    f"{_line_label(line, row[line])}<extra></extra>",
                 )
             )
     _layout(fig, 380, "pages per week (double-click to see every setting)", "incidents caught")
@@ -209,9 +211,86 @@ def level_column(sweep: pd.DataFrame) -> str:
     return str(sweep.columns[0])
 
 
-def _row(sweep: pd.DataFrame, point: tuple[float, pd.Timedelta] | None) -> pd.Series | None:
+def line_column(sweep: pd.DataFrame) -> str:
+    """What each line of a sweep figure keeps fixed: the hold, or a burn-rate sweep's
+    window pair."""
+    return "windows" if "windows" in sweep.columns else "hold"
+
+
+def _line_label(line: str, key: object) -> str:
+    if line == "windows":
+        return f"windows {key}"
+    return f"hold {short_duration(key)}" if key else "no hold"
+
+
+def _row(sweep: pd.DataFrame, point: tuple[float, object] | None) -> pd.Series | None:
     if point is None:
         return None
-    level = level_column(sweep)
-    match = sweep[np.isclose(sweep[level], point[0]) & (sweep["hold"] == point[1])]
+    level, line = level_column(sweep), line_column(sweep)
+    match = sweep[np.isclose(sweep[level], point[0]) & (sweep[line] == point[1])]
     return None if match.empty else match.iloc[0]
+
+
+def _peaks(frame: pd.DataFrame, n_out: int) -> pd.DataFrame:
+    """At most ``n_out`` rows: the highest value of each column per slice of time, so a
+    short burst stays visible."""
+    if len(frame) <= n_out:
+        return frame
+    bucket = np.arange(len(frame)) * n_out // len(frame)
+    peaks = frame.groupby(bucket).max()
+    peaks.index = frame.index[np.searchsorted(bucket, peaks.index)]
+    return peaks
+
+
+def budget_figure(budget: pd.Series, tz: str = "UTC", n_out: int = 2000) -> go.Figure:
+    """The share of the error budget spent over the compliance period ending at each
+    check, in percent, with the whole budget (100%) marked."""
+    spent = _peaks(budget.to_frame("spent") * 100, n_out)["spent"]
+    fig = go.Figure(
+        go.Scatter(
+            x=wall_clock(pd.DatetimeIndex(spent.index), tz),
+            y=spent.to_numpy(),
+            mode="lines",
+            name="budget spent",
+            line={"color": palette.VALUE, "width": 1.4},
+            hovertemplate="%{y:.1f}% of the budget spent<extra></extra>",
+        )
+    )
+    fig.add_hline(y=100, line={"color": palette.OUT_OF_BAND, "dash": "dash", "width": 1.4})
+    _layout(fig, 260, f"time ({tz}); the whole budget dashed", "% of budget spent")
+    fig.update_xaxes(type="date")
+    fig.update_yaxes(rangemode="tozero")
+    return fig
+
+
+def burn_rates_figure(
+    rates: pd.DataFrame, factors: Sequence[float], tz: str = "UTC", n_out: int = 1500
+) -> go.Figure:
+    """The burn rate over each of the rule's windows (the highest per slice of time), on a
+    log scale, with the rule's factors as dashed lines."""
+    peaks = _peaks(rates, n_out)
+    x = wall_clock(pd.DatetimeIndex(peaks.index), tz)
+    fig = go.Figure()
+    for i, name in enumerate(peaks.columns):
+        fig.add_trace(
+            go.Scatter(
+                x=x,
+                y=peaks[name].clip(lower=0.01).to_numpy(),
+                mode="lines",
+                name=f"over {name}",
+                line={"color": COLOURS[i % len(COLOURS)], "width": 1.1},
+                hovertemplate=f"burn rate over {name}: %{{y:.2f}}x<extra></extra>",
+            )
+        )
+    for factor in sorted(set(factors)):
+        fig.add_hline(
+            y=factor,
+            line={"color": palette.OUT_OF_BAND, "dash": "dash", "width": 1.2},
+            annotation_text=f"{factor:g}x",
+            annotation_position="top left",
+            annotation_font_size=11,
+        )
+    _layout(fig, 320, f"time ({tz}); factors dashed", "burn rate (x budget)")
+    fig.update_xaxes(type="date")
+    fig.update_yaxes(type="log")
+    return fig

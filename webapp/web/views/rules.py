@@ -33,6 +33,7 @@ from webapp.web.forms.rules import (
     sweep_level,
 )
 from webapp.web.htmx import render
+from webapp.web.views import burn_rules
 
 bp = Blueprint("rules", __name__)
 
@@ -167,6 +168,8 @@ def _show(
     session = db.get_session()
     candidates = matching_series(session, rule)
     info = chosen_series(candidates, request.values.get("series_id", ""))
+    if rule.kind == "burn_rate":
+        return burn_rules.show(rule, candidates, info, lazy)
     replay, problem, sweep_errors = None, None, {}
     scope = request.values.get("incidents", "all")
     level = sweep_level(rule.kind)
