@@ -45,6 +45,7 @@ MAX_DECIMALS = 6
 EXACT_SHARE = 0.5  # a formula is tried when at least this share of a sample is exact
 SAMPLE_ROWS = 2000
 SIZE_ROWS = 16384  # rows compressed to compare codecs
+SCALE_CANDIDATES = 3
 _ZSTD = pa.Codec("zstd", compression_level=3)
 
 
@@ -265,14 +266,26 @@ def _formula_codecs(arrays: dict[str, np.ndarray], name: str, allowed: list[str]
 
 
 def _scale_of(x: np.ndarray, a: np.ndarray, b: np.ndarray) -> float | None:
-    """The constant ``k`` of ``x = a + k * b``, rounded to 12 significant digits."""
+    """The constant ``k`` of ``x = a + k * b`` that matches most rows bit for bit.
+
+    ``k`` may be any double (a calibrated quantile), so the candidates are the most frequent
+    ratios ``(x - a) / b`` and their neighbouring doubles, and the median rounded to 12
+    significant digits (a round constant seen through rounding noise)."""
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         ratios = (x - a) / b
     ratios = ratios[np.isfinite(ratios) & (b != 0)]
     if not len(ratios):
         return None
-    k = float(f"{float(np.median(ratios)):.12g}")
-    return k if k not in (0.0, 1.0, -1.0) else None
+    values, counts = np.unique(ratios, return_counts=True)
+    frequent = values[np.argsort(-counts, kind="stable")[:SCALE_CANDIDATES]]
+    candidates = {float(f"{float(np.median(ratios)):.12g}")}
+    for k in frequent:
+        candidates.update(float(v) for v in (k, np.nextafter(k, -np.inf), np.nextafter(k, np.inf)))
+    candidates -= {0.0, 1.0, -1.0}
+    if not candidates:
+        return None
+    with np.errstate(invalid="ignore", over="ignore"):
+        return max(sorted(candidates), key=lambda k: int(np.sum(a + k * b == x)))
 
 
 def _predict_formula(codec: Codec, a: np.ndarray, b: np.ndarray) -> np.ndarray:
