@@ -45,7 +45,9 @@ MAX_DECIMALS = 6
 EXACT_SHARE = 0.5  # a formula is tried when at least this share of a sample is exact
 SAMPLE_ROWS = 2000
 SIZE_ROWS = 16384  # rows compressed to compare codecs
+SIZE_STRETCHES = 8
 SCALE_CANDIDATES = 3
+MIN_BLOCK_ROWS = 1024
 _ZSTD = pa.Codec("zstd", compression_level=3)
 
 
@@ -53,16 +55,28 @@ _ZSTD = pa.Codec("zstd", compression_level=3)
 class Codec:
     """How one float column is stored: ``kind`` with its column references and constant."""
 
-    kind: str  # raw | previous | linear | lag | sum | difference | scaled | decimal
+    kind: str  # raw | previous | linear | cubic | lag | sum | difference | scaled | decimal
+    #            | blocks
     refs: tuple[str, ...] = ()
-    number: float = 0.0  # the lag in rows, the scale k, or the number of decimals
+    number: float = 0.0  # the lag in rows, the scale k, the decimals, or the block rows
+    runs: tuple[tuple[Codec, int], ...] = ()  # blocks: (own-row codec, how many blocks)
 
     def as_json(self) -> dict:
-        return {"kind": self.kind, "refs": list(self.refs), "number": self.number}
+        data = {"kind": self.kind, "refs": list(self.refs), "number": self.number}
+        if self.runs:
+            data["runs"] = [[c.kind, c.number, count] for c, count in self.runs]
+        return data
 
     @classmethod
     def from_json(cls, data: dict) -> Codec:
-        return cls(str(data["kind"]), tuple(data["refs"]), float(data["number"]))
+        runs = tuple((cls(str(k), (), float(n)), int(c)) for k, n, c in data.get("runs", ()))
+        return cls(str(data["kind"]), tuple(data["refs"]), float(data["number"]), runs)
+
+    @property
+    def reach(self) -> int:
+        """How many rows back an own-row codec reads."""
+        orders = {"raw": 0, "previous": 1, "linear": 2, "cubic": 3}
+        return int(self.number) if self.kind == "lag" else orders[self.kind]
 
 
 def encode_frame(frame: pd.DataFrame, *, compact: bool = True) -> bytes:
@@ -125,9 +139,10 @@ def choose_codecs(frame: pd.DataFrame) -> dict[str, Codec]:
     floats = [c for c in frame.columns if frame[c].dtype == np.float64]
     arrays = {c: np.ascontiguousarray(frame[c].to_numpy()) for c in floats}
     lags = _grid_lags(frame.index)
+    block = _block_rows(lags)
     own = {
         name: min(
-            ((_size(arrays, name, c), c) for c in _own_codecs(arrays[name], lags)),
+            ((_size(arrays, name, c), c) for c in _own_codecs(arrays[name], lags, block)),
             key=lambda t: t[0],
         )
         for name in floats
@@ -204,15 +219,40 @@ def _grid_lags(index: pd.Index) -> list[int]:
     return [lag for lag in (per_day, 7 * per_day) if 0 < lag < len(index)]
 
 
-def _own_codecs(x: np.ndarray, lags: list[int]) -> Iterator[Codec]:
-    yield Codec("raw")
-    yield Codec("previous")
-    yield Codec("linear")
-    for lag in lags:
-        yield Codec("lag", number=float(lag))
+def _block_rows(lags: list[int]) -> int:
+    """Rows per block of a ``blocks`` codec: whole days on a time grid (a day's seasonal
+    pattern changes as a whole), at least MIN_BLOCK_ROWS."""
+    if not lags:
+        return MIN_BLOCK_ROWS
+    return lags[0] * -(-MIN_BLOCK_ROWS // lags[0])
+
+
+def _own_codecs(x: np.ndarray, lags: list[int], block: int) -> Iterator[Codec]:
+    rows = [Codec("raw"), Codec("previous"), Codec("linear"), Codec("cubic")]
+    rows += [Codec("lag", number=float(lag)) for lag in lags]
+    yield from rows
+    if len(x) > block:
+        yield _blocks_codec(x, rows, block)
     decimals = _decimals(x)
     if decimals is not None:
         yield Codec("decimal", number=float(decimals))
+
+
+def _blocks_codec(x: np.ndarray, candidates: list[Codec], block: int) -> Codec:
+    """Each block of ``block`` rows under its own smallest own-row codec: a seasonal pattern
+    may repeat exactly for some days (lag) and change smoothly on others (differences)."""
+    words = [_own_words(x, c) for c in candidates]
+    chosen: list[Codec] = []
+    for start in range(0, len(x), block):
+        sizes = [_compressed(w[start : start + block]) for w in words]
+        chosen.append(candidates[int(np.argmin(sizes))])
+    runs: list[tuple[Codec, int]] = []
+    for codec in chosen:
+        if runs and runs[-1][0] == codec:
+            runs[-1] = (codec, runs[-1][1] + 1)
+        else:
+            runs.append((codec, 1))
+    return Codec("blocks", number=float(block), runs=tuple(runs))
 
 
 def _decimals(x: np.ndarray) -> int | None:
@@ -306,11 +346,13 @@ def _own_words(x: np.ndarray, codec: Codec) -> np.ndarray:
     bits = x.view(np.int64)
     if codec.kind == "raw":
         return bits.view(np.uint64).copy()
+    if codec.kind == "blocks":
+        return _blocks_words(x, codec)
     if codec.kind == "lag":
         steps = _diff(bits, int(codec.number))
     else:
-        steps = _diff(bits, 1)
-        if codec.kind == "linear":
+        steps = bits
+        for _ in range(codec.reach):
             steps = _diff(steps, 1)
     return ((steps << 1) ^ (steps >> 63)).view(np.uint64)
 
@@ -318,14 +360,43 @@ def _own_words(x: np.ndarray, codec: Codec) -> np.ndarray:
 def _undo_own(words: np.ndarray, codec: Codec) -> np.ndarray:
     if codec.kind == "raw":
         return words.view(np.float64).copy()
+    if codec.kind == "blocks":
+        return _undo_blocks(words, codec)
     steps = ((words >> np.uint64(1)) ^ (np.uint64(0) - (words & np.uint64(1)))).view(np.int64)
     if codec.kind == "lag":
         bits = _cumsum(steps, int(codec.number))
     else:
-        bits = _cumsum(steps, 1)
-        if codec.kind == "linear":
+        bits = steps
+        for _ in range(codec.reach):
             bits = _cumsum(bits, 1)
     return bits.view(np.float64)
+
+
+def _run_bounds(codec: Codec, n: int) -> Iterator[tuple[Codec, int, int]]:
+    start, block = 0, int(codec.number)
+    for part, count in codec.runs:
+        end = min(n, start + count * block)
+        yield part, start, end
+        start = end
+
+
+def _blocks_words(x: np.ndarray, codec: Codec) -> np.ndarray:
+    words = np.empty(len(x), dtype=np.uint64)
+    for part, start, end in _run_bounds(codec, len(x)):
+        words[start:end] = _own_words(x, part)[start:end]
+    return words
+
+
+def _undo_blocks(words: np.ndarray, codec: Codec) -> np.ndarray:
+    """Decodes run after run: each run's codec restarts from the decoded rows before it
+    (encoding the rows it reads back and the run's stored words, then undoing both)."""
+    x = np.empty(len(words), dtype=np.float64)
+    for part, start, end in _run_bounds(codec, len(words)):
+        before = min(start, part.reach)
+        local = _own_words(np.concatenate([x[start - before : start], np.zeros(end - start)]), part)
+        local[before:] = words[start:end]
+        x[start:end] = _undo_own(local, part)[before:]
+    return x
 
 
 def _diff(a: np.ndarray, lag: int) -> np.ndarray:
@@ -392,7 +463,14 @@ def _size(arrays: dict[str, np.ndarray], name: str, codec: Codec) -> int:
         words = _formula_words(arrays, name, codec)
     else:
         words = _own_words(x, codec)
-    middle = max(0, len(words) // 2 - SIZE_ROWS // 2)
-    stretch = words[middle : middle + SIZE_ROWS]
-    planes = np.ascontiguousarray(stretch.view(np.uint8).reshape(-1, 8).T)
+    if len(words) <= SIZE_ROWS:
+        return _compressed(words)
+    # Stretches spread over the column: a codec may suit only some of it (see blocks).
+    stretch = SIZE_ROWS // SIZE_STRETCHES
+    starts = np.linspace(0, len(words) - stretch, SIZE_STRETCHES).astype(np.int64)
+    return sum(_compressed(words[s : s + stretch]) for s in starts)
+
+
+def _compressed(words: np.ndarray) -> int:
+    planes = np.ascontiguousarray(words.view(np.uint8).reshape(-1, 8).T)
     return len(_ZSTD.compress(planes.tobytes(), asbytes=True))
