@@ -90,7 +90,8 @@ def encode_frame(frame: pd.DataFrame, *, compact: bool = True) -> bytes:
     encodings: dict[str, str] = {}
     for name, codec in codecs.items():
         work[name] = _encode_column(frame, name, codec)
-        encodings[name] = "DELTA_BINARY_PACKED" if codec.kind == "decimal" else "BYTE_STREAM_SPLIT"
+        delta = codec.kind == "decimal" and not codec.refs
+        encodings[name] = "DELTA_BINARY_PACKED" if delta else "BYTE_STREAM_SPLIT"
     table = pa.Table.from_pandas(work, preserve_index=True)
     for column in table.schema.pandas_metadata.get("index_columns", []):
         kind = table.schema.field(column).type if isinstance(column, str) else None
@@ -287,6 +288,9 @@ def _formula_codecs(arrays: dict[str, np.ndarray], name: str, allowed: list[str]
         return []
     xs = x[sample]
     found: list[Codec] = []
+    decimals = _decimals(x)
+    if decimals is not None:  # values with short decimals, stored near another column
+        found += [Codec("decimal", (ref,), float(decimals)) for ref in allowed if ref != name]
     for i, a in enumerate(allowed):
         av = arrays[a][sample]
         for b in allowed:
@@ -426,25 +430,51 @@ def _decimal_integers(x: np.ndarray, codec: Codec) -> np.ndarray:
     return np.rint(np.nan_to_num(x) * 10.0**codec.number).astype(np.int64)
 
 
+def _reference_integers(ref: np.ndarray, codec: Codec) -> np.ndarray:
+    """The reference column in the same decimals, rounded (0 where it is not finite or too
+    large): decimals stored as their distance from it are small numbers."""
+    scaled = ref * 10.0**codec.number
+    usable = np.isfinite(scaled) & (np.abs(scaled) < 2.0**52)
+    return np.rint(np.where(usable, scaled, 0.0)).astype(np.int64)
+
+
+def _decimal_words(arrays: dict[str, np.ndarray], name: str, codec: Codec) -> np.ndarray:
+    """A ``decimal`` column near a reference: the zigzagged distance, in its last decimal,
+    from the rounded reference."""
+    steps = _decimal_integers(arrays[name], codec) - _reference_integers(
+        arrays[codec.refs[0]], codec
+    )
+    return ((steps << 1) ^ (steps >> 63)).view(np.uint64)
+
+
 def _encode_column(
     frame: pd.DataFrame, name: str, codec: Codec
 ) -> np.ndarray | pd.api.extensions.ExtensionArray:
     x = np.ascontiguousarray(frame[name].to_numpy(), dtype=np.float64)
+    arrays = {r: np.ascontiguousarray(frame[r].to_numpy()) for r in codec.refs}
+    if codec.kind == "decimal" and codec.refs:
+        words = _decimal_words({**arrays, name: x}, name, codec)
+        return pd.arrays.IntegerArray(words.view(np.int64), np.isnan(x))
     if codec.kind == "decimal":
         return pd.arrays.IntegerArray(_decimal_integers(x, codec), np.isnan(x))
-    if codec.refs:
-        arrays = {r: np.ascontiguousarray(frame[r].to_numpy()) for r in codec.refs}
-        words = _formula_words({**arrays, name: x}, name, codec)
-    else:
-        words = _own_words(x, codec)
+    words = _formula_words({**arrays, name: x}, name, codec) if codec.refs else _own_words(x, codec)
     return words.view(np.int64)
 
 
 def _decode_column(frame: pd.DataFrame, name: str, codec: Codec) -> np.ndarray:
     if codec.kind == "decimal":
         stored = frame[name]
-        n = stored.to_numpy(dtype=np.float64, na_value=np.nan)
-        return np.where(stored.isna().to_numpy(), np.nan, n / 10.0**codec.number)
+        missing = stored.isna().to_numpy()
+        if codec.refs:
+            words = stored.to_numpy(dtype=np.int64, na_value=0).view(np.uint64)
+            steps = ((words >> np.uint64(1)) ^ (np.uint64(0) - (words & np.uint64(1)))).view(
+                np.int64
+            )
+            ref = np.ascontiguousarray(frame[codec.refs[0]].to_numpy(), dtype=np.float64)
+            n = (steps + _reference_integers(ref, codec)).astype(np.float64)
+        else:
+            n = stored.to_numpy(dtype=np.float64, na_value=np.nan)
+        return np.where(missing, np.nan, n / 10.0**codec.number)
     words = np.ascontiguousarray(frame[name].to_numpy(dtype=np.int64)).view(np.uint64)
     if codec.refs:
         a, b = (np.ascontiguousarray(frame[r].to_numpy(), dtype=np.float64) for r in codec.refs)
@@ -457,7 +487,9 @@ def _size(arrays: dict[str, np.ndarray], name: str, codec: Codec) -> int:
     """Compressed size of a stretch of the column under ``codec``: byte planes through
     zstd, about what Parquet's BYTE_STREAM_SPLIT with zstd writes."""
     x = arrays[name]
-    if codec.kind == "decimal":
+    if codec.kind == "decimal" and codec.refs:
+        words = _decimal_words(arrays, name, codec)
+    elif codec.kind == "decimal":
         words = _own_words(_decimal_integers(x, codec).view(np.float64), Codec("previous"))
     elif codec.refs:
         words = _formula_words(arrays, name, codec)
