@@ -48,8 +48,10 @@ EXACT_SHARE = 0.5  # a formula is tried when at least this share of a sample is 
 SAMPLE_ROWS = 2000
 SIZE_ROWS = 16384  # rows compressed to compare codecs
 SIZE_STRETCHES = 8
-SCALE_CANDIDATES = 3
+SCALE_ULPS = 32  # how far from the median ratio a scale constant is looked for
+SCALE_ROWS = 256  # rows the candidates are tried on
 MIN_BLOCK_ROWS = 1024
+FIT_ROWS = 8192  # rows the alternate blend is fitted on
 _ZSTD = pa.Codec("zstd", compression_level=3)
 
 
@@ -249,14 +251,9 @@ def _own_codecs(x: np.ndarray, lags: list[int], block: int) -> Iterator[Codec]:
 def _blocks_codec(x: np.ndarray, candidates: list[Codec], block: int) -> Codec:
     """Each block of ``block`` rows under its own smallest own-row codec: a seasonal pattern
     may repeat exactly for some days (lag) and change smoothly on others (differences)."""
-    words = [_own_words(x, c) for c in candidates]
-    chosen: list[Codec] = []
-    for start in range(0, len(x), block):
-        sizes = [
-            _compressed(_grouped(w[start : start + block], _shifted(c, start)))
-            for w, c in zip(words, candidates, strict=True)
-        ]
-        chosen.append(candidates[int(np.argmin(sizes))])
+    # A block's cost under each codec, estimated cheaply: the significant bits of its words.
+    costs = np.stack([_block_bits(_own_words(x, c), block) for c in candidates])
+    chosen = [candidates[i] for i in np.argmin(costs, axis=0)]
     runs: list[tuple[Codec, int]] = []
     for codec in chosen:
         if runs and runs[-1][0] == codec:
@@ -275,6 +272,7 @@ def _alternate_codec(x: np.ndarray, parity: int) -> Codec | None:
     that blend (well conditioned), on the rows they fit best; the other rows are stored as
     second differences along their own parity."""
     rows = np.arange(4 + (parity % 2), len(x), 2)
+    rows = rows[:: max(1, len(rows) // FIT_ROWS)]
     if len(rows) < 16:
         return None
     y0, y1, y2, y3 = x[rows], x[rows - 1], x[rows - 2], x[rows - 3]
@@ -287,7 +285,8 @@ def _alternate_codec(x: np.ndarray, parity: int) -> Codec | None:
     used = ok
     for _ in range(3):  # refit without the rows the blend does not describe
         (a, b), *_ = np.linalg.lstsq(basis[used], target[used], rcond=None)
-        misses = np.abs(basis @ np.array([a, b]) - target)
+        with np.errstate(invalid="ignore", over="ignore"):
+            misses = np.abs(basis @ np.array([a, b]) - target)
         used = ok & (misses <= 5 * np.median(misses[ok]))
         if used.sum() < 16:
             return None
@@ -398,24 +397,24 @@ def _formula_codecs(arrays: dict[str, np.ndarray], name: str, allowed: list[str]
 def _scale_of(x: np.ndarray, a: np.ndarray, b: np.ndarray) -> float | None:
     """The constant ``k`` of ``x = a + k * b`` that matches most rows bit for bit.
 
-    ``k`` may be any double (a calibrated quantile), so the candidates are the most frequent
-    ratios ``(x - a) / b`` and their neighbouring doubles, and the median rounded to 12
-    significant digits (a round constant seen through rounding noise)."""
+    ``k`` may be any double (a calibrated quantile), and the ratios ``(x - a) / b`` only
+    come within a few units in its last place of it: the candidates are the doubles around
+    their median, and the median rounded to 12 significant digits (a round constant)."""
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         ratios = (x - a) / b
     ratios = ratios[np.isfinite(ratios) & (b != 0)]
     if not len(ratios):
         return None
-    values, counts = np.unique(ratios, return_counts=True)
-    frequent = values[np.argsort(-counts, kind="stable")[:SCALE_CANDIDATES]]
-    candidates = {float(f"{float(np.median(ratios)):.12g}")}
-    for k in frequent:
-        candidates.update(float(v) for v in (k, np.nextafter(k, -np.inf), np.nextafter(k, np.inf)))
-    candidates -= {0.0, 1.0, -1.0}
-    if not candidates:
+    median = float(np.median(ratios))
+    if median == 0.0:
         return None
+    nearby = np.array([median]).view(np.int64) + np.arange(-SCALE_ULPS, SCALE_ULPS + 1)
+    candidates = np.append(nearby.view(np.float64), float(f"{median:.12g}"))
+    a, b, x = a[:SCALE_ROWS], b[:SCALE_ROWS], x[:SCALE_ROWS]
     with np.errstate(invalid="ignore", over="ignore"):
-        return max(sorted(candidates), key=lambda k: int(np.sum(a + k * b == x)))
+        matches = (a[None, :] + candidates[:, None] * b[None, :] == x[None, :]).sum(axis=1)
+    k = float(candidates[int(np.argmax(matches))])
+    return k if k not in (0.0, 1.0, -1.0) else None
 
 
 def _predict_formula(codec: Codec, a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -472,6 +471,14 @@ def _run_bounds(codec: Codec, n: int) -> Iterator[tuple[Codec, int, int]]:
         end = min(n, start + count * block)
         yield part, start, end
         start = end
+
+
+def _block_bits(words: np.ndarray, block: int) -> np.ndarray:
+    """Significant bits per block of ``block`` rows (the words' byte layout aside)."""
+    bits = np.log2(words.astype(np.float64) + 1.0)
+    padded = np.zeros(-(-len(bits) // block) * block)
+    padded[: len(bits)] = bits
+    return padded.reshape(-1, block).sum(axis=1)
 
 
 def _shifted(codec: Codec, start: int) -> Codec:
