@@ -410,10 +410,12 @@ def _scale_of(x: np.ndarray, a: np.ndarray, b: np.ndarray) -> float | None:
         return None
     nearby = np.array([median]).view(np.int64) + np.arange(-SCALE_ULPS, SCALE_ULPS + 1)
     candidates = np.append(nearby.view(np.float64), float(f"{median:.12g}"))
-    a, b, x = a[:SCALE_ROWS], b[:SCALE_ROWS], x[:SCALE_ROWS]
-    with np.errstate(invalid="ignore", over="ignore"):
-        matches = (a[None, :] + candidates[:, None] * b[None, :] == x[None, :]).sum(axis=1)
-    k = float(candidates[int(np.argmax(matches))])
+    for rows in (SCALE_ROWS, len(x)):  # a few rows first, then the ties on all of them
+        with np.errstate(invalid="ignore", over="ignore"):
+            guesses = a[None, :rows] + candidates[:, None] * b[None, :rows]
+        matches = (guesses == x[None, :rows]).sum(axis=1)
+        candidates = candidates[matches == matches.max()]
+    k = float(candidates[0])
     return k if k not in (0.0, 1.0, -1.0) else None
 
 
