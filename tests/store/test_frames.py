@@ -184,3 +184,28 @@ def test_blocks_and_alternate_rows_restore_every_bit():
         back = frames._undo_own(frames._grouped(words, codec, undo=True), codec)
         assert back.tobytes() == x.tobytes(), codec.kind
     assert_identical(decode_frame(encode_frame(frame)), frame)
+
+
+def test_a_frame_whose_codecs_would_not_restore_it_is_stored_plain(band_frame, monkeypatch):
+    """The safety net: the compact bytes are checked before they are kept."""
+    real = frames._decode_column
+
+    def off_by_one_bit(frame, name, codec):
+        out = np.array(real(frame, name, codec), dtype=np.float64)
+        if name == "residual":
+            out.view(np.uint64)[7] ^= np.uint64(1)
+        return out
+
+    monkeypatch.setattr(frames, "_decode_column", off_by_one_bit)
+    data = encode_frame(band_frame)
+    monkeypatch.undo()
+    assert frames.CODECS_KEY not in (pq_metadata(data) or {})
+    assert_identical(decode_frame(data), band_frame)
+
+
+def pq_metadata(data: bytes) -> dict | None:
+    import io
+
+    import pyarrow.parquet as pq
+
+    return pq.read_schema(io.BytesIO(data)).metadata

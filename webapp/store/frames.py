@@ -89,11 +89,29 @@ class Codec:
 
 def encode_frame(frame: pd.DataFrame, *, compact: bool = True) -> bytes:
     """``frame`` as Parquet bytes (zstd), float columns stored as prediction errors;
-    ``compact=False`` stores them as they are (the format before the codecs)."""
+    ``compact=False`` stores them as they are (the format before the codecs).
+
+    The compact bytes are read back before they are returned: should a column not come
+    back bit for bit, the frame is stored plain instead."""
     names = list(frame.columns)
     if not all(isinstance(n, str) for n in names) or len(set(names)) != len(names):
         raise ValueError(f"a stored frame needs unique text column names, got {names!r}")
     codecs = choose_codecs(frame) if compact else {}
+    data = _write(frame, codecs)
+    if codecs and not _restores(decode_frame(data), frame, codecs):
+        return _write(frame, {})
+    return data
+
+
+def _restores(back: pd.DataFrame, frame: pd.DataFrame, codecs: dict[str, Codec]) -> bool:
+    return all(
+        np.ascontiguousarray(back[name].to_numpy()).tobytes()
+        == np.ascontiguousarray(frame[name].to_numpy()).tobytes()
+        for name in codecs
+    )
+
+
+def _write(frame: pd.DataFrame, codecs: dict[str, Codec]) -> bytes:
     work = frame.copy(deep=False)
     encodings: dict[str, str] = {}
     for name, codec in codecs.items():
