@@ -3,23 +3,33 @@
 A saved explanation is a frame of one row per grid step (80,641 rows for 8 weeks of
 1-minute data) and a dozen columns. Plain Parquet with zstd keeps about 6 bytes of each
 float: the band columns are full-precision doubles. Most of them are not new information,
-though: ``expected`` is ``trend + seasonal``, ``lower`` is ``expected - k * band_scale``,
-``residual`` is ``value - expected``, the trend is piecewise linear and imported values are
-short decimals. So each float64 column is stored as its *prediction error*: the XOR of its
-bits with the bits of a prediction made from columns decoded before it, or from its own
-earlier rows. Where the prediction is exact the stored word is zero, which compresses to
-almost nothing; where it is not, the XOR still restores every bit (NaN payloads, signed
-zeros and infinities included). Correctness never depends on a prediction being right,
-only the size does. Values that are all short decimals (``round(x, d)`` for a ``d`` up to
-6) are stored as integers instead.
+though: ``expected`` is ``trend + seasonal``, ``seasonal`` the sum of the per-period
+columns, the band's sides ``expected + k * band_scale`` for a calibrated constant ``k``,
+``residual`` is ``value - expected``, a seasonal pattern repeats from day to day, and
+imported values are short decimals. So each float64 column is stored as its *prediction
+error*: the XOR of its bits (or the difference of its bit patterns taken as integers) with a
+prediction made from columns decoded before it, or from its own earlier rows. Where the
+prediction is exact the stored word is zero, which compresses to almost nothing; where it is
+not, the word still restores every bit (NaN payloads, signed zeros and infinities
+included). Correctness never depends on a prediction being right, only the size does; and
+the bytes are read back before they are kept (plain Parquet if a column would not return).
+Nothing here knows how the band is computed: each frame's relations are found in its data.
 
 The predictors, chosen per column by trying them (the smallest compressed size wins):
 
-* ``previous``: the row before; ``linear``: the line through the two rows before;
+* ``previous``, ``linear``, ``cubic``: the row before, and first to third differences;
   ``lag``: the row one day or one week before, on a regular time grid.
+* ``alternate``: every other row from a blend of the three rows before it, with weights
+  fitted on the frame (a pattern interpolated between bin centres, two rows per bin, has
+  half its rows fixed by their neighbours); the other rows by second differences. Its two
+  parities are stored apart, and its blended rows decode one by one.
+* ``blocks``: each block of whole days under its own one of the above (a seasonal pattern
+  that is the same for some days and moves on others).
 * ``sum`` / ``difference`` of two other columns, and ``scaled``: ``a + k * b`` for a
-  constant ``k`` (how the band's edges are built).
-* ``decimal``: ``x = n / 10**d`` with ``n`` an integer; missing values stay missing.
+  constant ``k``, searched among the doubles next to the median of ``(x - a) / b``.
+* ``decimal``: ``x = n / 10**d`` with ``n`` an integer, missing values staying missing;
+  stored as ``n`` itself, or as its distance from another column rounded to ``d``
+  decimals (values near their expected value).
 
 Every other column (booleans, integers, text) and the index go through pyarrow's pandas
 conversion as they are; the index frequency is kept in the schema metadata. The bytes are a
