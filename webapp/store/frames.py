@@ -333,7 +333,7 @@ def _alternate_guess(codec: Codec, y1: np.ndarray, y2: np.ndarray, y3: np.ndarra
 def _alternate_words(x: np.ndarray, codec: Codec) -> np.ndarray:
     bits = x.view(np.int64)
     steps = _diff(_diff(bits, 2), 2)  # the other rows: along their own parity
-    words = ((steps << 1) ^ (steps >> 63)).view(np.uint64)
+    words = _zigzag(steps)
     rows = np.arange(int(codec.number), len(x), 2)
     rows = rows[rows >= 3]
     guess = _alternate_guess(codec, x[rows - 1], x[rows - 2], x[rows - 3])
@@ -350,7 +350,7 @@ _WORD = struct.Struct("<Q")
 def _undo_alternate(words: np.ndarray, codec: Codec) -> np.ndarray:
     """Row by row for the blended rows: each needs the one two rows before it."""
     parity = int(codec.number)
-    steps = ((words >> np.uint64(1)) ^ (np.uint64(0) - (words & np.uint64(1)))).view(np.int64)
+    steps = _unzigzag(words)
     steps[parity::2] = 0
     x = _cumsum(_cumsum(steps, 2), 2).view(np.float64)
     values = x.tolist()
@@ -475,7 +475,7 @@ def _own_words(x: np.ndarray, codec: Codec) -> np.ndarray:
         steps = bits
         for _ in range(codec.reach):
             steps = _diff(steps, 1)
-    return ((steps << 1) ^ (steps >> 63)).view(np.uint64)
+    return _zigzag(steps)
 
 
 def _undo_own(words: np.ndarray, codec: Codec) -> np.ndarray:
@@ -485,7 +485,7 @@ def _undo_own(words: np.ndarray, codec: Codec) -> np.ndarray:
         return _undo_blocks(words, codec)
     if codec.kind == "alternate":
         return _undo_alternate(words, codec)
-    steps = ((words >> np.uint64(1)) ^ (np.uint64(0) - (words & np.uint64(1)))).view(np.int64)
+    steps = _unzigzag(words)
     if codec.kind == "lag":
         bits = _cumsum(steps, int(codec.number))
     else:
@@ -560,6 +560,15 @@ def _undo_blocks(words: np.ndarray, codec: Codec) -> np.ndarray:
     return x
 
 
+def _zigzag(steps: np.ndarray) -> np.ndarray:
+    """Signed steps as unsigned words, small in magnitude either way: 0, -1, 1, -2 ..."""
+    return ((steps << 1) ^ (steps >> 63)).view(np.uint64)
+
+
+def _unzigzag(words: np.ndarray) -> np.ndarray:
+    return ((words >> np.uint64(1)) ^ (np.uint64(0) - (words & np.uint64(1)))).view(np.int64)
+
+
 def _diff(a: np.ndarray, lag: int) -> np.ndarray:
     out = a.copy()
     with np.errstate(over="ignore"):
@@ -601,7 +610,7 @@ def _decimal_words(arrays: dict[str, np.ndarray], name: str, codec: Codec) -> np
     steps = _decimal_integers(arrays[name], codec) - _reference_integers(
         arrays[codec.refs[0]], codec
     )
-    return ((steps << 1) ^ (steps >> 63)).view(np.uint64)
+    return _zigzag(steps)
 
 
 def _encode_column(
@@ -627,9 +636,7 @@ def _decode_column(frame: pd.DataFrame, name: str, codec: Codec) -> np.ndarray:
         missing = stored.isna().to_numpy()
         if codec.refs:
             words = stored.to_numpy(dtype=np.int64, na_value=0).view(np.uint64)
-            steps = ((words >> np.uint64(1)) ^ (np.uint64(0) - (words & np.uint64(1)))).view(
-                np.int64
-            )
+            steps = _unzigzag(words)
             ref = np.ascontiguousarray(frame[codec.refs[0]].to_numpy(), dtype=np.float64)
             n = (steps + _reference_integers(ref, codec)).astype(np.float64)
         else:
