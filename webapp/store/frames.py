@@ -3,23 +3,33 @@
 A saved explanation is a frame of one row per grid step (80,641 rows for 8 weeks of
 1-minute data) and a dozen columns. Plain Parquet with zstd keeps about 6 bytes of each
 float: the band columns are full-precision doubles. Most of them are not new information,
-though: ``expected`` is ``trend + seasonal``, ``lower`` is ``expected - k * band_scale``,
-``residual`` is ``value - expected``, the trend is piecewise linear and imported values are
-short decimals. So each float64 column is stored as its *prediction error*: the XOR of its
-bits with the bits of a prediction made from columns decoded before it, or from its own
-earlier rows. Where the prediction is exact the stored word is zero, which compresses to
-almost nothing; where it is not, the XOR still restores every bit (NaN payloads, signed
-zeros and infinities included). Correctness never depends on a prediction being right,
-only the size does. Values that are all short decimals (``round(x, d)`` for a ``d`` up to
-6) are stored as integers instead.
+though: ``expected`` is ``trend + seasonal``, ``seasonal`` the sum of the per-period
+columns, the band's sides ``expected + k * band_scale`` for a calibrated constant ``k``,
+``residual`` is ``value - expected``, a seasonal pattern repeats from day to day, and
+imported values are short decimals. So each float64 column is stored as its *prediction
+error*: the XOR of its bits (or the difference of its bit patterns taken as integers) with a
+prediction made from columns decoded before it, or from its own earlier rows. Where the
+prediction is exact the stored word is zero, which compresses to almost nothing; where it is
+not, the word still restores every bit (NaN payloads, signed zeros and infinities
+included). Correctness never depends on a prediction being right, only the size does; and
+the bytes are read back before they are kept (plain Parquet if a column would not return).
+Nothing here knows how the band is computed: each frame's relations are found in its data.
 
 The predictors, chosen per column by trying them (the smallest compressed size wins):
 
-* ``previous``: the row before; ``linear``: the line through the two rows before;
+* ``previous``, ``linear``, ``cubic``: the row before, and first to third differences;
   ``lag``: the row one day or one week before, on a regular time grid.
+* ``alternate``: every other row from a blend of the three rows before it, with weights
+  fitted on the frame (a pattern interpolated between bin centres, two rows per bin, has
+  half its rows fixed by their neighbours); the other rows by second differences. Its two
+  parities are stored apart, and its blended rows decode one by one.
+* ``blocks``: each block of whole days under its own one of the above (a seasonal pattern
+  that is the same for some days and moves on others).
 * ``sum`` / ``difference`` of two other columns, and ``scaled``: ``a + k * b`` for a
-  constant ``k`` (how the band's edges are built).
-* ``decimal``: ``x = n / 10**d`` with ``n`` an integer; missing values stay missing.
+  constant ``k``, searched among the doubles next to the median of ``(x - a) / b``.
+* ``decimal``: ``x = n / 10**d`` with ``n`` an integer, missing values staying missing;
+  stored as ``n`` itself, or as its distance from another column rounded to ``d``
+  decimals (values near their expected value).
 
 Every other column (booleans, integers, text) and the index go through pyarrow's pandas
 conversion as they are; the index frequency is kept in the schema metadata. The bytes are a
@@ -31,8 +41,10 @@ from __future__ import annotations
 
 import io
 import json
+import math
+import struct
 from collections.abc import Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import pandas as pd
@@ -44,7 +56,12 @@ CODECS_KEY = b"whyfired.codecs"
 MAX_DECIMALS = 6
 EXACT_SHARE = 0.5  # a formula is tried when at least this share of a sample is exact
 SAMPLE_ROWS = 2000
-SIZE_ROWS = 16384  # rows compressed to compare codecs
+SIZE_ROWS = 32768  # rows compressed to compare codecs
+SIZE_STRETCHES = 8
+SCALE_ULPS = 32  # how far from the median ratio a scale constant is looked for
+SCALE_ROWS = 256  # rows the candidates are tried on
+MIN_BLOCK_ROWS = 1024
+FIT_ROWS = 8192  # rows the alternate blend is fitted on
 _ZSTD = pa.Codec("zstd", compression_level=3)
 
 
@@ -52,30 +69,65 @@ _ZSTD = pa.Codec("zstd", compression_level=3)
 class Codec:
     """How one float column is stored: ``kind`` with its column references and constant."""
 
-    kind: str  # raw | previous | linear | lag | sum | difference | scaled | decimal
+    kind: str  # raw | previous | linear | cubic | lag | sum | difference | scaled | decimal
+    #            | blocks
     refs: tuple[str, ...] = ()
-    number: float = 0.0  # the lag in rows, the scale k, or the number of decimals
+    number: float = 0.0  # the lag in rows, the scale k, the decimals, or the block rows
+    runs: tuple[tuple[Codec, int], ...] = ()  # blocks: (own-row codec, how many blocks)
+    coefs: tuple[float, ...] = ()  # alternate: the weights of the three rows before
 
     def as_json(self) -> dict:
-        return {"kind": self.kind, "refs": list(self.refs), "number": self.number}
+        data = {"kind": self.kind, "refs": list(self.refs), "number": self.number}
+        if self.runs:
+            data["runs"] = [c.as_json() | {"blocks": count} for c, count in self.runs]
+        if self.coefs:
+            data["coefs"] = list(self.coefs)
+        return data
 
     @classmethod
     def from_json(cls, data: dict) -> Codec:
-        return cls(str(data["kind"]), tuple(data["refs"]), float(data["number"]))
+        runs = tuple((cls.from_json(part), int(part["blocks"])) for part in data.get("runs", ()))
+        coefs = tuple(float(c) for c in data.get("coefs", ()))
+        return cls(str(data["kind"]), tuple(data["refs"]), float(data["number"]), runs, coefs)
+
+    @property
+    def reach(self) -> int:
+        """How many rows back an own-row codec reads."""
+        orders = {"raw": 0, "previous": 1, "linear": 2, "cubic": 3, "alternate": 4}
+        return int(self.number) if self.kind == "lag" else orders[self.kind]
 
 
 def encode_frame(frame: pd.DataFrame, *, compact: bool = True) -> bytes:
     """``frame`` as Parquet bytes (zstd), float columns stored as prediction errors;
-    ``compact=False`` stores them as they are (the format before the codecs)."""
+    ``compact=False`` stores them as they are (the format before the codecs).
+
+    The compact bytes are read back before they are returned: should a column not come
+    back bit for bit, the frame is stored plain instead."""
     names = list(frame.columns)
     if not all(isinstance(n, str) for n in names) or len(set(names)) != len(names):
         raise ValueError(f"a stored frame needs unique text column names, got {names!r}")
     codecs = choose_codecs(frame) if compact else {}
+    data = _write(frame, codecs)
+    if codecs and not _restores(decode_frame(data), frame, codecs):
+        return _write(frame, {})
+    return data
+
+
+def _restores(back: pd.DataFrame, frame: pd.DataFrame, codecs: dict[str, Codec]) -> bool:
+    return all(
+        np.ascontiguousarray(back[name].to_numpy()).tobytes()
+        == np.ascontiguousarray(frame[name].to_numpy()).tobytes()
+        for name in codecs
+    )
+
+
+def _write(frame: pd.DataFrame, codecs: dict[str, Codec]) -> bytes:
     work = frame.copy(deep=False)
     encodings: dict[str, str] = {}
     for name, codec in codecs.items():
         work[name] = _encode_column(frame, name, codec)
-        encodings[name] = "DELTA_BINARY_PACKED" if codec.kind == "decimal" else "BYTE_STREAM_SPLIT"
+        delta = codec.kind == "decimal" and not codec.refs
+        encodings[name] = "DELTA_BINARY_PACKED" if delta else "BYTE_STREAM_SPLIT"
     table = pa.Table.from_pandas(work, preserve_index=True)
     for column in table.schema.pandas_metadata.get("index_columns", []):
         kind = table.schema.field(column).type if isinstance(column, str) else None
@@ -124,9 +176,10 @@ def choose_codecs(frame: pd.DataFrame) -> dict[str, Codec]:
     floats = [c for c in frame.columns if frame[c].dtype == np.float64]
     arrays = {c: np.ascontiguousarray(frame[c].to_numpy()) for c in floats}
     lags = _grid_lags(frame.index)
+    block = _block_rows(lags)
     own = {
         name: min(
-            ((_size(arrays, name, c), c) for c in _own_codecs(arrays[name], lags)),
+            ((_size(arrays, name, c), c) for c in _own_codecs(arrays[name], lags, block)),
             key=lambda t: t[0],
         )
         for name in floats
@@ -203,15 +256,117 @@ def _grid_lags(index: pd.Index) -> list[int]:
     return [lag for lag in (per_day, 7 * per_day) if 0 < lag < len(index)]
 
 
-def _own_codecs(x: np.ndarray, lags: list[int]) -> Iterator[Codec]:
-    yield Codec("raw")
-    yield Codec("previous")
-    yield Codec("linear")
-    for lag in lags:
-        yield Codec("lag", number=float(lag))
+def _block_rows(lags: list[int]) -> int:
+    """Rows per block of a ``blocks`` codec: whole days on a time grid (a day's seasonal
+    pattern changes as a whole), at least MIN_BLOCK_ROWS."""
+    if not lags:
+        return MIN_BLOCK_ROWS
+    return lags[0] * -(-MIN_BLOCK_ROWS // lags[0])
+
+
+def _own_codecs(x: np.ndarray, lags: list[int], block: int) -> Iterator[Codec]:
+    rows = [Codec("raw"), Codec("previous"), Codec("linear"), Codec("cubic")]
+    rows += [Codec("lag", number=float(lag)) for lag in lags]
+    rows += [c for c in (_alternate_codec(x, parity) for parity in (0, 1)) if c is not None]
+    yield from rows
+    if len(x) > block:
+        yield _blocks_codec(x, rows, block)
     decimals = _decimals(x)
     if decimals is not None:
         yield Codec("decimal", number=float(decimals))
+
+
+def _blocks_codec(x: np.ndarray, candidates: list[Codec], block: int) -> Codec:
+    """Each block of ``block`` rows under its own smallest own-row codec: a seasonal pattern
+    may repeat exactly for some days (lag) and change smoothly on others (differences)."""
+    # A block's cost under each codec, estimated cheaply: the significant bits of its words.
+    costs = np.stack([_block_bits(_own_words(x, c), block) for c in candidates])
+    chosen = [candidates[i] for i in np.argmin(costs, axis=0)]
+    runs: list[tuple[Codec, int]] = []
+    for codec in chosen:
+        if runs and runs[-1][0] == codec:
+            runs[-1] = (codec, runs[-1][1] + 1)
+        else:
+            runs.append((codec, 1))
+    return Codec("blocks", number=float(block), runs=tuple(runs))
+
+
+def _alternate_codec(x: np.ndarray, parity: int) -> Codec | None:
+    """Rows of one parity as a fixed blend of the three rows before them, fitted here.
+
+    A pattern read by linear interpolation between bin centres, two rows per bin, has
+    every other row (nearly) determined by its three predecessors: for fractions of exactly
+    1/4 and 3/4, ``3 y[i-1] - 3 y[i-2] + y[i-3]``. The weights are fitted as corrections to
+    that blend (well conditioned), on the rows they fit best; the other rows are stored as
+    second differences along their own parity."""
+    rows = np.arange(4 + (parity % 2), len(x), 2)
+    rows = rows[:: max(1, len(rows) // FIT_ROWS)]
+    if len(rows) < 16:
+        return None
+    y0, y1, y2, y3 = x[rows], x[rows - 1], x[rows - 2], x[rows - 3]
+    with np.errstate(invalid="ignore", over="ignore"):
+        target = y0 - (3 * y1 - 3 * y2 + y3)
+        basis = np.stack([y1 - y2, y2 - y3], axis=1)
+    ok = np.isfinite(target) & np.isfinite(basis).all(axis=1)
+    if ok.sum() < 16:
+        return None
+    used = ok
+    for _ in range(3):  # refit without the rows the blend does not describe
+        (a, b), *_ = np.linalg.lstsq(basis[used], target[used], rcond=None)
+        with np.errstate(invalid="ignore", over="ignore"):
+            misses = np.abs(basis @ np.array([a, b]) - target)
+        used = ok & (misses <= 5 * np.median(misses[ok]))
+        if used.sum() < 16:
+            return None
+    coefs = (3.0 + float(a), -3.0 - float(a) + float(b), 1.0 - float(b))
+    return Codec("alternate", number=float(parity % 2), coefs=coefs)
+
+
+def _alternate_guess(codec: Codec, y1: np.ndarray, y2: np.ndarray, y3: np.ndarray):
+    """The blend, 0 where it is not finite (so no NaN payload ever matters)."""
+    alpha, beta, gamma = codec.coefs
+    with np.errstate(invalid="ignore", over="ignore"):
+        guess = alpha * y1 + beta * y2 + gamma * y3
+    return np.where(np.isfinite(guess), guess, 0.0)
+
+
+def _alternate_words(x: np.ndarray, codec: Codec) -> np.ndarray:
+    bits = x.view(np.int64)
+    steps = _diff(_diff(bits, 2), 2)  # the other rows: along their own parity
+    words = _zigzag(steps)
+    rows = np.arange(int(codec.number), len(x), 2)
+    rows = rows[rows >= 3]
+    guess = _alternate_guess(codec, x[rows - 1], x[rows - 2], x[rows - 3])
+    words[rows] = x[rows].view(np.uint64) ^ guess.view(np.uint64)
+    first = np.arange(int(codec.number), min(3, len(x)), 2)
+    words[first] = x[first].view(np.uint64)
+    return words
+
+
+_DOUBLE = struct.Struct("<d")
+_WORD = struct.Struct("<Q")
+
+
+def _undo_alternate(words: np.ndarray, codec: Codec) -> np.ndarray:
+    """Row by row for the blended rows: each needs the one two rows before it."""
+    parity = int(codec.number)
+    steps = _unzigzag(words)
+    steps[parity::2] = 0
+    x = _cumsum(_cumsum(steps, 2), 2).view(np.float64)
+    values = x.tolist()
+    stored = words.tolist()
+    alpha, beta, gamma = codec.coefs
+    for i in range(parity, len(values), 2):
+        if i < 3:
+            values[i] = _DOUBLE.unpack(_WORD.pack(stored[i]))[0]
+            continue
+        guess = alpha * values[i - 1] + beta * values[i - 2] + gamma * values[i - 3]
+        if not math.isfinite(guess):
+            guess = 0.0
+        word = stored[i] ^ _WORD.unpack(_DOUBLE.pack(guess))[0]
+        values[i] = _DOUBLE.unpack(_WORD.pack(word))[0]
+    # Floats from a list keep their bits (NaN payloads included) on the way back.
+    return np.array(values, dtype=np.float64)
 
 
 def _decimals(x: np.ndarray) -> int | None:
@@ -246,6 +401,9 @@ def _formula_codecs(arrays: dict[str, np.ndarray], name: str, allowed: list[str]
         return []
     xs = x[sample]
     found: list[Codec] = []
+    decimals = _decimals(x)
+    if decimals is not None:  # values with short decimals, stored near another column
+        found += [Codec("decimal", (ref,), float(decimals)) for ref in allowed if ref != name]
     for i, a in enumerate(allowed):
         av = arrays[a][sample]
         for b in allowed:
@@ -265,13 +423,27 @@ def _formula_codecs(arrays: dict[str, np.ndarray], name: str, allowed: list[str]
 
 
 def _scale_of(x: np.ndarray, a: np.ndarray, b: np.ndarray) -> float | None:
-    """The constant ``k`` of ``x = a + k * b``, rounded to 12 significant digits."""
+    """The constant ``k`` of ``x = a + k * b`` that matches most rows bit for bit.
+
+    ``k`` may be any double (a calibrated quantile), and the ratios ``(x - a) / b`` only
+    come within a few units in its last place of it: the candidates are the doubles around
+    their median, and the median rounded to 12 significant digits (a round constant)."""
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         ratios = (x - a) / b
     ratios = ratios[np.isfinite(ratios) & (b != 0)]
     if not len(ratios):
         return None
-    k = float(f"{float(np.median(ratios)):.12g}")
+    median = float(np.median(ratios))
+    if median == 0.0:
+        return None
+    nearby = np.array([median]).view(np.int64) + np.arange(-SCALE_ULPS, SCALE_ULPS + 1)
+    candidates = np.append(nearby.view(np.float64), float(f"{median:.12g}"))
+    for rows in (SCALE_ROWS, len(x)):  # a few rows first, then the ties on all of them
+        with np.errstate(invalid="ignore", over="ignore"):
+            guesses = a[None, :rows] + candidates[:, None] * b[None, :rows]
+        matches = (guesses == x[None, :rows]).sum(axis=1)
+        candidates = candidates[matches == matches.max()]
+    k = float(candidates[0])
     return k if k not in (0.0, 1.0, -1.0) else None
 
 
@@ -293,26 +465,108 @@ def _own_words(x: np.ndarray, codec: Codec) -> np.ndarray:
     bits = x.view(np.int64)
     if codec.kind == "raw":
         return bits.view(np.uint64).copy()
+    if codec.kind == "blocks":
+        return _blocks_words(x, codec)
+    if codec.kind == "alternate":
+        return _alternate_words(x, codec)
     if codec.kind == "lag":
         steps = _diff(bits, int(codec.number))
     else:
-        steps = _diff(bits, 1)
-        if codec.kind == "linear":
+        steps = bits
+        for _ in range(codec.reach):
             steps = _diff(steps, 1)
-    return ((steps << 1) ^ (steps >> 63)).view(np.uint64)
+    return _zigzag(steps)
 
 
 def _undo_own(words: np.ndarray, codec: Codec) -> np.ndarray:
     if codec.kind == "raw":
         return words.view(np.float64).copy()
-    steps = ((words >> np.uint64(1)) ^ (np.uint64(0) - (words & np.uint64(1)))).view(np.int64)
+    if codec.kind == "blocks":
+        return _undo_blocks(words, codec)
+    if codec.kind == "alternate":
+        return _undo_alternate(words, codec)
+    steps = _unzigzag(words)
     if codec.kind == "lag":
         bits = _cumsum(steps, int(codec.number))
     else:
-        bits = _cumsum(steps, 1)
-        if codec.kind == "linear":
+        bits = steps
+        for _ in range(codec.reach):
             bits = _cumsum(bits, 1)
     return bits.view(np.float64)
+
+
+def _run_bounds(codec: Codec, n: int) -> Iterator[tuple[Codec, int, int]]:
+    start, block = 0, int(codec.number)
+    for part, count in codec.runs:
+        end = min(n, start + count * block)
+        yield part, start, end
+        start = end
+
+
+def _block_bits(words: np.ndarray, block: int) -> np.ndarray:
+    """Significant bits per block of ``block`` rows (the words' byte layout aside)."""
+    bits = np.log2(words.astype(np.float64) + 1.0)
+    padded = np.zeros(-(-len(bits) // block) * block)
+    padded[: len(bits)] = bits
+    return padded.reshape(-1, block).sum(axis=1)
+
+
+def _shifted(codec: Codec, start: int) -> Codec:
+    """An ``alternate`` codec's parity for rows counted from ``start``."""
+    if codec.kind != "alternate":
+        return codec
+    return replace(codec, number=float((int(codec.number) - start) % 2))
+
+
+def _grouped(words: np.ndarray, codec: Codec, *, undo: bool = False) -> np.ndarray:
+    """How own-row words are laid out in the file: an ``alternate`` stretch keeps its two
+    parities apart (small blend errors together, second differences together), which
+    compresses far better than interleaved; ``undo`` restores the row order."""
+    if codec.kind == "alternate":
+        parts = [(codec, 0, len(words))]
+    elif codec.kind == "blocks":
+        parts = [p for p in _run_bounds(codec, len(words)) if p[0].kind == "alternate"]
+    else:
+        return words
+    out = words.copy()
+    for part, start, end in parts:
+        blended = (int(part.number) - start) % 2
+        segment, order = words[start:end], np.arange(end - start)
+        order = np.concatenate([order[1 - blended :: 2], order[blended::2]])
+        if undo:
+            out[start + order] = segment
+        else:
+            out[start:end] = segment[order]
+    return out
+
+
+def _blocks_words(x: np.ndarray, codec: Codec) -> np.ndarray:
+    words = np.empty(len(x), dtype=np.uint64)
+    for part, start, end in _run_bounds(codec, len(x)):
+        words[start:end] = _own_words(x, part)[start:end]
+    return words
+
+
+def _undo_blocks(words: np.ndarray, codec: Codec) -> np.ndarray:
+    """Decodes run after run: each run's codec restarts from the decoded rows before it
+    (encoding the rows it reads back and the run's stored words, then undoing both)."""
+    x = np.empty(len(words), dtype=np.float64)
+    for part, start, end in _run_bounds(codec, len(words)):
+        before = min(start, part.reach)
+        part = _shifted(part, start - before)  # parity counted from the local first row
+        local = _own_words(np.concatenate([x[start - before : start], np.zeros(end - start)]), part)
+        local[before:] = words[start:end]
+        x[start:end] = _undo_own(local, part)[before:]
+    return x
+
+
+def _zigzag(steps: np.ndarray) -> np.ndarray:
+    """Signed steps as unsigned words, small in magnitude either way: 0, -1, 1, -2 ..."""
+    return ((steps << 1) ^ (steps >> 63)).view(np.uint64)
+
+
+def _unzigzag(words: np.ndarray) -> np.ndarray:
+    return ((words >> np.uint64(1)) ^ (np.uint64(0) - (words & np.uint64(1)))).view(np.int64)
 
 
 def _diff(a: np.ndarray, lag: int) -> np.ndarray:
@@ -342,44 +596,80 @@ def _decimal_integers(x: np.ndarray, codec: Codec) -> np.ndarray:
     return np.rint(np.nan_to_num(x) * 10.0**codec.number).astype(np.int64)
 
 
+def _reference_integers(ref: np.ndarray, codec: Codec) -> np.ndarray:
+    """The reference column in the same decimals, rounded (0 where it is not finite or too
+    large): decimals stored as their distance from it are small numbers."""
+    scaled = ref * 10.0**codec.number
+    usable = np.isfinite(scaled) & (np.abs(scaled) < 2.0**52)
+    return np.rint(np.where(usable, scaled, 0.0)).astype(np.int64)
+
+
+def _decimal_words(arrays: dict[str, np.ndarray], name: str, codec: Codec) -> np.ndarray:
+    """A ``decimal`` column near a reference: the zigzagged distance, in its last decimal,
+    from the rounded reference."""
+    steps = _decimal_integers(arrays[name], codec) - _reference_integers(
+        arrays[codec.refs[0]], codec
+    )
+    return _zigzag(steps)
+
+
 def _encode_column(
     frame: pd.DataFrame, name: str, codec: Codec
 ) -> np.ndarray | pd.api.extensions.ExtensionArray:
     x = np.ascontiguousarray(frame[name].to_numpy(), dtype=np.float64)
+    arrays = {r: np.ascontiguousarray(frame[r].to_numpy()) for r in codec.refs}
+    if codec.kind == "decimal" and codec.refs:
+        words = _decimal_words({**arrays, name: x}, name, codec)
+        return pd.arrays.IntegerArray(words.view(np.int64), np.isnan(x))
     if codec.kind == "decimal":
         return pd.arrays.IntegerArray(_decimal_integers(x, codec), np.isnan(x))
     if codec.refs:
-        arrays = {r: np.ascontiguousarray(frame[r].to_numpy()) for r in codec.refs}
         words = _formula_words({**arrays, name: x}, name, codec)
     else:
-        words = _own_words(x, codec)
+        words = _grouped(_own_words(x, codec), codec)
     return words.view(np.int64)
 
 
 def _decode_column(frame: pd.DataFrame, name: str, codec: Codec) -> np.ndarray:
     if codec.kind == "decimal":
         stored = frame[name]
-        n = stored.to_numpy(dtype=np.float64, na_value=np.nan)
-        return np.where(stored.isna().to_numpy(), np.nan, n / 10.0**codec.number)
+        missing = stored.isna().to_numpy()
+        if codec.refs:
+            words = stored.to_numpy(dtype=np.int64, na_value=0).view(np.uint64)
+            steps = _unzigzag(words)
+            ref = np.ascontiguousarray(frame[codec.refs[0]].to_numpy(), dtype=np.float64)
+            n = (steps + _reference_integers(ref, codec)).astype(np.float64)
+        else:
+            n = stored.to_numpy(dtype=np.float64, na_value=np.nan)
+        return np.where(missing, np.nan, n / 10.0**codec.number)
     words = np.ascontiguousarray(frame[name].to_numpy(dtype=np.int64)).view(np.uint64)
     if codec.refs:
         a, b = (np.ascontiguousarray(frame[r].to_numpy(), dtype=np.float64) for r in codec.refs)
         guess = np.ascontiguousarray(_predict_formula(codec, a, b), dtype=np.float64)
         return (words ^ guess.view(np.uint64)).view(np.float64)
-    return _undo_own(words, codec)
+    return _undo_own(_grouped(words, codec, undo=True), codec)
 
 
 def _size(arrays: dict[str, np.ndarray], name: str, codec: Codec) -> int:
     """Compressed size of a stretch of the column under ``codec``: byte planes through
     zstd, about what Parquet's BYTE_STREAM_SPLIT with zstd writes."""
     x = arrays[name]
-    if codec.kind == "decimal":
+    if codec.kind == "decimal" and codec.refs:
+        words = _decimal_words(arrays, name, codec)
+    elif codec.kind == "decimal":
         words = _own_words(_decimal_integers(x, codec).view(np.float64), Codec("previous"))
     elif codec.refs:
         words = _formula_words(arrays, name, codec)
     else:
-        words = _own_words(x, codec)
-    middle = max(0, len(words) // 2 - SIZE_ROWS // 2)
-    stretch = words[middle : middle + SIZE_ROWS]
-    planes = np.ascontiguousarray(stretch.view(np.uint8).reshape(-1, 8).T)
+        words = _grouped(_own_words(x, codec), codec)
+    if len(words) <= SIZE_ROWS:
+        return _compressed(words)
+    # Stretches spread over the column: a codec may suit only some of it (see blocks).
+    stretch = SIZE_ROWS // SIZE_STRETCHES
+    starts = np.linspace(0, len(words) - stretch, SIZE_STRETCHES).astype(np.int64)
+    return sum(_compressed(words[s : s + stretch]) for s in starts)
+
+
+def _compressed(words: np.ndarray) -> int:
+    planes = np.ascontiguousarray(words.view(np.uint8).reshape(-1, 8).T)
     return len(_ZSTD.compress(planes.tobytes(), asbytes=True))
