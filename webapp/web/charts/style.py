@@ -74,3 +74,15 @@ def line(
         "connectgaps": False,
         **kw,
     }
+
+
+#: How a figure is drawn in a browser (static/explain.js keeps the same object): nothing
+#: leaves the machine, so no share-to-a-hosted-service button, no logo link and no
+#: destination address for one, all of which plotly.js offers by default.
+PLOT_CONFIG = {
+    "responsive": True,
+    "displaylogo": False,
+    "showSendToCloud": False,
+    "plotlyServerURL": "",
+    "modeBarButtonsToRemove": ["select2d", "lasso2d", "toImage", "sendChartToCloud"],
+}
