@@ -16,79 +16,54 @@ To replay an alert rule with its report, what-if sweep and drafted verdict:
 `RuleReplay(series, ThresholdRule(above=800, hold="10min"), incidents).fit()`.
 """
 
-from ._aggregate import aggregate
-from ._alert_replay import RuleReplay, RuleReplayResult
-from ._band import expected_band, fit_baseline
-from ._burn import (
-    WORKBOOK_WINDOWS,
-    BurnRateRule,
-    BurnWindow,
-    EventGrid,
-    budget_consumed,
-    budget_spent,
-    burn_rates,
-    detection_time,
-    event_grid,
-    replay_burn,
-)
-from ._burn_sweep import BURN_SWEEP_COLUMNS, burn_sweep, burn_sweep_grid
-from ._explain import ENGINE_VERSION, Explanation, explain
-from ._export_data import to_csv, to_json
-from ._grid import infer_step, regularize
-from ._overlay import past_weeks_overlay
-from ._peers import PeerComparison, PeerGroup, PeerResult, compare_peers
-from ._replay import BandGrid, BandRule, ThresholdRule, band_grid, replay, rule_from_fields
-from ._report import ReplayReport, replay_report
-from ._robust import robust_scale
-from ._screen import ScreenResult, screen
-from ._verdict import VerdictDraft, draft_verdict
-from ._whatif import band_sweep, sweep_grid, whatif_sweep
+# The names below load on first use (PEP 562), so a caller that needs only a light part
+# (times, vocabulary) does not pay for scipy and statsmodels at import.
+from __future__ import annotations
 
-__all__ = [
-    "aggregate",
-    "ENGINE_VERSION",
-    "RuleReplay",
-    "RuleReplayResult",
-    "Explanation",
-    "expected_band",
-    "explain",
-    "fit_baseline",
-    "infer_step",
-    "past_weeks_overlay",
-    "PeerComparison",
-    "PeerGroup",
-    "PeerResult",
-    "compare_peers",
-    "regularize",
-    "robust_scale",
-    "ScreenResult",
-    "screen",
-    "BandGrid",
-    "BandRule",
-    "band_grid",
-    "band_sweep",
-    "ReplayReport",
-    "ThresholdRule",
-    "VerdictDraft",
-    "draft_verdict",
-    "replay",
-    "replay_report",
-    "rule_from_fields",
-    "sweep_grid",
-    "to_csv",
-    "to_json",
-    "whatif_sweep",
-    "BurnRateRule",
-    "BurnWindow",
-    "EventGrid",
-    "WORKBOOK_WINDOWS",
-    "budget_consumed",
-    "budget_spent",
-    "burn_rates",
-    "detection_time",
-    "event_grid",
-    "replay_burn",
-    "BURN_SWEEP_COLUMNS",
-    "burn_sweep",
-    "burn_sweep_grid",
-]
+import importlib
+from typing import Any
+
+_EXPORTS: dict[str, tuple[str, ...]] = {
+    "_aggregate": ("aggregate",),
+    "_alert_replay": ("RuleReplay", "RuleReplayResult"),
+    "_band": ("expected_band", "fit_baseline"),
+    "_burn": (
+        "WORKBOOK_WINDOWS",
+        "BurnRateRule",
+        "BurnWindow",
+        "EventGrid",
+        "budget_consumed",
+        "budget_spent",
+        "burn_rates",
+        "detection_time",
+        "event_grid",
+        "replay_burn",
+    ),
+    "_burn_sweep": ("BURN_SWEEP_COLUMNS", "burn_sweep", "burn_sweep_grid"),
+    "_explain": ("ENGINE_VERSION", "Explanation", "explain"),
+    "_export_data": ("to_csv", "to_json"),
+    "_grid": ("infer_step", "regularize"),
+    "_overlay": ("past_weeks_overlay",),
+    "_peers": ("PeerComparison", "PeerGroup", "PeerResult", "compare_peers"),
+    "_replay": ("BandGrid", "BandRule", "ThresholdRule", "band_grid", "replay", "rule_from_fields"),
+    "_report": ("ReplayReport", "replay_report"),
+    "_robust": ("robust_scale",),
+    "_screen": ("ScreenResult", "screen"),
+    "_verdict": ("VerdictDraft", "draft_verdict"),
+    "_whatif": ("band_sweep", "sweep_grid", "whatif_sweep"),
+}
+_HOME = {name: module for module, names in _EXPORTS.items() for name in names}
+__all__ = sorted(_HOME)
+
+
+def __getattr__(name: str) -> Any:
+    module = _HOME.get(name)
+    if module is None:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(importlib.import_module(f".{module}", __name__), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted({*globals(), *__all__})

@@ -24,14 +24,15 @@ from __future__ import annotations
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from alembic import command
-from alembic.config import Config
 from flask import Flask, current_app, g, has_request_context, request
 from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session
+
+if TYPE_CHECKING:
+    from alembic.config import Config
 
 # A write waits up to a minute for the lock rather than fail: a 1M-row import holds it for
 # the seconds its points take to write (benchmarks/bench_import.py), and waiting beats a
@@ -105,6 +106,8 @@ def reading(engine: Engine) -> Engine:
 
 def alembic_config(connection: Any = None) -> Config:
     """An Alembic config pointing at the shipped ``migrations/`` folder."""
+    from alembic.config import Config
+
     from webapp import resource_dir
 
     config = Config()
@@ -117,11 +120,15 @@ def alembic_config(connection: Any = None) -> Config:
 
 def upgrade(engine: Engine, revision: str = "head") -> None:
     """Bring the schema to ``revision`` (the latest by default)."""
+    from alembic import command
+
     with engine.begin() as connection:
         command.upgrade(alembic_config(connection), revision)
 
 
 def downgrade(engine: Engine, revision: str) -> None:
+    from alembic import command
+
     with engine.begin() as connection:
         command.downgrade(alembic_config(connection), revision)
 

@@ -8,7 +8,7 @@ from flask import Flask
 
 
 def register_web(app: Flask) -> None:
-    from webapp.web import assets, csrf, errors, filters
+    from webapp.web import assets, csrf, errors, facts, filters
     from webapp.web.views import (
         explain,
         home,
@@ -24,5 +24,7 @@ def register_web(app: Flask) -> None:
     errors.init_app(app)
     filters.init_app(app)
     app.add_template_global(assets.plotly_version, "plotly_version")
+    app.add_template_global(facts.fact_groups, "fact_groups")
+    app.add_template_global(facts.parameter_rows, "parameter_rows")
     for module in (assets, home, imports, series, explain, peers, pages, rules, reviews):
         app.register_blueprint(module.bp)

@@ -26,8 +26,8 @@ from webapp.services.review_export import AttachedEvidence, ExportError, review_
 from webapp.web import filters
 from webapp.web.assets import plotly_js_path
 from webapp.web.charts import explain as figures
-from webapp.web.charts.evidence import figure_json
-from webapp.web.charts.style import PLOT_CONFIG
+from webapp.web.charts import style
+from webapp.web.charts.style import PLOT_CONFIG, Drawing, figure_json
 from webapp.web.charts.svg import figure_svg
 from webapp.web.markdown import render_markdown
 
@@ -58,27 +58,33 @@ def markdown_cell(value: Any) -> str:
     return re.sub(r"\s*\n\s*", " ", str(value or "")).replace("|", "\\|").strip()
 
 
-def evidence_figures(item: AttachedEvidence) -> list[tuple[str, go.Figure]]:
-    """The frozen figures of one attachment: the band, and the overlay when it was saved."""
+def evidence_drawings(item: AttachedEvidence) -> list[tuple[str, Drawing]]:
+    """The frozen figures of one attachment as plain data: the band, and the overlay when
+    it was saved."""
     if item.frame is None:
         return []
     title = item.explanation.title or item.explanation.series_key
-    out = [("band", figures.band_figure(item.frame, item.tz, item.unit, title, marks=item.marks))]
+    out = [("band", figures.band_drawing(item.frame, item.tz, item.unit, title, marks=item.marks))]
     if item.overlay is not None and not item.overlay.empty:
         out.append(
-            ("overlay", figures.overlay_figure(item.overlay, item.frame, item.tz, item.unit))
+            ("overlay", figures.overlay_drawing(item.overlay, item.frame, item.tz, item.unit))
         )
     return out
 
 
-def draw_evidence(items: list[AttachedEvidence]) -> None:
-    """Draw every attachment's figures; one that cannot be drawn says why instead."""
+def draw_evidence(items: list[AttachedEvidence], plotly: bool = True) -> None:
+    """Draw every attachment's figures (plotly Figures, or plain drawings when ``plotly``
+    is false); one that cannot be drawn says why instead."""
     for item in items:
         try:
-            item.figures = evidence_figures(item)
+            drawings = evidence_drawings(item)
         except (KeyError, ValueError) as err:  # a frame stored by an older engine
             number = item.explanation.id
             item.problem = f"The stored frame of explanation #{number} could not be drawn ({err})."
+            continue
+        item.figures = [
+            (name, style.figure(*drawing) if plotly else drawing) for name, drawing in drawings
+        ]
 
 
 def export_review(session: Session, review_id: int, fmt: str, out_path: str | Path) -> list[Path]:
@@ -90,7 +96,7 @@ def export_review(session: Session, review_id: int, fmt: str, out_path: str | Pa
     if fmt not in FORMATS:
         raise ExportError(f"unknown export format {fmt!r}: use md or html")
     context = review_context(session, review_id)
-    draw_evidence(context["evidence"])
+    draw_evidence(context["evidence"], plotly=fmt == "html")
     out_path = output_file(out_path, review_id, fmt)
     out_path.parent.mkdir(parents=True, exist_ok=True)
     if fmt == "md":
@@ -118,7 +124,7 @@ def _write_markdown(context: dict[str, Any], out_path: Path) -> list[Path]:
         for name, figure in item.figures:
             path = folder / f"{item.number:02d}-{name}.svg"
             folder.mkdir(parents=True, exist_ok=True)
-            path.write_text(figure_svg(figure, FIGURE_WIDTH), encoding="utf-8")
+            path.write_text(figure_svg(*figure, width=FIGURE_WIDTH), encoding="utf-8")
             written.append(path)
             item.files.append((name, path.relative_to(out_path.parent).as_posix()))
     text = _environment().get_template("export/review.md").render(**context)

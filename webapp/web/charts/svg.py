@@ -9,13 +9,11 @@ Anything else a figure holds (subplots, other trace types) is left out, not gues
 
 from __future__ import annotations
 
-import base64
 import math
 import re
 from html import escape
 
 import numpy as np
-import plotly.graph_objects as go
 
 from webapp.web.charts import palette, style
 
@@ -64,13 +62,8 @@ def _dash(line: dict) -> str:
 
 
 def _array(values: object) -> np.ndarray:
-    """A trace's x or y as floats, whether a list or plotly's typed-array form
-    (``{"dtype": "f8", "bdata": <base64>}``)."""
     if values is None:
         return np.array([], dtype="float64")
-    if isinstance(values, dict) and "bdata" in values:
-        raw = np.frombuffer(base64.b64decode(values["bdata"]), dtype=values["dtype"])
-        return raw.astype("float64")
     return np.asarray(values, dtype="float64")
 
 
@@ -267,12 +260,11 @@ class _LegendFrame(_Frame):
         return np.full(len(values), self._at[1])
 
 
-def figure_svg(fig: go.Figure, width: int = 1100) -> str:
-    """``fig`` (one date x axis, scatter traces) as a standalone SVG document."""
-    spec = fig.to_plotly_json()
-    traces = [t for t in spec["data"] if t.get("type", "scatter") == "scatter"]
+def figure_svg(data: list[dict], layout: dict, width: int = 1100) -> str:
+    """A figure's traces and layout (one date x axis, scatter traces; see
+    ``style.Drawing``) as a standalone SVG document."""
+    traces = [t for t in data if t.get("type", "scatter") == "scatter"]
     traces = [t for t in traces if not str(t.get("xaxis", "x")).removeprefix("x")]
-    layout = spec["layout"]
     height = int(layout.get("height") or 420)
     title = (layout.get("title") or {}).get("text") or ""
     margin = {**{"l": 64, "r": 16, "t": 40, "b": 48}, **(layout.get("margin") or {})}

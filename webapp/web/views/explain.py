@@ -162,6 +162,7 @@ def explain_page(series: Any, query: ExplainQuery) -> Response:
         panels=panels.build_panels(evidence),
         stored=stored_list(series.id),
         fine=lambda name: url_for("explain.live_figure", name=name, **query.args()),
+        facts_url=url_for("explain.live_facts", **query.args()),
         peers_url=peers_panel_url(series, query),
     )
     # The address bar shows the canonical query (a period just added appears as exclude=).
@@ -197,6 +198,19 @@ def figure_response(evidence: ev.Evidence, name: str) -> Response:
 def live_figure(name: str) -> Response:
     series, query = current_query(request.args)
     return figure_response(live(series, query), name)
+
+
+def facts_download(evidence: ev.Evidence, name: str) -> Response:
+    """The facts with their raw keys, as a JSON file."""
+    response = jsonify(evidence.facts or {})
+    response.headers["Content-Disposition"] = f'attachment; filename="{name}.json"'
+    return response
+
+
+@bp.get("/explain/facts.json")
+def live_facts() -> Response:
+    series, query = current_query(request.args)
+    return facts_download(live(series, query), f"facts-series-{series.id}")
 
 
 @bp.post("/explain/save")
@@ -308,6 +322,7 @@ def saved(explanation_id: int) -> str:
         evidence=evidence,
         panels=panels.build_panels(evidence),
         fine=lambda name: url_for("explain.saved_figure", explanation_id=row.id, name=name),
+        facts_url=url_for("explain.saved_facts", explanation_id=row.id),
     )
 
 
@@ -337,6 +352,11 @@ def again_args(row: Any, tz: str) -> dict[str, Any] | None:
 @bp.get("/explanations/<int:explanation_id>/figure/<name>")
 def saved_figure(explanation_id: int, name: str) -> Response:
     return figure_response(frozen(load_saved(explanation_id)), name)
+
+
+@bp.get("/explanations/<int:explanation_id>/facts.json")
+def saved_facts(explanation_id: int) -> Response:
+    return facts_download(frozen(load_saved(explanation_id)), f"facts-explanation-{explanation_id}")
 
 
 @bp.post("/explanations/<int:explanation_id>/delete")
