@@ -4,9 +4,8 @@ labelled, with units, each said once. The raw keys stay in the JSON download."""
 from __future__ import annotations
 
 import math
+import re
 from typing import Any
-
-import pandas as pd
 
 from webapp.analysis.times import local_time, long_duration, to_timestamp
 from webapp.analysis.vocabulary import FACT_GROUPS, FACT_WORDS, PARAMETER_LABELS, fact_label
@@ -34,16 +33,13 @@ def _span(start: Any, end: Any, tz: str) -> str:
 
 
 def _period(label: str) -> str:
-    """``1d`` as ``1 day``, ``12h`` as ``12 hours``."""
-    try:
-        seconds = pd.Timedelta(label).total_seconds()
-    except ValueError:
+    """A period's label (``1d``, ``12h``, ``30min``) in words: ``1 day``, ``12 hours``."""
+    found = re.fullmatch(r"(\d+)\s*(d|h|min|m)", str(label).strip(), re.IGNORECASE)
+    if found is None:
         return str(label)
-    for name, size in (("day", 86400), ("hour", 3600), ("minute", 60)):
-        if seconds >= size and seconds % size == 0:
-            count = int(seconds // size)
-            return f"{count} {name}{'' if count == 1 else 's'}"
-    return long_duration(seconds)
+    count, unit = int(found.group(1)), found.group(2).lower()
+    name = {"d": "day", "h": "hour"}.get(unit, "minute")
+    return f"{count} {name}{'' if count == 1 else 's'}"
 
 
 def _share(value: Any) -> str:
