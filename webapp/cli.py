@@ -414,7 +414,7 @@ def export_review_cmd(review_id: int, fmt: str, out_path: str, db_url: str | Non
     with _database_errors(url):
         engine = _open(url)
         try:
-            with db.session_scope(engine) as session:
+            with db.session_scope(engine, write=False) as session:
                 written = export_review(session, review_id, fmt, out_path)
         except ExportError as err:
             raise click.ClickException(str(err)) from None

@@ -29,7 +29,6 @@ from webapp.web.charts import explain as figures
 from webapp.web.charts import style
 from webapp.web.charts.style import PLOT_CONFIG, Drawing, figure_json
 from webapp.web.charts.svg import figure_svg
-from webapp.web.markdown import render_markdown
 
 FORMATS = ("md", "html")
 FIGURE_WIDTH = 1100
@@ -47,10 +46,17 @@ def _environment() -> jinja2.Environment:
         local_time=filters.local_time,
         duration=long_duration,
         number=filters.number,
-        markdown=render_markdown,
+        markdown=_render_markdown,
         cell=markdown_cell,
     )
     return env
+
+
+def _render_markdown(text: str | None) -> Markup:
+    """The review's Markdown as safe HTML (loaded only by the HTML export)."""
+    from webapp.web.markdown import render_markdown
+
+    return render_markdown(text)
 
 
 def markdown_cell(value: Any) -> str:
