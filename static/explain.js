@@ -4,10 +4,15 @@
 (function () {
   "use strict";
 
+  // Nothing leaves the machine: no share-to-a-hosted-service button, no logo link, and no
+  // destination address for one (plotly.js offers both by default). Same as PLOT_CONFIG in
+  // webapp/web/charts/style.py, which the exported HTML uses.
   var CONFIG = {
     responsive: true,
     displaylogo: false,
-    modeBarButtonsToRemove: ["select2d", "lasso2d", "toImage"],
+    showSendToCloud: false,
+    plotlyServerURL: "",
+    modeBarButtonsToRemove: ["select2d", "lasso2d", "toImage", "sendChartToCloud"],
   };
 
   function readFigure(el) {

@@ -288,6 +288,28 @@ def test_export_review_writes_the_file(runner, demo_db_copy, tmp_path):
     assert title in target.read_text(encoding="utf-8")
 
 
+@pytest.mark.parametrize("review_id", [1, 2])
+def test_demo_reviews_export_to_a_new_folder_small_and_quiet(
+    runner, demo_db_copy, tmp_path, review_id
+):
+    folder = tmp_path / "not-yet-there"
+    for fmt in ("md", "html"):
+        args = ["export", "review", str(review_id), "--format", fmt, "-o", f"{folder}/"]
+        result = runner.invoke(cli, [*args, "--db", demo_db_copy])
+        assert result.exit_code == 0, result.output
+        assert "Traceback" not in result.output and "Error" not in result.output
+    markdown = folder / f"review-{review_id}.md"
+    html = folder / f"review-{review_id}.html"
+    assert markdown.is_file() and f"Wrote {html}" in result.output
+    assert not (tmp_path / "not-yet-there.md").exists()
+    figures = sorted((folder / f"review-{review_id}-figures").glob("*.svg"))
+    assert all(f"review-{review_id}-figures/{f.name}" in markdown.read_text() for f in figures)
+    assert html.stat().st_size <= 1_500_000
+    caution = "Retiring an alert can hide a real failure"
+    assert html.read_text(encoding="utf-8").count(caution) == 1
+    assert markdown.read_text(encoding="utf-8").count(caution) == 1
+
+
 def test_export_of_an_unknown_review_says_so(runner, db_url, tmp_path):
     result = runner.invoke(
         cli, ["export", "review", "7", "-o", str(tmp_path / "x.md"), "--db", db_url]

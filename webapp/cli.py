@@ -547,11 +547,12 @@ def export_group() -> None:
     "--output",
     "out_path",
     required=True,
-    type=click.Path(path_type=Path),
-    help="File to write (a folder gets review-ID.md or .html); Markdown figures go beside it.",
+    type=click.Path(),
+    help="File to write; a folder (an existing one, or a path ending in /, created when "
+    "missing) gets review-ID.md or .html. Markdown figures go beside it as SVG files.",
 )
 @db_option
-def export_review_cmd(review_id: int, fmt: str, out_path: Path, db_url: str | None) -> None:
+def export_review_cmd(review_id: int, fmt: str, out_path: str, db_url: str | None) -> None:
     """Export one review."""
     from webapp.services.review_export import ExportError
     from webapp.store import db
@@ -561,7 +562,7 @@ def export_review_cmd(review_id: int, fmt: str, out_path: Path, db_url: str | No
     with _database_errors(url):
         engine = _open(url)
         try:
-            with db.session_scope(engine) as session:
+            with db.session_scope(engine, write=False) as session:
                 written = export_review(session, review_id, fmt, out_path)
         except ExportError as err:
             raise click.ClickException(str(err)) from None

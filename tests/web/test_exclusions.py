@@ -72,9 +72,11 @@ def band_figure(body: str) -> str:
 
 
 def excluded_minutes(body: str) -> int:
-    found = re.search(r"<dt>excluded minutes</dt><dd>([^<]+)</dd>", body)
-    assert found, "no excluded minutes among the facts"
-    return int(found.group(1).replace(",", ""))
+    """The Facts panel's "Left out of the history" (``1 d 2 h``, ``45 min``) in minutes."""
+    found = re.search(r"<dt>Left out of the history</dt><dd>([^<]+)</dd>", body)
+    assert found, "no time left out among the facts"
+    sizes = {"d": 1440, "h": 60, "min": 1, "s": 0}
+    return sum(int(n) * sizes[u] for n, u in re.findall(r"(\d+) (d|h|min|s)\b", found.group(1)))
 
 
 def stored_list(body: str) -> str:

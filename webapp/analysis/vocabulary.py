@@ -15,6 +15,9 @@ __all__ = [
     "SWEEP_LEVEL",
     "KIND_NAMES",
     "FACT_LABELS",
+    "FACT_GROUPS",
+    "FACT_WORDS",
+    "PARAMETER_LABELS",
     "fact_label",
 ]
 
@@ -87,3 +90,96 @@ FACT_LABELS = {
 def fact_label(name: str) -> str:
     """The label of a time fact (an explanation's facts, a timeline entry's source)."""
     return FACT_LABELS.get(name) or name.replace("_", " ").strip().capitalize()
+
+
+#: The Facts panel in words: groups of rows, each (label, how to show it, the fact keys it
+#: shows). Kinds: time, span (two times), minutes, days, seconds, share, count, value (in
+#: the series' unit), range (two values), sd (robust standard deviations), yes/no, words
+#: (one of FACT_WORDS), periods, strengths, list, outside (total, above, below), rank
+#: (rank and weeks). Keys no row names are shown under "Other facts"; the series, its unit
+#: and time zone are on the screen already. The JSON download keeps every raw key.
+FACT_GROUPS: tuple[tuple[str, tuple[tuple[str, str, tuple[str, ...]], ...]], ...] = (
+    (
+        "The window",
+        (
+            ("Window", "span", ("window_start", "window_end")),
+            ("Length", "minutes", ("window_minutes",)),
+            ("Samples with a value", "count", ("window_samples",)),
+            (
+                "Time outside the band",
+                "outside",
+                ("minutes_outside", "minutes_above", "minutes_below"),
+            ),
+            ("Separate stretches outside", "count", ("outside_stretches",)),
+            ("First outside the band", "time", ("first_outside",)),
+            ("Last outside the band", "time", ("last_outside",)),
+            ("Peak", "time", ("peak_time",)),
+            ("Peak value", "value", ("peak_value",)),
+            ("Expected at the peak", "value", ("peak_expected",)),
+            ("Band at the peak", "range", ("peak_lower", "peak_upper")),
+            ("Peak's distance from expected", "sd", ("peak_deviation_sd",)),
+            ("Furthest from expected", "time", ("strongest_time",)),
+            ("Value there", "value", ("strongest_value",)),
+            ("Expected there", "value", ("strongest_expected",)),
+            ("Its distance from expected", "sd", ("strongest_deviation_sd",)),
+        ),
+    ),
+    (
+        "The band",
+        (
+            ("Width setting", "number", ("tolerance",)),
+            ("Sides set by", "words", ("band_sides",)),
+            ("Days forecast to set the sides", "days", ("band_backtest_days",)),
+            ("Share the band is built to hold", "share", ("band_coverage_nominal",)),
+            ("Share it held on those days", "share", ("band_coverage",)),
+            ("Seasonal periods used", "periods", ("periods",)),
+            ("Strength of each period tried", "strengths", ("period_strengths",)),
+            ("Robust spread of what is left", "value", ("scale",)),
+            ("Spread changes with the hour of day", "yes/no", ("scale_varies_by_hour",)),
+            ("Confidence", "words", ("confidence",)),
+            ("Why not higher", "list", ("confidence_reasons",)),
+        ),
+    ),
+    (
+        "History and data",
+        (
+            ("History asked for", "days", ("history_requested_days",)),
+            ("History usable", "days", ("history_usable_days",)),
+            ("Sample step", "seconds", ("step_seconds",)),
+            ("History with a value", "share", ("coverage_history",)),
+            ("Window with a value", "share", ("coverage_window",)),
+            ("Gaps", "count", ("gap_count",)),
+            ("Time in gaps", "minutes", ("gap_minutes",)),
+            ("Left out of the history", "minutes", ("excluded_minutes",)),
+        ),
+    ),
+    (
+        "The past weeks",
+        (
+            ("Hour compared", "span", ("same_hour_start", "same_hour_end")),
+            ("This week's value in that hour", "value", ("same_hour_value",)),
+            ("Rank of this week", "rank", ("same_hour_rank", "same_hour_weeks", "same_hour_side")),
+            ("Median of the earlier weeks", "value", ("same_hour_past_median",)),
+            ("Most extreme earlier week", "value", ("same_hour_past_extreme",)),
+        ),
+    ),
+)
+
+#: Fact values that are codes, in words.
+FACT_WORDS = {
+    "band_sides": {
+        "backtest": "its own forecast errors over the last days of history",
+        "scale": "the robust spread (too little history to calibrate)",
+    },
+}
+
+#: A saved explanation's parameters in words (the window is shown on its own).
+PARAMETER_LABELS = {
+    "history_seconds": "History",
+    "tolerance": "Width setting",
+    "exclude": "Left out of the history",
+    "tz": "Time zone",
+    "agg": "Samples combined by",
+    "unit": "Unit",
+    "step_seconds": "Sample step",
+}

@@ -129,6 +129,12 @@ def header_lines(review: Review, page: Page | None, rule: AlertRule | None) -> l
     return rows
 
 
+def without_caution(text: str | None) -> str:
+    """A rationale without the owner-decides caution a drafted verdict ends with: the
+    export states it once, beside the verdict."""
+    return (text or "").replace(OWNER_DECIDES, "").strip()
+
+
 def review_context(session: Session, review_id: int, tz: str = "UTC") -> dict[str, Any]:
     """Everything a review export shows, read from the store; raises ExportError for an
     unknown review."""
@@ -145,6 +151,7 @@ def review_context(session: Session, review_id: int, tz: str = "UTC") -> dict[st
         "sections": [(label, getattr(review, name)) for name, label in SECTIONS],
         "evidence": review_evidence(session, review, tz),
         "verdict_warning": OWNER_DECIDES,
+        "verdict_rationale": without_caution(review.verdict_rationale),
         "exported_at": dt.datetime.now(dt.UTC),
         "tz": tz,
     }

@@ -24,16 +24,17 @@ from __future__ import annotations
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
-from alembic import command
-from alembic.config import Config
 from flask import Flask, current_app, g, has_request_context, request
 from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session
 
 from webapp.store import audit, guards  # noqa: F401 - register what every flush does
+
+if TYPE_CHECKING:
+    from alembic.config import Config
 
 # A write waits up to a minute for the lock rather than fail: a 1M-row import holds it for
 # the seconds its points take to write (benchmarks/bench_import.py), and waiting beats a
@@ -109,6 +110,8 @@ def reading(engine: Engine) -> Engine:
 
 def alembic_config(connection: Any = None) -> Config:
     """An Alembic config pointing at the shipped ``migrations/`` folder."""
+    from alembic.config import Config
+
     from webapp import resource_dir
 
     config = Config()
@@ -122,6 +125,8 @@ def alembic_config(connection: Any = None) -> Config:
 def upgrade(engine: Engine, revision: str = "head") -> None:
     """Bring the schema to ``revision`` (the latest by default). Runs that start together
     take turns (PostgreSQL's migrations lock): the later one finds the work done."""
+    from alembic import command
+
     from webapp.store import locks
 
     with engine.begin() as connection:  # on SQLite, BEGIN IMMEDIATE: upgrades take turns
@@ -130,6 +135,8 @@ def upgrade(engine: Engine, revision: str = "head") -> None:
 
 
 def downgrade(engine: Engine, revision: str) -> None:
+    from alembic import command
+
     with engine.begin() as connection:
         command.downgrade(alembic_config(connection), revision)
 

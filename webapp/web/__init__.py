@@ -8,7 +8,7 @@ from flask import Flask
 
 
 def register_web(app: Flask) -> None:
-    from webapp.web import assets, auth, csrf, errors, filters, textcheck
+    from webapp.web import assets, auth, csrf, errors, facts, filters, textcheck
     from webapp.web.views import (
         explain,
         home,
@@ -28,6 +28,8 @@ def register_web(app: Flask) -> None:
     errors.init_app(app)
     filters.init_app(app)
     app.add_template_global(assets.plotly_version, "plotly_version")
+    app.add_template_global(facts.fact_groups, "fact_groups")
+    app.add_template_global(facts.parameter_rows, "parameter_rows")
     for module in (
         assets,
         home,

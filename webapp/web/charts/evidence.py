@@ -11,6 +11,7 @@ from markupsafe import Markup
 
 from webapp.services.explain import Evidence, Span
 from webapp.web.charts import explain as figures
+from webapp.web.charts.style import figure_json
 
 log = logging.getLogger(__name__)
 
@@ -23,13 +24,6 @@ class Panel:
     figure: Markup | None = None
     error: str | None = None
     payload_bytes: int = 0
-
-
-def figure_json(fig: go.Figure) -> Markup:
-    """A figure's JSON, safe inside ``<script type="application/json">`` (no ``<``, ``>``
-    or ``&`` left that could end the script element)."""
-    text = fig.to_json()
-    return Markup(text.replace("&", "\\u0026").replace("<", "\\u003c").replace(">", "\\u003e"))
 
 
 def figure_embed(fig: go.Figure, div_id: str) -> Markup:

@@ -211,6 +211,24 @@ def band_figure(
     n_out: int = DEFAULT_POINTS,
     second: Any = None,
 ) -> go.Figure:
+    """The band figure (see :func:`band_drawing`) as a plotly Figure."""
+    drawing = band_drawing(
+        frame, tz, unit, title, view=view, marks=marks, n_out=n_out, second=second
+    )
+    return style.figure(*drawing)
+
+
+def band_drawing(
+    frame: pd.DataFrame,
+    tz: str,
+    unit: str | None,
+    title: str,
+    *,
+    view: Window | None = None,
+    marks: Sequence[tuple[pd.Timestamp, str]] = (),
+    n_out: int = DEFAULT_POINTS,
+    second: Any = None,
+) -> style.Drawing:
     """The value against its expected band; out-of-band samples as vermillion triangles
     (pointing the way they left the band), out-of-band stretches inside the window shaded
     vermillion, the window itself tinted yellow, page times as dotted lines; `second` (with
@@ -288,7 +306,7 @@ def band_figure(
             automargin=True,
         )
         layout["margin"]["r"] = 64
-    return style.figure(traces, layout)
+    return traces, layout
 
 
 def second_trace(second: Any, tz: str, n_out: int, view: Window | None) -> dict:
@@ -305,6 +323,18 @@ def overlay_figure(
     *,
     n_out: int = DEFAULT_POINTS,
 ) -> go.Figure:
+    """The past-weeks figure (see :func:`overlay_drawing`) as a plotly Figure."""
+    return style.figure(*overlay_drawing(overlay, frame, tz, unit, n_out=n_out))
+
+
+def overlay_drawing(
+    overlay: pd.DataFrame,
+    frame: pd.DataFrame,
+    tz: str,
+    unit: str | None,
+    *,
+    n_out: int = DEFAULT_POINTS,
+) -> style.Drawing:
     """Each earlier week laid over the window at the same hour-of-week, their p10–p90
     spread and median, and this window's value on top."""
     overlay = overlay.sort_index()
@@ -341,7 +371,7 @@ def overlay_figure(
     layout = style.layout(
         360, xaxis=style.time_axis(tz), yaxis=style.axis(title={"text": unit or "value"})
     )
-    return style.figure(traces, layout)
+    return traces, layout
 
 
 def seasonal_columns(frame: pd.DataFrame) -> list[str]:

@@ -6,8 +6,13 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import plotly.graph_objects as go
+from markupsafe import Markup
 
 from webapp.web.charts import palette
+
+#: A figure as plain data: its traces and its layout, before plotly builds a Figure of them
+#: (the SVG writer draws straight from this, without loading plotly's object model).
+Drawing = tuple[list[dict], dict]
 
 FONT = "system-ui, 'DejaVu Sans', 'Noto Sans', sans-serif"
 FONT_STYLE = {"family": FONT, "size": 13, "color": palette.VALUE}
@@ -74,3 +79,22 @@ def line(
         "connectgaps": False,
         **kw,
     }
+
+
+#: How a figure is drawn in a browser (static/explain.js keeps the same object): nothing
+#: leaves the machine, so no share-to-a-hosted-service button, no logo link and no
+#: destination address for one, all of which plotly.js offers by default.
+PLOT_CONFIG = {
+    "responsive": True,
+    "displaylogo": False,
+    "showSendToCloud": False,
+    "plotlyServerURL": "",
+    "modeBarButtonsToRemove": ["select2d", "lasso2d", "toImage", "sendChartToCloud"],
+}
+
+
+def figure_json(fig: go.Figure) -> Markup:
+    """A figure's JSON, safe inside a ``<script>`` element (no ``<``, ``>`` or ``&`` left
+    that could end it)."""
+    text = fig.to_json()
+    return Markup(text.replace("&", "\\u0026").replace("<", "\\u003c").replace(">", "\\u003e"))

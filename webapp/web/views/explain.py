@@ -183,6 +183,7 @@ def explain_page(series: Any, query: ExplainQuery) -> Response:
         panels=panels.build_panels(evidence),
         stored=stored_list(series.id),
         fine=lambda name: url_for("explain.live_figure", name=name, **query.args()),
+        facts_url=url_for("explain.live_facts", **query.args()),
         peers_url=peers_panel_url(series, query),
         screening_url=screening_url(query),
         second_choices=second_choices(),
@@ -283,6 +284,19 @@ def live_data(fmt: str) -> Response:
     if evidence.explanation is None:
         bad_request(evidence.errors.get("explain", "There is nothing to download."))
     return download(evidence.explanation, fmt, f"explanation-{series.id}")
+
+
+def facts_download(evidence: ev.Evidence, name: str) -> Response:
+    """The facts with their raw keys, as a JSON file."""
+    response = jsonify(evidence.facts or {})
+    response.headers["Content-Disposition"] = f'attachment; filename="{name}.json"'
+    return response
+
+
+@bp.get("/explain/facts.json")
+def live_facts() -> Response:
+    series, query = current_query(request.args)
+    return facts_download(live(series, query), f"facts-series-{series.id}")
 
 
 @bp.post("/explain/save")
@@ -404,6 +418,7 @@ def saved(explanation_id: int) -> str:
         evidence=evidence,
         panels=panels.build_panels(evidence),
         fine=lambda name: url_for("explain.saved_figure", explanation_id=row.id, name=name),
+        facts_url=url_for("explain.saved_facts", explanation_id=row.id),
     )
 
 
@@ -445,6 +460,11 @@ def saved_data(explanation_id: int, fmt: str) -> Response:
         bad_request(evidence.errors.get("explain", "The stored frame cannot be read."))
     frame = evidence.frame.rename_axis("time")
     return download(frame, fmt, f"explanation-{row.id}", ev.saved_header(row))
+
+
+@bp.get("/explanations/<int:explanation_id>/facts.json")
+def saved_facts(explanation_id: int) -> Response:
+    return facts_download(frozen(load_saved(explanation_id)), f"facts-explanation-{explanation_id}")
 
 
 @bp.post("/explanations/<int:explanation_id>/delete")

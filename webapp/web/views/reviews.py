@@ -431,7 +431,7 @@ def download(review_id: int, fmt: str) -> Response:
     """The HTML export as one file; the Markdown export as a zip with its figure files."""
     review = load_review(review_id)
     if fmt not in ("html", "zip"):
-        abort(404, description="Exports come as .html (one file) or .zip (Markdown and PNGs).")
+        abort(404, description="Exports come as .html (one file) or .zip (Markdown, SVG figures).")
     name = f"review-{review.id}"
     kind = "html" if fmt == "html" else "md"
     with tempfile.TemporaryDirectory() as tmp:
