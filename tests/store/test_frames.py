@@ -46,7 +46,9 @@ def test_an_explanation_frame_comes_back_bit_for_bit(band_frame):
 
 def test_band_columns_are_stored_as_formulas_of_the_others(band_frame):
     codecs = choose_codecs(band_frame)
-    assert codecs["lower"].kind == "scaled" and codecs["lower"].number == -3.0
+    lower = codecs["lower"]  # expected + k x band_scale, k the calibrated lower side
+    assert lower.kind == "scaled" and lower.refs == ("expected", "band_scale")
+    assert -4.0 < lower.number < -2.0
     assert codecs["residual"].kind == "difference"
     assert codecs["value"].kind == "decimal" and codecs["value"].number == 1.0
     # The frame holds 13 columns of 8-byte values; stored, it is a small fraction of that.

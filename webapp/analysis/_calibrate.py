@@ -115,13 +115,19 @@ class Calibration:
         beyond = beyond_share(tolerance)
         lower = -upper_quantile(-self.errors, beyond)
         upper = upper_quantile(self.errors, beyond)
-        return min(lower, 0.0), max(upper, 0.0)
+        return short_float(min(lower, 0.0)), short_float(max(upper, 0.0))
 
     def coverage(self, tolerance: float) -> float:
         """Share of the backtest errors inside the band at `tolerance`."""
         z = self.errors[np.isfinite(self.errors)]
         lower, upper = self.quantiles(tolerance)
         return float(np.mean((z >= lower) & (z <= upper))) if len(z) else float("nan")
+
+
+def short_float(x: float) -> float:
+    """`x` to 12 significant digits: a side of the band is then `expected + k x band_scale`
+    with a short `k`, which a saved frame stores as that formula rather than as numbers."""
+    return float(f"{x:.12g}")
 
 
 def calibrate(errors: np.ndarray, scale: np.ndarray, days: int) -> Calibration | None:
