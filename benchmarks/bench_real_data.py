@@ -5,9 +5,11 @@ Anomaly Benchmark (MIT licence; see its README), with labelled anomaly windows.
 
 What is evaluated, for every series:
 
-* normal days: the series is cut into whole days from `MIN_HISTORY` after its first sample;
-  each day's band is built from the history before it (at most `MAX_HISTORY`), and its
-  samples outside every labelled window are the normal samples;
+* normal days: every normal stretch (between labelled windows, the first one starting
+  `MIN_HISTORY` after the first sample) is cut into days from its own start, the last one
+  shorter; each day's band is built from all the history before it (at most `MAX_HISTORY`,
+  labelled windows included, as an engineer would have it), and its samples are the normal
+  samples;
 * labelled windows: each window's band is built from the history before it.
 
 Figures, per method, at width 3 (the default):
@@ -18,7 +20,7 @@ Figures, per method, at width 3 (the default):
 * the share of normal samples outside the band;
 * recall: the share of labelled windows with at least one sample outside;
 * AUC: how well each window's largest deviation tells labelled windows from normal days
-  (days that touch no labelled window); a deviation is measured in units of the band's
+  (the whole days above); a deviation is measured in units of the band's
   own half-width on its side, times 3, so that every method is read on its own band.
 
 Methods, all on the grid whyfired's explain() puts the data on:
@@ -144,13 +146,14 @@ def stl_trend_span(period: int, seasonal: int = 7) -> int:
 
 
 def grid_and_whyfired(series: pd.Series, start: pd.Timestamp, end: pd.Timestamp):
-    """explain() on the window; returns its grid values, window mask, step and band."""
+    """explain() on the window; returns its grid values (a series), window mask, step and
+    band."""
     history = min(MAX_HISTORY, start - series.index[0])
     exp = explain(series, window=(start, end), history=history, tolerance=TOLERANCE)
     frame = exp.frame
     w = frame["in_window"].to_numpy()
     band = tuple(frame[c].to_numpy()[w] for c in ("expected", "lower", "upper"))
-    return frame["value"].to_numpy(), w, exp.step, band
+    return frame["value"], w, exp.step, band
 
 
 METHODS: dict[str, Callable | None] = {
@@ -189,7 +192,6 @@ def largest_deviation(values: np.ndarray, band: Band) -> float:
 
 @dataclass
 class Tally:
-    normal_slots: int = 0
     normal_samples: int = 0
     normal_outside: int = 0
     normal_stretches: int = 0
@@ -243,6 +245,24 @@ def in_any(index: pd.DatetimeIndex, windows) -> np.ndarray:
     return mask
 
 
+def normal_days(series: pd.Series, windows) -> list[tuple[pd.Timestamp, pd.Timestamp, bool]]:
+    """The normal stretches (outside every labelled window, from `MIN_HISTORY` after the first
+    sample to the last), each cut into days from its own start: (start, end, whole day)."""
+    edges, begin = [], series.index[0] + MIN_HISTORY
+    for start, end in sorted(windows):
+        edges.append((begin, start))
+        begin = max(begin, end + pd.Timedelta(seconds=1))
+    edges.append((begin, series.index[-1] + pd.Timedelta(seconds=1)))
+    days = []
+    for begin, stop in edges:
+        day = begin
+        while day < stop:
+            end = min(day + DAY, stop)
+            days.append((day, end - pd.Timedelta(seconds=1), end - day == DAY))
+            day = end
+    return days
+
+
 def evaluate(items: list[Labelled], names: list[str]) -> dict[str, dict[str, Tally]]:
     """{group: {method: Tally}} for the groups cloud_hosts and traffic."""
     tallies: dict[str, dict[str, Tally]] = {}
@@ -250,24 +270,18 @@ def evaluate(items: list[Labelled], names: list[str]) -> dict[str, dict[str, Tal
         print(f"  [{number}/{len(items)}] {item.name}", file=sys.stderr, flush=True)
         group = item.name.split("/")[0]
         per_method = tallies.setdefault(group, {m: Tally() for m in names})
-        series = item.series
-        day = series.index[0] + MIN_HISTORY
-        while day + DAY <= series.index[-1]:
-            end = day + DAY - pd.Timedelta(seconds=1)
-            values, w, step, band = grid_and_whyfired(series, day, end)
-            index = pd.date_range(day, periods=int(w.sum()), freq=step)
-            window_values = values[w]
+        for start, end, whole in normal_days(item.series, item.windows):
+            values, w, step, band = grid_and_whyfired(item.series, start, end)
+            index = values.index[w]
             normal = ~in_any(index, item.windows)
-            whole = bool(normal.all())
             for name in names:
-                got = band if METHODS[name] is None else METHODS[name](values, w, step)
-                per_method[name].add_normal(window_values, got, normal, step, whole)
-            day += DAY
+                got = band if METHODS[name] is None else METHODS[name](values.to_numpy(), w, step)
+                per_method[name].add_normal(values.to_numpy()[w], got, normal, step, whole)
         for start, end in item.windows:
-            values, w, step, band = grid_and_whyfired(series, start, end)
+            values, w, step, band = grid_and_whyfired(item.series, start, end)
             for name in names:
-                got = band if METHODS[name] is None else METHODS[name](values, w, step)
-                per_method[name].add_labelled(values[w], got)
+                got = band if METHODS[name] is None else METHODS[name](values.to_numpy(), w, step)
+                per_method[name].add_labelled(values.to_numpy()[w], got)
     return tallies
 
 
@@ -275,7 +289,7 @@ def pooled(tallies: dict[str, dict[str, Tally]], name: str) -> Tally:
     total = Tally()
     for per_method in tallies.values():
         t = per_method[name]
-        for attr in ("normal_slots", "normal_samples", "normal_outside", "normal_stretches"):
+        for attr in ("normal_samples", "normal_outside", "normal_stretches"):
             setattr(total, attr, getattr(total, attr) + getattr(t, attr))
         total.step_weeks += t.step_weeks
         total.found += t.found

@@ -113,6 +113,31 @@ def test_a_level_shift_is_followed_within_a_day():
     assert band["expected"].sub(160).abs().max() < 2
 
 
+def test_a_shift_in_the_last_hours_is_followed_and_a_short_burst_is_not():
+    rng = np.random.default_rng(5)
+    index = pd.date_range(T0, periods=15 * 288, freq="5min")
+    values = 100 + rng.normal(0, 2, len(index))
+    shifted, burst = values.copy(), values.copy()
+    shifted[-288 - 72 : -288] += 60  # the level moved 6 hours before the window
+    burst[-288 - 12 : -288] += 60  # one hour of burst just before the window
+    moved = expected_band(pd.Series(shifted, index=index), index[-288:])
+    kept = expected_band(pd.Series(burst, index=index), index[-288:])
+    assert moved["expected"].sub(160).abs().max() < 2
+    assert kept["expected"].sub(100).abs().max() < 2
+
+
+def test_after_a_dip_of_some_hours_the_old_level_stays_inside():
+    rng = np.random.default_rng(12)
+    index = pd.date_range(T0, periods=15 * 288, freq="5min")
+    values = 100 + rng.normal(0, 2, len(index))
+    values[-288 - 144 : -288] -= 60  # twelve hours low, then back to normal in the window
+    series = pd.Series(values, index=index)
+    exp = explain(series, window=(index[-288], index[-1]), history="14D")
+    w = exp.frame[exp.frame["in_window"]]
+    assert w["expected"].sub(40).abs().max() < 2  # the forecast follows the new level ...
+    assert w["outside"].mean() < 0.01  # ... and the band still holds the old one
+
+
 def test_counts_get_a_whole_non_negative_band_and_a_blip_is_not_news():
     rng = np.random.default_rng(6)
     index = pd.date_range(T0, periods=15 * 1440, freq="1min")

@@ -11,7 +11,7 @@ import pandas as pd
 import pytest
 
 from webapp.analysis import BandRule, replay, replay_report
-from webapp.analysis._replay import evaluate
+from webapp.analysis._replay import band_grid, evaluate
 
 T0 = pd.Timestamp("2026-03-02 00:00", tz="UTC")
 DAY = pd.Timedelta(days=1)
@@ -106,9 +106,13 @@ def test_an_excluded_bad_day_is_left_out_of_later_baselines():
     bad = (series.index >= T0 + 2 * DAY) & (series.index < T0 + 3 * DAY)
     series[bad] += 300  # a whole bad day: in a 3-day baseline it lifts the trend
     day = T0 + 3 * DAY
-    times, kept, _ = evaluate(series, RULE)
-    _, left_out, _ = evaluate(series, RULE, exclude=[(T0 + 2 * DAY, T0 + 3 * DAY)])
+    kept = band_grid(series, RULE)
+    spans = [(T0 + 2 * DAY, T0 + 3 * DAY)]
+    left_out = band_grid(series, RULE, exclude=spans)
+    times, excluded, _ = evaluate(series, RULE, exclude=spans)
     clean_times, clean, _ = evaluate(daily().where(~bad), RULE)
+    next_day = (kept.times >= day) & (kept.times < day + DAY)
+    lift = kept.expected[next_day] - left_out.expected[next_day]
+    assert np.median(lift) > 250  # kept, the bad day lifts the next day's expected value
     after = times >= day
-    assert kept[after].sum() > left_out[after].sum()  # normal days then look low
-    np.testing.assert_array_equal(left_out[after], clean[clean_times >= day])
+    np.testing.assert_array_equal(excluded[after], clean[clean_times >= day])

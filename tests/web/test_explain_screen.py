@@ -276,3 +276,9 @@ def test_saved_explanation_zooms_from_its_stored_frame(client, csrf, stored, win
     response = client.get(saved + "/figure/band?from=2026-11-30 15:00&to=2026-11-30 16:00")
     assert response.status_code == 200
     assert len(decode(trace(response.get_json(), "value")["x"])) >= 12
+
+
+def test_band_panel_states_the_coverage_the_band_held(client, stored, url_for_explain):
+    body = client.get(url_for_explain(stored)).get_data(as_text=True)
+    panel = body.split('class="panel panel-band"', 1)[1].split("</section>", 1)[0]
+    assert re.search(r"this band held\s+\d+\.\d% of samples; it is built to hold 99\.7%", panel)

@@ -9,7 +9,11 @@ This is the API for anything that needs "fit on this history, forecast on that g
 or in one call from raw points, `expected_band(history, grid_index, tolerance=3.0)`.
 
 Inside the window the forecast is the seasonal pattern plus the level of the last day of
-history (see `_calibrate`); over the history the band follows the fitted decomposition.
+history, or of its last hours after a change of level (see `_calibrate`); over the history
+the band follows the fitted decomposition. Inside the window the band also covers the
+same forecast from the level of the day before the last (`level_before`): after a change of
+level, or a few hours' dip at the end of the history, nobody can tell yet which level the
+window will take, so for a day the band holds both rather than betting on one (our rule).
 
 The scale (`band_scale`) is the robust standard deviation (MAD x 1.4826) of the hold-out
 residual (each cycle scored against the seasonal pattern of the other cycles, see
@@ -158,6 +162,7 @@ class BaselineFit:
     scale: ScaleModel
     candidates: list[Candidate]
     level: float
+    level_before: float  # the day before the last: the band covers it too (see `band`)
     end: pd.Timestamp
     limits: Limits
     calibration: Calibration | None
@@ -185,9 +190,12 @@ class BaselineFit:
             if self.calibration is not None
             else (-tolerance, tolerance)
         )
-        lower, upper = self.limits.bound(
-            expected + low * scale, expected + high * scale, expected, tolerance
-        )
+        lower, upper = expected + low * scale, expected + high * scale
+        if np.isfinite(self.level_before):
+            before = self.limits.clip_expected(np.where(ahead, self.level_before, trend) + seasonal)
+            lower = np.fmin(lower, before + low * scale)
+            upper = np.fmax(upper, before + high * scale)
+        lower, upper = self.limits.bound(lower, upper, expected, tolerance)
         out["lower"] = lower
         out["upper"] = upper
         return out
@@ -214,17 +222,21 @@ def fit_baseline(
         chosen = sorted(pd.Timedelta(p) for p in periods)
         decomposition = decompose(baseline, chosen, tz=tz)
         candidates = [Candidate(p, "given", kept=True, reason="given") for p in chosen]
-    level = recent_level(y - others(decomposition.fitted_seasonals, -1, len(y)), len(y), span)
     typical = float(np.nanmedian(np.abs(y))) if np.isfinite(y).any() else 0.0
     holdout = decomposition.holdout
     if not np.isfinite(holdout).any():
         holdout = y - decomposition.fitted
     scale = fit_scale(holdout, baseline.index, tz, typical)
-    errors, days = backtest_errors(held_out_deseasonalised(decomposition, y), span)
+    deseasonalised = y - others(decomposition.fitted_seasonals, -1, len(y))
+    level = recent_level(deseasonalised, len(y), span, scale.overall)
+    level_before = recent_level(deseasonalised, len(y) - span, span)
+    errors, days = backtest_errors(
+        held_out_deseasonalised(decomposition, y), span, scale=scale.overall
+    )
     calibration = calibrate(errors, scale.at(baseline.index), days)
     end = baseline.index[-1] if len(baseline) else pd.Timestamp.min.tz_localize("UTC")
     return BaselineFit(
-        decomposition, scale, candidates, level, end, Limits.of(y, span), calibration
+        decomposition, scale, candidates, level, level_before, end, Limits.of(y, span), calibration
     )
 
 

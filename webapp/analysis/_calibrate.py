@@ -4,7 +4,11 @@ The forecast carried into a window is the seasonal pattern plus a level: the med
 deseasonalised values over the last day of history (`recent_level`). A median of a whole
 day is stable on bursty and mostly-zero metrics, never leaves the range the data took, and
 follows a change of level within a day; a spike cannot move it, a whole bad day left in the
-history as its last day can (exclude it).
+history as its last day can (exclude it). A change of level in the last hours (a deploy, a
+migration) is followed sooner: when at least `SHIFT_SHARE` of the last values, over at
+least an eighth of a day, lie more than `SHIFT_Z` scales to one side of the day's median,
+their median is the level (`shifted_level`; thresholds our choice). This is the running
+median of the backtest's errors moving away from zero, read at the end of the history.
 
 To learn how far that forecast misses, each of the last `BACKTEST_DAYS` days of the history
 is forecast the same way from the day before it, with the seasonal pattern fitted without
@@ -32,19 +36,51 @@ from ._tail import upper_quantile
 BACKTEST_DAYS = 28
 MIN_LEVEL_SAMPLES = 12
 MIN_BACKTEST_SAMPLES = 48
+SHIFT_Z = 3.0
+SHIFT_SHARE = 0.9
+SHIFT_PARTS = 8  # a shift counts once it has held an eighth of a day (3 hours)
 
 
-def recent_level(values: np.ndarray, end: int, span: int) -> float:
-    """Median of the last `span` valid values before position `end` (a day's worth of
-    samples: gaps and excluded stretches are stepped over, not counted)."""
+def recent_level(values: np.ndarray, end: int, span: int, scale: float = float("nan")) -> float:
+    """The level carried into a forecast from position `end`: the median of the last `span`
+    valid values (a day's worth of samples: gaps and excluded stretches are stepped over),
+    or, when the last hours stand apart from it, their median (`shifted_level`)."""
     before = values[:end]
     recent = before[np.isfinite(before)][-span:]
-    return float(np.median(recent)) if len(recent) else float("nan")
+    if not len(recent):
+        return float("nan")
+    level = float(np.median(recent))
+    shifted = shifted_level(recent, level, scale, max(MIN_LEVEL_SAMPLES, span // SHIFT_PARTS))
+    return level if shifted is None else shifted
 
 
-def backtest_errors(deseasonalised: np.ndarray, span: int, days: int = BACKTEST_DAYS):
+def shifted_level(recent: np.ndarray, level: float, scale: float, shortest: int) -> float | None:
+    """The median of the longest run of last values of which at least `SHIFT_SHARE` lie
+    more than `SHIFT_Z` scales to one side of `level` (a change of level, a deploy or a
+    migration, that the day's median has not caught up with yet), if it holds at least
+    `shortest` values; else None. A spike or a short burst is too short to count."""
+    if not np.isfinite(scale) or scale <= 0 or len(recent) < shortest:
+        return None
+    z = (recent[::-1] - level) / scale  # newest first
+    seen = np.arange(1, len(z) + 1)
+    for side in (1.0, -1.0):
+        held = np.cumsum(side * z > SHIFT_Z) >= SHIFT_SHARE * seen
+        held[: shortest - 1] = False
+        if held.any():
+            longest = int(np.flatnonzero(held)[-1]) + 1
+            return float(np.median(recent[-longest:]))
+    return None
+
+
+def backtest_errors(
+    deseasonalised: np.ndarray,
+    span: int,
+    days: int = BACKTEST_DAYS,
+    scale: float = float("nan"),
+):
     """Errors of forecasting each of the last `days` blocks of `span` samples by the level
-    of the data before the block; NaN outside the backtest. Returns (errors, blocks used)."""
+    of the data before the block (`recent_level`, shifts found with `scale`); NaN outside
+    the backtest. Returns (errors, blocks used)."""
     n = len(deseasonalised)
     errors = np.full(n, np.nan)
     used = 0
@@ -52,7 +88,7 @@ def backtest_errors(deseasonalised: np.ndarray, span: int, days: int = BACKTEST_
         lo, hi = n - k * span, n - (k - 1) * span
         if lo <= 0 or np.isfinite(deseasonalised[:lo]).sum() < MIN_LEVEL_SAMPLES:
             break
-        errors[lo:hi] = deseasonalised[lo:hi] - recent_level(deseasonalised, lo, span)
+        errors[lo:hi] = deseasonalised[lo:hi] - recent_level(deseasonalised, lo, span, scale)
         used += 1
     return errors, used
 
@@ -79,13 +115,19 @@ class Calibration:
         beyond = beyond_share(tolerance)
         lower = -upper_quantile(-self.errors, beyond)
         upper = upper_quantile(self.errors, beyond)
-        return min(lower, 0.0), max(upper, 0.0)
+        return short_float(min(lower, 0.0)), short_float(max(upper, 0.0))
 
     def coverage(self, tolerance: float) -> float:
         """Share of the backtest errors inside the band at `tolerance`."""
         z = self.errors[np.isfinite(self.errors)]
         lower, upper = self.quantiles(tolerance)
         return float(np.mean((z >= lower) & (z <= upper))) if len(z) else float("nan")
+
+
+def short_float(x: float) -> float:
+    """`x` to 12 significant digits: a side of the band is then `expected + k x band_scale`
+    with a short `k`, which a saved frame stores as that formula rather than as numbers."""
+    return float(f"{x:.12g}")
 
 
 def calibrate(errors: np.ndarray, scale: np.ndarray, days: int) -> Calibration | None:
