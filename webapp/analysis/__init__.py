@@ -35,6 +35,7 @@ from ._burn_sweep import BURN_SWEEP_COLUMNS, burn_sweep, burn_sweep_grid
 from ._explain import ENGINE_VERSION, Explanation, explain
 from ._export_data import to_csv, to_json
 from ._grid import infer_step, regularize
+from ._incidents import merge_incidents
 from ._overlay import past_weeks_overlay
 from ._peers import PeerComparison, PeerGroup, PeerResult, compare_peers
 from ._replay import BandGrid, BandRule, ThresholdRule, band_grid, replay, rule_from_fields
@@ -54,6 +55,7 @@ __all__ = [
     "explain",
     "fit_baseline",
     "infer_step",
+    "merge_incidents",
     "past_weeks_overlay",
     "PeerComparison",
     "PeerGroup",

@@ -13,6 +13,7 @@ def register_web(app: Flask) -> None:
         explain,
         home,
         imports,
+        incidents,
         pages,
         peers,
         reviews,
@@ -24,5 +25,5 @@ def register_web(app: Flask) -> None:
     errors.init_app(app)
     filters.init_app(app)
     app.add_template_global(assets.plotly_version, "plotly_version")
-    for module in (assets, home, imports, series, explain, peers, pages, rules, reviews):
+    for module in (assets, home, imports, series, explain, peers, pages, incidents, rules, reviews):
         app.register_blueprint(module.bp)
