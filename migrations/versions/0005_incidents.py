@@ -79,10 +79,14 @@ def _now() -> dt.datetime:
 
 
 def upgrade() -> None:
-    with op.batch_alter_table("pages", schema=None) as batch_op:
-        batch_op.add_column(
-            sa.Column("real_incident", sa.Boolean(), nullable=False, server_default=sa.false())
-        )
+    # Plain ALTER TABLE, never a batch rebuild: on SQLite a rebuild drops the old table with
+    # foreign keys on, which would empty or unlink every row that refers to it.
+    old_verdicts = _old_verdicts()
+    for column in ("verdict_rationale", "verdict_parameters", "verdict"):
+        op.drop_column("reviews", column)
+    op.add_column(
+        "pages", sa.Column("real_incident", sa.Boolean(), nullable=False, server_default=sa.false())
+    )
     op.create_table(
         "incidents",
         sa.Column("id", sa.Integer(), nullable=False),
@@ -142,11 +146,8 @@ def upgrade() -> None:
         sa.PrimaryKeyConstraint("id", name=op.f("pk_review_verdicts")),
     )
     _carry_windows()
-    _carry_verdicts()
-    with op.batch_alter_table("reviews", schema=None) as batch_op:
-        batch_op.drop_column("verdict_rationale")
-        batch_op.drop_column("verdict_parameters")
-        batch_op.drop_column("verdict")
+    if old_verdicts:
+        op.get_bind().execute(verdicts.insert(), old_verdicts)
 
 
 def _carry_windows() -> None:
@@ -183,7 +184,7 @@ def _carry_windows() -> None:
         bind.execute(incidents.insert(), rows)
 
 
-def _carry_verdicts() -> None:
+def _old_verdicts() -> list[dict]:
     bind = op.get_bind()
     names = dict(bind.execute(sa.select(rules.c.id, rules.c.name)).all())
     query = sa.select(
@@ -199,15 +200,13 @@ def _carry_verdicts() -> None:
          "rationale": rationale or "", "created_at": _now(), "updated_at": _now()}
         for review_id, rule_id, verdict, parameters, rationale in bind.execute(query)
     ]  # fmt: skip
-    if rows:
-        bind.execute(verdicts.insert(), rows)
+    return rows
 
 
 def downgrade() -> None:
-    with op.batch_alter_table("reviews", schema=None) as batch_op:
-        batch_op.add_column(sa.Column("verdict", sa.String(length=10), nullable=True))
-        batch_op.add_column(sa.Column("verdict_parameters", sa.JSON(), nullable=True))
-        batch_op.add_column(sa.Column("verdict_rationale", sa.Text(), nullable=True))
+    op.add_column("reviews", sa.Column("verdict", sa.String(length=10), nullable=True))
+    op.add_column("reviews", sa.Column("verdict_parameters", sa.JSON(), nullable=True))
+    op.add_column("reviews", sa.Column("verdict_rationale", sa.Text(), nullable=True))
     bind = op.get_bind()
     first: dict[int, tuple] = {}
     query = sa.select(
@@ -234,5 +233,4 @@ def downgrade() -> None:
     op.drop_table("review_verdicts")
     op.drop_index(op.f("ix_incidents_start"), table_name="incidents")
     op.drop_table("incidents")
-    with op.batch_alter_table("pages", schema=None) as batch_op:
-        batch_op.drop_column("real_incident")
+    op.drop_column("pages", "real_incident")

@@ -15,8 +15,8 @@ import pytest
 from sqlalchemy import insert
 
 from webapp.store import attachments as store_attachments
+from webapp.store import db, pages, reviews
 from webapp.store import incidents as store_incidents
-from webapp.store import reviews
 from webapp.store import rules as store_rules
 from webapp.store.models import Point, Review, Series
 from webapp.store.stats import refresh
@@ -322,6 +322,26 @@ def test_demo_latency_rule_counts_exactly_the_latency_incidents(demo_app, demo_c
     assert "merged from 2 records" in table and "payment-provider-incidents.csv" in table
     assert "payment.queue_depth" not in table
     assert "Verdict draft: keep" in text
+
+
+def test_a_second_review_of_the_same_demo_incident_does_not_change_the_count(
+    demo_app, demo_client
+) -> None:
+    rule = _demo_rule(demo_app, "latency")
+    before = _counts(demo_client.get(f"/rules/{rule.id}/replay").get_data(as_text=True))
+    with demo_app.app_context():
+        session = db.get_session()
+        page = next(p for p in pages.list_pages(session) if p.alert_rule_id == rule.id)
+        reviews.create_review(
+            session,
+            {"title": "api-4 again, from the payments team", "page_id": str(page.id),
+             "incident_start": page.fired_at, "incident_end": page.resolved_at},
+        )  # fmt: skip
+        session.commit()
+    after = demo_client.get(f"/rules/{rule.id}/replay").get_data(as_text=True)
+    assert _counts(after)["incidents caught"] == before["incidents caught"] == "2"
+    assert _counts(after)["incidents missed"] == before["incidents missed"] == "0"
+    assert re.search(r"merged from (2|3) records", after)
 
 
 @pytest.fixture
