@@ -102,6 +102,9 @@ class Demo:
     excluded: list[dict]
     seed: int
     tz: str = TZ
+    # The payment provider's own list of its incidents, imported as a list (scope: a metric).
+    incident_list: tuple[dict, ...] = ()
+    list_name: str = "payment-provider-incidents.csv"
 
     @property
     def series_keys(self) -> list[str]:
@@ -398,6 +401,20 @@ def _incidents() -> list[dict]:
     ]
 
 
+def _provider_list() -> tuple[dict, ...]:
+    """The payment provider's status list, as the team imports it: its slowdown of last night
+    (its own, slightly wider times) on every host's checkout latency."""
+    return (
+        {
+            "start": PAYMENT_SLOWDOWN[0] - pd.Timedelta(minutes=3),
+            "end": PAYMENT_SLOWDOWN[1] + pd.Timedelta(minutes=4),
+            "title": "Card payment provider: slow authorisations",
+            "metric": "checkout.latency_p95",
+            "labels": {},
+        },
+    )
+
+
 def build_demo(seed: int = 7) -> Demo:
     """The whole demo scenario for ``seed`` (same seed, same data, same pages)."""
     times, data = _generate(seed)
@@ -422,6 +439,7 @@ def build_demo(seed: int = 7) -> Demo:
         incidents=_incidents(),
         excluded=excluded,
         seed=seed,
+        incident_list=_provider_list(),
     )
 
 

@@ -10,6 +10,7 @@ import pytest
 
 from webapp.imports.control import control_problem
 from webapp.store import reviews as store_reviews
+from webapp.store import rules as store_rules
 from webapp.store import verdicts as store_verdicts
 from webapp.web.export import export_review
 
@@ -42,7 +43,8 @@ def hostile_review(session):
     review = store_reviews.create_review(
         session, {"title": "Injection corpus", "summary": text, "lessons": text}
     )
-    store_verdicts.set_verdict(session, review, "keep", rationale=text)
+    rule = store_rules.create_rule(session, name="Hostile rule", metric="m", threshold=1.0)
+    store_verdicts.record_verdict(session, review, rule.id, "keep", rationale=text)
     session.commit()
     return review
 

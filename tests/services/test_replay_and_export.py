@@ -18,19 +18,35 @@ from webapp.store.series import series_by_keys
 WINDOW = {"incident_start": "2026-11-30T14:00", "incident_end": "2026-11-30T16:00"}
 
 
-def test_a_stored_rule_replays_against_the_stored_incidents(session, make_series) -> None:
-    series = make_series()
-    reviews.create_review(session, {"title": "slow checkout", **WINDOW})
+def test_a_stored_rule_replays_against_the_incidents_of_its_own_series(
+    session, make_series, make_page
+) -> None:
+    series, elsewhere = make_series(), make_series("payment.queue_depth{host=api-1}")
+    mine = reviews.create_review(
+        session, {"title": "slow checkout", **WINDOW, "page_id": str(make_page(series).id)}
+    )
+    reviews.create_review(
+        session,
+        {"title": "queue", "incident_start": "2026-11-20T01:00", "incident_end":
+         "2026-11-20T02:00", "page_id": str(make_page(elsewhere).id)},
+    )  # fmt: skip
     rule = rules.create_rule(
         session, name="p95 high", series_id=series.id, threshold=300.0, hold_seconds=600
     )
     (info,) = replay_service.matching_series(session, rule)
     replayed = replay_service.run_replay(session, rule, info)
     assert replayed.report.n_firings >= 1
-    assert replayed.report.caught == [0]  # the review's incident window
+    assert replayed.report.caught == [0]  # its own review's window, and only that one
+    assert [m["review_id"] for c in replayed.choice.counted for m in c["members"]] == [mine.id]
+    assert [o["scope"] for o in replayed.choice.others] == ["payment.queue_depth{host=api-1}"]
     assert replayed.rule.hold.total_seconds() == 600
-    with pytest.raises(ValueError, match="incidents must be one of"):
-        replay_service.run_replay(session, rule, info, scope="everything")
+    # the reader adds the other series' incident: it is counted, and missed
+    other = replayed.choice.others[0]["id"]
+    added = replay_service.run_replay(session, rule, info, add=[other])
+    assert len(added.report.incidents) == 2 and added.report.missed == [0]
+    own = replayed.choice.counted[0]["members"][0]["id"]
+    dropped = replay_service.run_replay(session, rule, info, drop=[own])
+    assert dropped.report.incidents == [] and dropped.choice.dropped == [own]
 
 
 def test_a_review_is_gathered_for_export_from_the_store(session, make_explanation) -> None:

@@ -11,6 +11,7 @@ from webapp.store import action_items as store_actions
 from webapp.store import attachments as store_attachments
 from webapp.store import incidents as store_incidents
 from webapp.store import reviews
+from webapp.store import rules as store_rules
 from webapp.store import timeline as store_timeline
 from webapp.store import verdicts as store_verdicts
 from webapp.store.models import Review
@@ -253,23 +254,41 @@ def test_action_items(session) -> None:
     assert review.action_items == []
 
 
-def test_verdict(session) -> None:
+def test_a_review_keeps_one_verdict_per_rule(session, make_series) -> None:
     review = reviews.create_review(session, good_form())
-    store_verdicts.set_verdict(
-        session, review, "tune", parameters={"threshold": 650.0}, rationale="r"
-    )
-    assert review.verdict == "tune" and review.verdict_parameters == {"threshold": 650.0}
-    store_verdicts.set_verdict(session, review, "keep", parameters={"threshold": 1.0})
-    assert review.verdict_parameters == {}
+    series = make_series()
+    noisy = store_rules.create_rule(session, name="noisy", series_id=series.id, threshold=5.0)
+    quiet = store_rules.create_rule(session, name="quiet", series_id=series.id, threshold=9.0)
+    store_verdicts.record_verdict(
+        session, review, noisy.id, "tune", parameters={"threshold": 650.0},
+        evidence={"pages per week": 3.0}, rationale="r",
+    )  # fmt: skip
+    store_verdicts.record_verdict(session, review, quiet.id, "retire", rationale="never real")
+    assert [(v.rule_name, v.decision) for v in review.verdicts] == [
+        ("noisy", "tune"),
+        ("quiet", "retire"),
+    ]
+    assert review.verdicts[0].evidence == {"pages per week": 3.0}
+    # the same rule again updates its verdict instead of adding a second one
+    store_verdicts.record_verdict(session, review, noisy.id, "keep", parameters={"threshold": 1.0})
+    assert [(v.rule_name, v.decision, v.parameters) for v in review.verdicts] == [
+        ("noisy", "keep", {}),
+        ("quiet", "retire", {}),
+    ]
     with pytest.raises(ReviewInvalid, match="new parameters"):
-        store_verdicts.set_verdict(session, review, "tune")
-    with pytest.raises(ReviewInvalid, match="keep, tune, retire"):
-        store_verdicts.set_verdict(session, review, "silence")
-    store_verdicts.set_verdict(session, review, None)
-    assert review.verdict is None
+        store_verdicts.record_verdict(session, review, noisy.id, "tune")
+    with pytest.raises(ReviewInvalid, match="other rule"):
+        store_verdicts.record_verdict(session, review, noisy.id, "replace")
+    with pytest.raises(ReviewInvalid, match="keep, tune, replace, retire"):
+        store_verdicts.record_verdict(session, review, noisy.id, "silence")
+    with pytest.raises(ReviewInvalid) as info:
+        store_verdicts.record_verdict(session, review, None, "keep")
+    assert set(info.value.errors) == {"alert_rule_id"}
+    store_verdicts.delete_verdict(session, review, review.verdicts[0].id)
+    assert [v.rule_name for v in review.verdicts] == ["quiet"]
 
 
-def test_incident_windows_by_page_and_by_attachment(
+def test_a_reviews_window_becomes_an_incident_on_each_series_it_is_tied_to(
     session, make_series, make_explanation, make_page
 ) -> None:
     series, other = make_series("a"), make_series("b")
@@ -282,14 +301,25 @@ def test_incident_windows_by_page_and_by_attachment(
     store_attachments.attach_explanation(
         session, reviews.list_reviews(session, "unrelated")[0], make_explanation(other).id
     )
-    windows = store_incidents.incident_windows(session, series.id)
-    assert windows == [
-        (pd.Timestamp("2026-11-30 14:00", tz="UTC"), pd.Timestamp("2026-11-30 16:00", tz="UTC")),
-        (pd.Timestamp("2026-12-01 10:00", tz="UTC"), pd.Timestamp("2026-12-01 11:00", tz="UTC")),
+    windows = [
+        (pd.Timestamp(i.start), pd.Timestamp(i.end), i.review_id)
+        for i in store_incidents.incidents_for_series(session, series)
     ]
+    assert windows == [
+        (pd.Timestamp("2026-11-30 14:00", tz="UTC"), pd.Timestamp("2026-11-30 16:00", tz="UTC"),
+         by_page.id),
+        (pd.Timestamp("2026-12-01 10:00", tz="UTC"), pd.Timestamp("2026-12-01 11:00", tz="UTC"),
+         by_attachment.id),
+    ]  # fmt: skip
     assert store_incidents.series_ids_of(session, by_page) == {series.id}
-    every = store_incidents.incident_windows(session)  # no series: every review with a window
-    assert len(every) == 3 and all(w in every for w in windows)  # "unrelated" shares a window
+    # moving the window moves the incident; detaching the explanation removes it
+    reviews.autosave_review(session, by_attachment, {"incident_end": "2026-12-01T12:00"})
+    mine = [i for i in store_incidents.list_incidents(session) if i.review_id == by_attachment.id]
+    assert [pd.Timestamp(i.end) for i in mine] == [pd.Timestamp("2026-12-01 12:00", tz="UTC")]
+    store_attachments.detach_explanation(session, by_attachment, by_attachment.attachments[0].id)
+    assert not [
+        i for i in store_incidents.list_incidents(session) if i.review_id == by_attachment.id
+    ]
 
 
 def test_time_facts_of_a_computed_explanation_put_the_first_outside_first(

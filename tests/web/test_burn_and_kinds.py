@@ -15,6 +15,7 @@ import pandas as pd
 import pytest
 from sqlalchemy import insert
 
+from webapp.store import incidents as store_incidents
 from webapp.store import reviews
 from webapp.store import rules as store_rules
 from webapp.store.models import AlertRule, Point, Series
@@ -54,6 +55,16 @@ def stored_rules(session):
             "incident_end": BURSTS[1] + pd.Timedelta("1h"),
         },
     )
+    for watched in (depth, ratio):  # the backlog, as an imported list records it per series
+        store_incidents.add_incident(
+            session,
+            BURSTS[1],
+            BURSTS[1] + pd.Timedelta("1h"),
+            "Queue backlog",
+            source="list",
+            series_id=watched.id,
+            list_name="backlog.csv",
+        )
     threshold = store_rules.create_rule(
         session, name="Queue deep", series_id=depth.id, threshold=200.0, hold_seconds=600
     )

@@ -11,10 +11,10 @@ import pandas as pd
 import pytest
 
 from webapp.analysis import ENGINE_VERSION
-from webapp.analysis.vocabulary import OWNER_DECIDES
 from webapp.store import action_items as store_actions
 from webapp.store import attachments as store_attachments
 from webapp.store import reviews
+from webapp.store import rules as store_rules
 from webapp.store import timeline as store_timeline
 from webapp.store import verdicts as store_verdicts
 from webapp.web.assets import plotly_version
@@ -50,13 +50,13 @@ def full_review(session, make_series, make_explanation):
     store_timeline.timeline_entry_from_fact(session, review, synthetic, "first_outside")
     store_timeline.add_timeline_entry(session, review, "2026-11-30 14:05", "Paged | on-call")
     store_actions.add_action_item(session, review, {"text": "Warm the cache", "owner": "Dana"})
-    store_verdicts.set_verdict(
-        session,
-        review,
-        "tune",
-        parameters={"threshold": 650.0},
-        rationale=f"Pages too early at night. {OWNER_DECIDES}",  # as a drafted verdict ends
-    )
+    noisy = store_rules.create_rule(session, name="p95 noisy", series_id=series.id, threshold=5.0)
+    queue = store_rules.create_rule(session, name="queue quiet", series_id=series.id, threshold=9.0)
+    store_verdicts.record_verdict(
+        session, review, noisy.id, "tune", parameters={"threshold": 650.0}, rationale="r",
+        evidence={"pages per week": 3.5},
+    )  # fmt: skip
+    store_verdicts.record_verdict(session, review, queue.id, "retire", rationale="never real")
     session.commit()
     return review
 
@@ -96,9 +96,9 @@ def test_markdown_names_every_figure_and_each_exists(
     assert "| tolerance | `3.0` |" in text
     assert "Paged \\| on-call" in text and "First outside" in text
     assert "| 1 | Warm the cache | Dana |" in text
-    assert "**Tune**" in text and "threshold: `650.0`" in text
+    assert "### p95 noisy: Tune" in text and "threshold: `650.0`" in text
+    assert "- pages per week: 3.5" in text and "### queue quiet: Retire" in text
     assert text.count("Retiring an alert can hide a real failure") == 1
-    assert "Pages too early at night." in text
 
 
 def test_html_is_one_self_contained_file(session, full_review, tmp_path) -> None:
@@ -117,6 +117,7 @@ def test_html_is_one_self_contained_file(session, full_review, tmp_path) -> None
     assert "&lt;script&gt;alert(" in text  # shown as text, never run
     assert re.search(r"<[a-z][^>]*\sonerror", text.split("<main>")[1]) is None
     assert ENGINE_VERSION in text and "tolerance" in text
+    assert "<h3>p95 noisy: Tune</h3>" in text and "<h3>queue quiet: Retire</h3>" in text
     assert text.count("Retiring an alert can hide a real failure") == 1
     assert '"showSendToCloud": false' in text and "plot.ly" not in text.split("<main>")[1]
 

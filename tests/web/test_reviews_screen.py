@@ -9,6 +9,7 @@ import pytest
 
 from webapp.store import attachments as store_attachments
 from webapp.store import reviews
+from webapp.store import rules as store_rules
 from webapp.store import timeline as store_timeline
 from webapp.store.models import Review
 from webapp.web.forms import reviews as review_forms
@@ -232,23 +233,53 @@ def test_action_items(client, csrf, review, session) -> None:
     assert session.get(Review, review.id).action_items[0].state == "done"
 
 
-def test_verdict_page_warns_and_records(client, csrf, review, session) -> None:
-    text = html.unescape(client.get(f"/reviews/{review.id}").text)
-    assert "Retiring an alert can hide a real failure" in text
+def test_verdicts_on_two_rules_are_recorded_edited_and_removed(
+    client, csrf, review, session, make_series
+) -> None:
+    series = make_series()
+    noisy = store_rules.create_rule(session, name="Noisy p95", series_id=series.id, threshold=5.0)
+    quiet = store_rules.create_rule(session, name="Quiet queue", series_id=series.id, threshold=9.0)
+    session.commit()
+    rid, noisy_id, quiet_id = review.id, noisy.id, quiet.id
+    session.commit()  # the ids read above started a transaction: end it
+    text = html.unescape(client.get(f"/reviews/{rid}").text)
+    assert text.count("Retiring an alert can hide a real failure") == 1
     assert "the service owner and the team's own paging policy decide" in text
-    bad = post(client, f"/reviews/{review.id}/verdict", csrf, verdict="tune",
-               verdict_parameters="", verdict_rationale="fewer pages")  # fmt: skip
+    bad = post(client, f"/reviews/{rid}/verdict", csrf, alert_rule_id=str(noisy_id),
+               verdict="tune", verdict_parameters="", verdict_rationale="fewer pages")  # fmt: skip
     assert bad.status_code == 422 and "needs its new parameters" in bad.text
     assert "fewer pages" in bad.text
-    tuned = {"verdict_parameters": "threshold: 650\npending: 10min", "verdict_rationale": "r"}
-    ok = post(client, f"/reviews/{review.id}/verdict", csrf, verdict="tune", **tuned)
+    tuned = {"verdict_parameters": "threshold: 650\nhold: 10min", "verdict_rationale": "r",
+             "verdict_evidence": "pages per week: 3.5\nincidents caught: 2"}  # fmt: skip
+    ok = post(client, f"/reviews/{rid}/verdict", csrf, alert_rule_id=str(noisy_id),
+              verdict="tune", **tuned)  # fmt: skip
     assert ok.status_code == 302
+    retired = post(client, f"/reviews/{rid}/verdict", csrf, alert_rule_id=str(quiet_id),
+                   verdict="retire", verdict_rationale="never real")  # fmt: skip
+    assert retired.status_code == 302
     session.rollback()
     session.expire_all()
-    assert session.get(Review, review.id).verdict_parameters == {
-        "threshold": 650.0,
-        "pending": "10min",
-    }
+    stored = session.get(Review, rid).verdicts
+    assert [(v.rule_name, v.decision) for v in stored] == [
+        ("Noisy p95", "tune"),
+        ("Quiet queue", "retire"),
+    ]
+    assert stored[0].parameters == {"threshold": 650.0, "hold": "10min"}
+    assert stored[0].evidence == {"pages per week": 3.5, "incidents caught": 2.0}
+    first, second = stored[0].id, stored[1].id
+    session.commit()  # end the read: the app's next write needs the lock
+    page = html.unescape(client.get(f"/reviews/{rid}?edit_verdict={first}").text)
+    assert f'name="verdict_id" value="{first}"' in page and "pages per week: 3.5" in page
+    assert page.count("Retiring an alert can hide a real failure") == 1  # once for every verdict
+    edited = post(client, f"/reviews/{rid}/verdict", csrf, verdict_id=str(first),
+                  alert_rule_id=str(noisy_id), verdict="keep")  # fmt: skip
+    assert edited.status_code == 302
+    gone = post(client, f"/reviews/{rid}/verdicts/{second}/delete", csrf)
+    assert gone.status_code == 302
+    session.rollback()
+    session.expire_all()
+    stored = session.get(Review, rid).verdicts
+    assert [(v.id, v.decision, v.parameters) for v in stored] == [(first, "keep", {})]
 
 
 def test_exclusion_switch_is_on_the_form(client, review) -> None:

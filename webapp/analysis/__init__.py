@@ -41,6 +41,7 @@ _EXPORTS = {
     "._explain": ("ENGINE_VERSION", "Explanation", "explain"),
     "._export_data": ("to_csv", "to_json"),
     "._grid": ("infer_step", "regularize"),
+    "._incidents": ("merge_incidents",),
     "._kinds": ("KindRow", "best_setting", "kind_row", "kinds_sentence", "row_from_sweep"),
     "._overlay": ("past_weeks_overlay",),
     "._peers": ("PeerComparison", "PeerGroup", "PeerResult", "compare_peers"),

@@ -1,4 +1,5 @@
-"""Recorded incidents as a replay measures them: windows, and which firings catch them.
+"""Recorded incidents as a replay measures them: windows, merging, and which firings catch
+them.
 
 A rule *caught* an incident when a firing started between the incident's start minus
 ``lead`` and its end (see ``webapp.analysis._report``, which the what-if sweep shares).
@@ -63,3 +64,27 @@ def catches(
         return np.zeros(inc_start_ns.size, dtype=bool), np.zeros(inc_start_ns.size, np.int64)
     first = fire_start_ns[np.minimum(j, fire_start_ns.size - 1)]
     return (j < fire_start_ns.size) & (first <= inc_end_ns), first
+
+
+def merge_incidents(records: Iterable[dict]) -> list[dict]:
+    """Merge recorded incidents that overlap or touch into one, in time order.
+
+    ``records``: dicts with ``start``, ``end`` (None: still open) and any other keys (an
+    ``id``, a ``title``, ``source``...). Each merged incident is a dict with ``start``,
+    ``end``, ``title`` (the first record's) and ``members``, the records it was made of, so a
+    screen can say which were merged and drop them together."""
+    spans = sorted(
+        ((to_utc(r["start"], "incident start"), r) for r in records), key=lambda pair: pair[0]
+    )
+    merged: list[dict] = []
+    for start, record in spans:
+        end = record.get("end")
+        end = None if end is None or pd.isna(end) else to_utc(end, "incident end")
+        last = merged[-1] if merged else None
+        if last is not None and (last["end"] is None or start <= last["end"]):
+            last["end"] = None if end is None or last["end"] is None else max(last["end"], end)
+            last["members"].append(record)
+        else:
+            merged.append({"start": start, "end": end, "title": record.get("title", ""),
+                           "members": [record]})  # fmt: skip
+    return merged

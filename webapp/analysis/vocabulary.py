@@ -11,6 +11,7 @@ __all__ = [
     "DIRECTIONS",
     "RULE_FIELDS",
     "VERDICTS",
+    "INCIDENT_SOURCES",
     "OWNER_DECIDES",
     "SWEEP_LEVEL",
     "KIND_NAMES",
@@ -65,15 +66,20 @@ RULE_FIELDS = (
     "good_series_id",
 )
 
-#: What a drafted (and a recorded) verdict on an alert rule may say.
-VERDICTS = ("keep", "tune", "retire")
+#: What a recorded verdict on an alert rule may say (a draft says keep, tune or retire):
+#: replace means "swap it for a rule of another kind", its parameters describing that rule.
+VERDICTS = ("keep", "tune", "replace", "retire")
+
+#: Where a recorded incident came from: a review's incident window, a page marked as a real
+#: incident, or a line of an imported list.
+INCIDENT_SOURCES = ("review", "page", "list")
 
 #: Ends every drafted verdict and stands beside every verdict shown or exported.
 OWNER_DECIDES = (
     "whyfired only drafts this verdict from the replay's numbers; it does not decide. "
     "Retiring an alert can hide a real failure that did not happen to occur in these weeks: "
     "the service owner and the team's own paging policy decide whether the alert is kept, "
-    "tuned or retired."
+    "tuned, replaced or retired."
 )
 
 #: The explainer's time facts a review's timeline most often wants, in that order.

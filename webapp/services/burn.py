@@ -21,8 +21,8 @@ from webapp.analysis import (
     burn_sweep_grid,
     event_grid,
 )
-from webapp.services.replay import INCIDENT_SCOPES, analysed_rule
-from webapp.store import incidents as store_incidents
+from webapp.services.incidents import choose_incidents
+from webapp.services.replay import analysed_rule
 from webapp.store import series as store_series
 from webapp.store.models import AlertRule
 
@@ -45,7 +45,6 @@ class BurnReplay:
     sweep: pd.DataFrame
     grid: BurnGrid
     incidents: list[tuple[pd.Timestamp, pd.Timestamp | None]]
-    scope: str = "all"
 
     @property
     def current(self) -> tuple[float, str]:
@@ -73,18 +72,18 @@ def run_burn_replay(
     rule: AlertRule,
     info: store_series.SeriesInfo,
     grid: tuple[Sequence[float], Sequence[tuple[pd.Timedelta, pd.Timedelta]]] | None = None,
-    scope: str = "all",
+    add: Sequence[int] = (),
+    drop: Sequence[int] = (),
 ) -> BurnReplay:
     """Replay a burn-rate rule over all its stored events: firings, report, budget spent,
     burn rates and the what-if sweep over factors x window pairs (``grid``; the default is
     ``burn_sweep_grid``'s). Raises ValueError with a readable message."""
-    if scope not in INCIDENT_SCOPES:
-        raise ValueError(f"incidents must be one of {', '.join(INCIDENT_SCOPES)}, got {scope!r}")
     analysed = analysed_rule(rule)
     if not isinstance(analysed, BurnRateRule):
         raise ValueError(f"{rule.name!r} is a {rule.kind} rule, not a burn-rate rule")
     events = event_grid(read_events(session, rule, info), analysed.check_every)
-    incidents = store_incidents.incident_windows(session, None if scope == "all" else info.id)
+    keys = {s.id: s.key for s in store_series.list_series(session)}
+    incidents = choose_incidents(session, info.id, add, drop, keys).windows
     factors, pairs = grid or burn_sweep_grid(analysed)
     used = (
         sorted({*factors, *(w.factor for w in analysed.conditions)}),
@@ -105,5 +104,4 @@ def run_burn_replay(
         sweep=burn_sweep(events, analysed, *used, incidents),
         grid=used,
         incidents=[(pd.Timestamp(a), pd.Timestamp(b)) for a, b in incidents],
-        scope=scope,
     )

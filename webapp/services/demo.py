@@ -4,7 +4,8 @@ store and analysis functions the app uses (the explanations are computed, then f
 
 The scenario brings the points, alert rules, pages, excluded periods and incidents; each
 incident becomes a review tied to the page it caused, with a frozen explanation of the
-paging series attached and the page's firing on its timeline.
+paging series attached and the page's firing on its timeline (and so an incident on that
+series); an imported list of incidents comes with it.
 """
 
 from __future__ import annotations
@@ -17,6 +18,7 @@ from sqlalchemy.orm import Session
 from webapp.analysis import explain, past_weeks_overlay
 from webapp.store import attachments as store_attachments
 from webapp.store import excluded, explanations, pages, reviews, rules
+from webapp.store import incidents as store_incidents
 from webapp.store import timeline as store_timeline
 from webapp.store.imports import record_import
 from webapp.store.models import Page, Series
@@ -72,6 +74,7 @@ def load_demo(session: Session, demo: Any) -> dict[str, int]:
     made = [(_review(session, i, page_rows, ids), i) for i in demo.incidents]
     tz = getattr(demo, "tz", "UTC")
     saved = sum(_attach_explanation(session, r, i, ids, tz) for r, i in made)
+    listed = store_incidents.add_incident_list(session, demo.incident_list, demo.list_name)
     return {
         "points": summary.points,
         "series": len(ids),
@@ -79,6 +82,7 @@ def load_demo(session: Session, demo: Any) -> dict[str, int]:
         "pages": len(page_rows),
         "excluded_periods": len(demo.excluded),
         "reviews": len(demo.incidents),
+        "listed_incidents": listed,
         "explanations": saved,
     }
 

@@ -13,8 +13,8 @@ from webapp.analysis import BandRule, RuleReplay, RuleReplayResult, band_grid, r
 from webapp.analysis.vocabulary import RULE_FIELDS
 from webapp.services.cache import Recent
 from webapp.services.explain import data_version
+from webapp.services.incidents import IncidentChoice, choose_incidents
 from webapp.store import excluded as store_excluded
-from webapp.store import incidents as store_incidents
 from webapp.store import series as store_series
 from webapp.store.models import AlertRule
 
@@ -60,9 +60,6 @@ def firing_rows(firings: pd.DataFrame, limit: int = 500) -> list[dict[str, Any]]
     ]
 
 
-INCIDENT_SCOPES = ("all", "series")
-
-
 @dataclass(frozen=True)
 class Replay:
     """Everything the replay page shows for one rule on one series."""
@@ -70,7 +67,7 @@ class Replay:
     series: store_series.SeriesInfo
     result: RuleReplayResult
     values: pd.Series
-    scope: str = "all"
+    choice: IncidentChoice
 
     @property
     def rule(self) -> Any:
@@ -102,29 +99,28 @@ def run_replay(
     rule: AlertRule,
     info: store_series.SeriesInfo,
     grid: tuple[list[float], list[pd.Timedelta]] | None = None,
-    scope: str = "all",
+    add: list[int] | None = None,
+    drop: list[int] | None = None,
 ) -> Replay:
-    """Replay ``rule`` over all of one series' history against recorded incidents: every
-    review's incident window (``scope="all"``: a rule is judged by the incidents of the
-    service, not only those its own series was tied to) or only those of reviews tied to
-    this series (``scope="series"``). A band rule's bands leave out the series' excluded
-    periods, so past incidents do not teach the band what is expected.
+    """Replay ``rule`` over all of one series' history against the incidents of its own
+    scope (``webapp.services.incidents``; ``add`` and ``drop`` change the choice by incident
+    id). A band rule's bands leave out the series' excluded periods, so past incidents do
+    not teach the band what is expected.
 
     ``grid`` (thresholds, or a band rule's tolerances, and holds) replaces the default
     what-if sweep. Raises ValueError with a readable message when the rule or the data
     cannot be replayed."""
-    if scope not in INCIDENT_SCOPES:
-        raise ValueError(f"incidents must be one of {', '.join(INCIDENT_SCOPES)}, got {scope!r}")
     analysed = analysed_rule(rule)
     version = (info.id, *data_version(session, info))
     values = _points.get(version, lambda: store_series.read_series(session, info.id).dropna())
     if values.empty:
         raise ValueError(f"{info.key} has no stored points to replay over")
-    incidents = store_incidents.incident_windows(session, None if scope == "all" else info.id)
+    keys = {s.id: s.key for s in store_series.list_series(session)}
+    choice = choose_incidents(session, info.id, add or (), drop or (), keys)
     exclude = store_excluded.periods_for(session, info.id)
     bands = band_fit(version, values, analysed, exclude)
-    result = RuleReplay(values, analysed, incidents, exclude, grid, bands).fit()
-    return Replay(info, result, values, scope)
+    result = RuleReplay(values, analysed, choice.windows, exclude, grid, bands).fit()
+    return Replay(info, result, values, choice)
 
 
 # The points and a band rule's daily fits, kept by data version: replaying again (another

@@ -151,7 +151,7 @@ def review_context(session: Session, review_id: int, tz: str = "UTC") -> dict[st
         "sections": [(label, getattr(review, name)) for name, label in SECTIONS],
         "evidence": review_evidence(session, review, tz),
         "verdict_warning": OWNER_DECIDES,
-        "verdict_rationale": without_caution(review.verdict_rationale),
+        "without_caution": without_caution,
         "exported_at": dt.datetime.now(dt.UTC),
         "tz": tz,
     }

@@ -59,21 +59,21 @@ class KindComparison:
 
 
 def compare_kinds(
-    session: Session, rule: AlertRule, info: store_series.SeriesInfo, scope: str = "all"
+    session: Session, rule: AlertRule, info: store_series.SeriesInfo
 ) -> KindComparison:
     """Replay every kind over ``info``'s history against the rule's incidents. Raises
     ValueError with a readable message when the rule itself cannot be replayed."""
     notes: list[str] = []
     own: dict[str, KindRow] = {}
     if rule.kind == "burn_rate":
-        burn = run_burn_replay(session, rule, info, scope=scope)
+        burn = run_burn_replay(session, rule, info)
         current, incidents = kind_row("burn_rate", "as it is", burn.report), burn.incidents
         values = store_series.read_series(session, info.id).dropna()
         own["burn_rate"] = _best_burn(
             burn.rule, burn.events, incidents, max(current.pages_per_week, WEEKLY)
         )
     else:
-        replay = run_replay(session, rule, info, scope=scope)
+        replay = run_replay(session, rule, info)
         current, values, incidents = (
             kind_row(rule.kind, "as it is", replay.report),
             replay.values,

@@ -6,6 +6,7 @@ from collections.abc import Iterable
 
 from sqlalchemy.orm import Session
 
+from webapp.store import incidents as store_incidents
 from webapp.store._sql import ReviewInvalid, child_of, flush_unique
 from webapp.store.models import Explanation, Review, ReviewExplanation
 from webapp.store.versions import claim
@@ -26,6 +27,7 @@ def attach_explanation(
     )
     review.attachments.append(attachment)
     flush_unique(session, already)
+    store_incidents.sync_review(session, review)
     return attachment
 
 
@@ -73,3 +75,4 @@ def detach_explanation(session: Session, review: Review, attachment_id: int) -> 
     for position, attachment in enumerate(sorted(review.attachments, key=lambda a: a.position)):
         attachment.position = position
     session.flush()
+    store_incidents.sync_review(session, review)

@@ -122,14 +122,36 @@ def alembic_config(connection: Any = None) -> Config:
     return config
 
 
+@contextmanager
+def _migrating(engine: Engine) -> Iterator[Any]:
+    """One transaction for a migration run. On SQLite, foreign keys are off meanwhile: a
+    batch ALTER rebuilds a table by dropping the old one, and with keys on that drop would
+    cascade to the rows that refer to it (SQLite's own advice for altering tables). The
+    pragma only takes effect outside a transaction, so it is set on the driver connection
+    before the transaction begins."""
+    with engine.connect() as connection:
+        driver = (
+            connection.connection.driver_connection if engine.dialect.name == "sqlite" else None
+        )
+        if driver is not None:
+            driver.execute("PRAGMA foreign_keys = OFF")
+        try:
+            with connection.begin():
+                yield connection
+        finally:
+            if driver is not None:
+                driver.execute("PRAGMA foreign_keys = ON")
+
+
 def upgrade(engine: Engine, revision: str = "head") -> None:
     """Bring the schema to ``revision`` (the latest by default). Runs that start together
-    take turns (PostgreSQL's migrations lock): the later one finds the work done."""
+    take turns (PostgreSQL's migrations lock; on SQLite, BEGIN IMMEDIATE): the later one
+    finds the work done."""
     from alembic import command
 
     from webapp.store import locks
 
-    with engine.begin() as connection:  # on SQLite, BEGIN IMMEDIATE: upgrades take turns
+    with _migrating(engine) as connection:
         locks.hold(connection, locks.MIGRATIONS)
         command.upgrade(alembic_config(connection), revision)
 
@@ -137,7 +159,7 @@ def upgrade(engine: Engine, revision: str = "head") -> None:
 def downgrade(engine: Engine, revision: str) -> None:
     from alembic import command
 
-    with engine.begin() as connection:
+    with _migrating(engine) as connection:
         command.downgrade(alembic_config(connection), revision)
 
 

@@ -192,6 +192,30 @@ class Page(Base):
     resolved_at: Mapped[dt.datetime | None] = mapped_column(UTCDateTime)
     rule_text: Mapped[str] = mapped_column(Text, default="")
     note: Mapped[str] = mapped_column(Text, default="")
+    # Marked by the reviewer: this page was real trouble (it is then also an incident).
+    real_incident: Mapped[bool] = mapped_column(Boolean, default=False)
+    created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
+
+
+class Incident(Base):
+    """A span of real trouble on a scope: one series, or a metric and a label filter (every
+    series of the metric whose labels include it). ``source`` says where it came from: a
+    review's incident window, a page marked real, or an imported list; overlapping ones of
+    one scope are merged when read (``webapp.analysis._incidents.merge_incidents``)."""
+
+    __tablename__ = "incidents"
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    start: Mapped[dt.datetime] = mapped_column(UTCDateTime, index=True)
+    end: Mapped[dt.datetime | None] = mapped_column(UTCDateTime)  # None: still open
+    title: Mapped[str] = mapped_column(String(300), default="")
+    series_id: Mapped[int | None] = mapped_column(ForeignKey("series.id", ondelete="CASCADE"))
+    metric: Mapped[str | None] = mapped_column(String(500))
+    label_filter: Mapped[dict[str, str]] = mapped_column(JSON, default=dict)
+    source: Mapped[str] = mapped_column(String(10))  # review | page | list
+    review_id: Mapped[int | None] = mapped_column(ForeignKey("reviews.id", ondelete="CASCADE"))
+    page_id: Mapped[int | None] = mapped_column(ForeignKey("pages.id", ondelete="CASCADE"))
+    list_name: Mapped[str] = mapped_column(String(500), default="")  # the imported file's name
     created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
 
 
@@ -254,9 +278,6 @@ class Review(Base):
     alert_rule_id: Mapped[int | None] = mapped_column(
         ForeignKey("alert_rules.id", ondelete="SET NULL")
     )
-    verdict: Mapped[str | None] = mapped_column(String(10))  # keep | tune | retire
-    verdict_parameters: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
-    verdict_rationale: Mapped[str] = mapped_column(Text, default="")
     exclude_from_baselines: Mapped[bool] = mapped_column(Boolean, default=True)
     # Bumped by every edit of the fields above the verdict (webapp.store.versions).
     version: Mapped[int] = mapped_column(Integer, default=1, server_default="1")
@@ -274,6 +295,32 @@ class Review(Base):
     attachments: Mapped[list[ReviewExplanation]] = relationship(
         back_populates="review", cascade="all, delete-orphan", order_by="ReviewExplanation.position"
     )
+    verdicts: Mapped[list[ReviewVerdict]] = relationship(
+        back_populates="review", cascade="all, delete-orphan", order_by="ReviewVerdict.id"
+    )
+
+
+class ReviewVerdict(Base):
+    """A review's decision on one alert rule it discusses: keep, tune (``parameters`` are the
+    new ones), replace (``parameters`` describe the other kind) or retire, with the evidence
+    numbers it rests on (pages per week, incidents caught, ...)."""
+
+    __tablename__ = "review_verdicts"
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    review_id: Mapped[int] = mapped_column(ForeignKey("reviews.id", ondelete="CASCADE"))
+    alert_rule_id: Mapped[int | None] = mapped_column(
+        ForeignKey("alert_rules.id", ondelete="SET NULL")
+    )
+    rule_name: Mapped[str] = mapped_column(String(200), default="")  # kept if the rule goes
+    decision: Mapped[str] = mapped_column(String(10))  # keep | tune | replace | retire
+    parameters: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
+    evidence: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
+    rationale: Mapped[str] = mapped_column(Text, default="")
+    created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
+    updated_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow, onupdate=utcnow)
+
+    review: Mapped[Review] = relationship(back_populates="verdicts")
 
 
 class TimelineEntry(Base):

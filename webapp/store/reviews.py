@@ -16,8 +16,9 @@ from typing import Any
 from sqlalchemy import or_, select
 from sqlalchemy.orm import Session
 
+from webapp.store import incidents as store_incidents
 from webapp.store._sql import ReviewInvalid as ReviewInvalid
-from webapp.store.models import ActionItem, Page, Review, TimelineEntry
+from webapp.store.models import ActionItem, Page, Review, ReviewVerdict, TimelineEntry
 from webapp.store.times import utc_datetime
 from webapp.store.versions import claim
 
@@ -124,6 +125,7 @@ def create_review(session: Session, data: Mapping[str, Any], tz: str = "UTC") ->
     review = Review(**values)
     session.add(review)
     session.flush()
+    store_incidents.sync_review(session, review)
     return review
 
 
@@ -143,6 +145,7 @@ def update_review(
     for name, value in values.items():
         setattr(review, name, value)
     session.flush()
+    store_incidents.sync_review(session, review)
     return review
 
 
@@ -167,6 +170,8 @@ def autosave_review(
         for name in saved:
             setattr(review, name, values[name])
         session.flush()
+    if {"incident_start", "incident_end", "page_id", "title"} & set(saved):
+        store_incidents.sync_review(session, review)
     return saved, errors
 
 
@@ -185,12 +190,13 @@ def list_reviews(session: Session, q: str | None = None, status: str | None = No
     stmt = select(Review)
     for word in (q or "").split():
         pattern = f"%{word}%"
-        columns = [Review.title, Review.severity, Review.verdict_rationale]
+        columns = [Review.title, Review.severity]
         columns += [getattr(Review, n) for n in TEXT_FIELDS]
         stmt = stmt.where(
             or_(
                 *(c.ilike(pattern) for c in columns),
                 Review.timeline.any(TimelineEntry.text.ilike(pattern)),
+                Review.verdicts.any(ReviewVerdict.rationale.ilike(pattern)),
                 Review.action_items.any(
                     or_(ActionItem.text.ilike(pattern), ActionItem.owner.ilike(pattern))
                 ),

@@ -1,5 +1,6 @@
-"""The verdict a review records on the alert rule that paged: keep, tune (with its new
-parameters) or retire. The tool drafts; the service owner decides."""
+"""A review's verdicts, one per alert rule it discusses: keep, tune (with the new parameters),
+replace (with a rule of another kind, its parameters given) or retire, each with the evidence
+numbers it rests on. The tool drafts; the service owner decides."""
 
 from __future__ import annotations
 
@@ -9,30 +10,57 @@ from typing import Any
 from sqlalchemy.orm import Session
 
 from webapp.analysis.vocabulary import VERDICTS
-from webapp.store._sql import ReviewInvalid
-from webapp.store.models import Review
+from webapp.store._sql import ReviewInvalid, child_of
+from webapp.store.models import AlertRule, Review, ReviewVerdict
+
+NEEDS_PARAMETERS = {
+    "tune": "A tuned rule needs its new parameters.",
+    "replace": "A replacement needs the other rule's kind and parameters.",
+}
 
 
-def set_verdict(
+def record_verdict(
     session: Session,
     review: Review,
-    verdict: str | None,
+    alert_rule_id: int | None,
+    decision: str | None,
     *,
     parameters: Mapping[str, Any] | None = None,
+    evidence: Mapping[str, Any] | None = None,
     rationale: str = "",
-    alert_rule_id: int | None = None,
-) -> Review:
-    """Record keep / tune (with its new parameters) / retire, or clear it with None."""
-    verdict = (verdict or "").strip() or None
-    if verdict is not None and verdict not in VERDICTS:
-        raise ReviewInvalid({"verdict": f"The verdict must be one of {', '.join(VERDICTS)}."})
+    verdict_id: int | None = None,
+) -> ReviewVerdict:
+    """Record the review's verdict on one rule: a new one, or the rule's existing verdict
+    (or ``verdict_id``) updated. Raises ReviewInvalid with one message per field."""
+    decision = (decision or "").strip()
+    errors: dict[str, str] = {}
+    if decision not in VERDICTS:
+        errors["verdict"] = f"The verdict must be one of {', '.join(VERDICTS)}."
+    rule = session.get(AlertRule, alert_rule_id) if alert_rule_id is not None else None
+    if rule is None:
+        errors["alert_rule_id"] = "Pick the alert rule this verdict is about."
     parameters = dict(parameters or {})
-    if verdict == "tune" and not parameters:
-        raise ReviewInvalid({"verdict_parameters": "A tuned rule needs its new parameters."})
-    review.verdict = verdict
-    review.verdict_parameters = parameters if verdict == "tune" else {}
-    review.verdict_rationale = (rationale or "").strip()
-    if alert_rule_id is not None:
-        review.alert_rule_id = alert_rule_id
+    if decision in NEEDS_PARAMETERS and not parameters:
+        errors["verdict_parameters"] = NEEDS_PARAMETERS[decision]
+    if errors:
+        raise ReviewInvalid(errors)
+    if verdict_id is not None:
+        row = child_of(review.verdicts, verdict_id, "verdict")
+    else:
+        row = next((v for v in review.verdicts if v.alert_rule_id == rule.id), None)
+    if row is None:
+        row = ReviewVerdict(decision=decision)
+        review.verdicts.append(row)
+    row.alert_rule_id = rule.id
+    row.rule_name = rule.name
+    row.decision = decision
+    row.parameters = parameters if decision in NEEDS_PARAMETERS else {}
+    row.evidence = dict(evidence or {})
+    row.rationale = (rationale or "").strip()
     session.flush()
-    return review
+    return row
+
+
+def delete_verdict(session: Session, review: Review, verdict_id: int) -> None:
+    review.verdicts.remove(child_of(review.verdicts, verdict_id, "verdict"))
+    session.flush()

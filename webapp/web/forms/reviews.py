@@ -14,7 +14,7 @@ from sqlalchemy.orm import Session
 
 from webapp.store import verdicts
 from webapp.store._sql import ReviewInvalid
-from webapp.store.models import ActionItem, Review
+from webapp.store.models import ActionItem, Review, ReviewVerdict
 from webapp.store.reviews import REVIEW_FIELDS
 from webapp.store.versions import EditConflict
 
@@ -104,8 +104,9 @@ def _ticked(value: Any) -> bool:
     return bool(value)
 
 
-def parse_parameters(text: str) -> dict[str, Any]:
-    """``name: value`` lines (as the verdict form shows them) to a dict; numbers as floats."""
+def parse_parameters(text: str, field: str = "verdict_parameters") -> dict[str, Any]:
+    """``name: value`` lines (as the verdict form shows them) to a dict; numbers as floats.
+    A line that is not ``name: value`` is reported against ``field``."""
     out: dict[str, Any] = {}
     for number, line in enumerate((text or "").splitlines(), start=1):
         if not line.strip():
@@ -113,7 +114,7 @@ def parse_parameters(text: str) -> dict[str, Any]:
         name, sep, value = line.partition(":")
         if not sep or not name.strip():
             raise ReviewInvalid(
-                {"verdict_parameters": f"Line {number} should read name: value, e.g. hold: 10min."}
+                {field: f"Line {number} should read name: value, e.g. hold: 10min."}
             )
         value = value.strip()
         try:
@@ -132,14 +133,21 @@ def format_parameters(parameters: Mapping[str, Any]) -> str:
 
 def record_verdict(
     session: Session, review: Review, form: Mapping[str, str], alert_rule_id: int | None = None
-) -> Review:
-    """The verdict as a form sends it: ``verdict``, ``verdict_parameters`` (``name: value``
-    lines) and ``verdict_rationale``."""
-    return verdicts.set_verdict(
+) -> ReviewVerdict:
+    """A verdict on one rule as a form sends it: ``alert_rule_id`` (unless given),
+    ``verdict``, ``verdict_parameters`` and ``verdict_evidence`` (``name: value`` lines),
+    ``verdict_rationale``, and ``verdict_id`` when an existing verdict is edited."""
+    if alert_rule_id is None:
+        raw = str(form.get("alert_rule_id") or "").strip()
+        alert_rule_id = int(raw) if raw.isdigit() else None
+    raw_id = str(form.get("verdict_id") or "").strip()
+    return verdicts.record_verdict(
         session,
         review,
+        alert_rule_id,
         form.get("verdict"),
         parameters=parse_parameters(form.get("verdict_parameters", "")),
+        evidence=parse_parameters(form.get("verdict_evidence", ""), "verdict_evidence"),
         rationale=form.get("verdict_rationale", ""),
-        alert_rule_id=alert_rule_id,
+        verdict_id=int(raw_id) if raw_id.isdigit() else None,
     )

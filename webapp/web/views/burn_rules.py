@@ -25,14 +25,13 @@ from webapp.web.htmx import render
 def show(rule: AlertRule, candidates: list[SeriesInfo], info: SeriesInfo | None, lazy: bool):
     """The rule's page (``lazy``: the replay follows through htmx) or its replay fragment."""
     replay, problem, sweep_errors = None, None, {}
-    scope = request.values.get("incidents", "all")
     if info is None:
         problem = "No stored series matches this rule yet. Import its events, or edit the rule."
     elif not lazy:
         limits = (current_app.config["MAX_SWEEP_LEVELS"], current_app.config["MAX_SWEEP_HOLDS"])
         grid, sweep_errors = parse_burn_sweep(request.args, *limits)
         try:
-            replay = run_burn_replay(db.get_session(), rule, info, grid, scope)
+            replay = run_burn_replay(db.get_session(), rule, info, grid)
         except ValueError as err:
             problem = f"This rule cannot be replayed: {err}."
     return render(
@@ -50,7 +49,6 @@ def show(rule: AlertRule, candidates: list[SeriesInfo], info: SeriesInfo | None,
         firings=firing_rows(replay.report.firings) if replay else [],
         sweep_values=_sweep_values(replay, request.args),
         sweep_errors=sweep_errors,
-        scope=scope,
         verdict_warning=OWNER_DECIDES,
         tz=TZ,
     )

@@ -23,6 +23,7 @@ from webapp.store import pages as store_pages
 from webapp.store import reviews as store
 from webapp.store import rules as store_rules
 from webapp.store import timeline as store_timeline
+from webapp.store import verdicts as store_verdicts
 from webapp.store.models import Review
 from webapp.store.reviews import ReviewInvalid
 from webapp.store.versions import EditConflict, sent_version
@@ -169,6 +170,7 @@ def _show(
         forms=forms or {},
         errors=errors or {},
         verdict_warning=OWNER_DECIDES,
+        edit_verdict=request.args.get("edit_verdict", type=int),
         format_parameters=review_forms.format_parameters,
         fact_label=fact_label,
         tz=TZ,
@@ -408,15 +410,25 @@ def delete_action(review_id: int, item_id: int) -> Any:
 
 @bp.post("/reviews/<int:review_id>/verdict")
 def verdict(review_id: int) -> Any:
-    f = request.form
+    """Record the review's verdict on one rule (a new one, or that rule's updated)."""
+    return _change(
+        review_id,
+        "verdict",
+        "verdict",
+        lambda s, r: review_forms.record_verdict(s, r, request.form),
+        "Verdict recorded.",
+    )
 
-    def change(session: Any, review: Review) -> None:
-        rule_id = f.get("alert_rule_id", "").strip()
-        review_forms.record_verdict(
-            session, review, f, _int(rule_id, "alert_rule_id") if rule_id else None
-        )
 
-    return _change(review_id, "verdict", "verdict", change, "Verdict recorded.")
+@bp.post("/reviews/<int:review_id>/verdicts/<int:verdict_id>/delete")
+def delete_verdict(review_id: int, verdict_id: int) -> Any:
+    return _change(
+        review_id,
+        "verdict",
+        "verdict",
+        lambda s, r: store_verdicts.delete_verdict(s, r, verdict_id),
+        "Verdict removed.",
+    )
 
 
 def _int(value: Any, field: str) -> int:

@@ -32,7 +32,7 @@ def kinds(rule_id: int) -> Any:
         problem = "No stored series matches this rule yet, so there is nothing to compare."
     else:
         try:
-            comparison = compare_kinds(session, rule, info, request.args.get("incidents", "all"))
+            comparison = compare_kinds(session, rule, info)
         except ValueError as err:
             problem = f"The rule kinds cannot be compared: {err}."
     return render_template(

@@ -12,7 +12,9 @@ from sqlalchemy.orm import Session
 
 from webapp.analysis.times import short_duration
 from webapp.analysis.vocabulary import OWNER_DECIDES
+from webapp.services.incidents import ids_from
 from webapp.services.replay import TZ, Replay, firing_rows, matching_series, rule_text, run_replay
+from webapp.services.verdicts import evidence_numbers
 from webapp.store import db
 from webapp.store import incidents as store_incidents
 from webapp.store import reviews as store_reviews
@@ -151,10 +153,15 @@ def replay_data(rule_id: int, fmt: str) -> Any:
     if info is None:
         abort(404, description="No stored series matches this rule yet, so there is no replay.")
     try:
-        replay = run_replay(session, rule, info, None, request.args.get("incidents", "all"))
+        add, drop = (ids_from(request.args.getlist(n)) for n in ("add", "drop"))
+        replay = run_replay(session, rule, info, None, add, drop)
     except ValueError as err:
         abort(400, description=f"This rule cannot be replayed: {err}.")
-    extra = {"rule": rule.name, "series": info.key, "incidents": replay.scope}
+    counted = [
+        [str(i["start"]), None if i["end"] is None else str(i["end"])]
+        for i in replay.choice.counted
+    ]
+    extra = {"rule": rule.name, "series": info.key, "incidents": counted}
     return download(replay.report, fmt, f"replay-rule-{rule.id}", extra)
 
 
@@ -164,6 +171,7 @@ def _show(
     errors: Mapping[str, str] | None = None,
     *,
     lazy: bool = False,
+    import_errors: list[str] | None = None,
 ):
     session = db.get_session()
     candidates = matching_series(session, rule)
@@ -171,7 +179,6 @@ def _show(
     if rule.kind == "burn_rate":
         return burn_rules.show(rule, candidates, info, lazy)
     replay, problem, sweep_errors = None, None, {}
-    scope = request.values.get("incidents", "all")
     level = sweep_level(rule.kind)
     if info is None:
         problem = (
@@ -181,7 +188,8 @@ def _show(
         limits = (current_app.config["MAX_SWEEP_LEVELS"], current_app.config["MAX_SWEEP_HOLDS"])
         grid, sweep_errors = parse_sweep(request.args, level, *limits)
         try:
-            replay = run_replay(session, rule, info, grid, scope)
+            add, drop = (ids_from(request.values.getlist(n)) for n in ("add", "drop"))
+            replay = run_replay(session, rule, info, grid, add, drop)
         except ValueError as err:
             problem = f"This rule cannot be replayed: {err}."
     reviews = _reviews_for(session, info.id if info else None)
@@ -203,7 +211,7 @@ def _show(
         level=level,
         sweep_values=_sweep_values(replay, request.args, f"{level}s"),
         sweep_errors=sweep_errors,
-        scope=scope,
+        import_errors=import_errors or [],
         verdict_warning=OWNER_DECIDES,
         tz=TZ,
     )
@@ -266,13 +274,15 @@ def _verdict_values(
         "review_id": str((tied or reviews or [None])[0].id) if (tied or reviews) else "",
         "verdict": replay.draft.suggestion,
         "verdict_parameters": review_forms.format_parameters(parameters),
+        "verdict_evidence": review_forms.format_parameters(evidence_numbers(replay.report)),
         "verdict_rationale": replay.draft.rationale,
     }
 
 
 @bp.post("/rules/<int:rule_id>/verdict")
 def carry_verdict(rule_id: int) -> Any:
-    """Record the (possibly edited) drafted verdict in the chosen review."""
+    """Record the (possibly edited) drafted verdict in the chosen review: this rule's
+    verdict there is added, or updated when it has one."""
     session = db.get_session()
     rule = load_rule(rule_id)
     f = request.form
@@ -281,10 +291,10 @@ def carry_verdict(rule_id: int) -> Any:
     try:
         if review is None:
             raise ReviewInvalid({"review_id": "Pick the review that records this verdict."})
-        review_forms.record_verdict(session, review, f, rule.id)
+        recorded = review_forms.record_verdict(session, review, f, rule.id)
     except ReviewInvalid as err:
         session.rollback()
         return _show(load_rule(rule_id), f, err.errors)
     session.commit()
-    flash(f"Verdict “{review.verdict}” recorded in review #{review.id}.")
+    flash(f"Verdict “{recorded.decision}” on “{rule.name}” recorded in review #{review.id}.")
     return redirect(url_for("reviews.show", review_id=review.id, _anchor="verdict"))
