@@ -17,11 +17,11 @@ from webapp.analysis.times import local_time, long_duration, to_timestamp
 
 
 def input_time(value: Any, tz: str = "UTC") -> str:
-    """The value for an ``<input type="datetime-local">`` in ``tz``."""
+    """A time as typed into a 24-hour time field (``YYYY-MM-DD HH:MM``) in ``tz``."""
     ts = to_timestamp(value)
     if ts is None:
         return ""
-    return ts.tz_convert(ZoneInfo(tz)).strftime("%Y-%m-%dT%H:%M")
+    return ts.tz_convert(ZoneInfo(tz)).strftime("%Y-%m-%d %H:%M")
 
 
 def number(value: Any, digits: int = 4) -> str:

@@ -293,7 +293,9 @@ def overlay_figure(
     if {"p10", "p90"} <= set(overlay.columns):
         spread = reduce_together(overlay, ["p10", "p90"], n_out)
         traces.extend(
-            _band_traces(spread, "p10", "p90", tz, "p10–p90 of past weeks", palette.ORANGE, 0.22)
+            _band_traces(
+                spread, "p10", "p90", tz, "p10–p90 of past weeks", palette.OVERLAY_MEDIAN, 0.22
+            )
         )
     weeks = sorted((c for c in overlay.columns if c.startswith("week_")), key=lambda c: -int(c[5:]))
     for i, column in enumerate(weeks):
@@ -314,7 +316,8 @@ def overlay_figure(
         )
     if "median" in overlay:
         x, y = _points(overlay, "median", n_out, None)
-        traces.append(style.line(x, y, tz, "median of past weeks", palette.ORANGE, width=2.2))
+        median = style.line(x, y, tz, "median of past weeks", palette.OVERLAY_MEDIAN, width=2.2)
+        traces.append(median)
     window = window_of(frame)
     if window is not None:
         x, y = _points(clip(frame, *window), "value", n_out, None)

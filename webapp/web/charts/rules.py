@@ -17,7 +17,7 @@ from webapp.web.charts.style import wall_clock
 MAX_SHADES = 300
 # Holds are told apart by marker shape as well as colour.
 SYMBOLS = ("circle", "square", "diamond", "triangle-up", "cross", "x", "pentagon", "hexagon")
-COLOURS = tuple(c for c in palette.OKABE_ITO if c not in (palette.YELLOW, palette.BLACK))
+COLOURS = palette.LINES
 
 
 def _layout(fig: go.Figure, height: int, x_title: str, y_title: str) -> go.Figure:
