@@ -89,7 +89,7 @@ def test_bad_tolerance_is_a_400(client, stored, url_for_explain):
     for bad in ("abc", "-1", "100", "nan"):
         response = client.get(url_for_explain(stored, tolerance=bad))
         assert response.status_code == 400
-        assert "tolerance" in response.get_data(as_text=True)
+        assert "band width" in response.get_data(as_text=True)
 
 
 def test_bad_window_is_a_400(client, stored):

@@ -14,6 +14,7 @@ from flask import Flask, url_for
 from werkzeug.routing import BuildError
 
 from webapp.analysis.times import local_time, long_duration, to_timestamp
+from webapp.analysis.vocabulary import BAND_WIDTH_HELP, level_words
 
 
 def input_time(value: Any, tz: str = "UTC") -> str:
@@ -80,6 +81,8 @@ def time_zones() -> list[str]:
 def init_app(app: Flask) -> None:
     app.add_template_global(time_zones, "time_zones")
     app.add_template_global(endpoint_url, "endpoint_url")
+    app.add_template_global(level_words, "level_words")
+    app.add_template_global(BAND_WIDTH_HELP, "band_width_help")
     for name, fn in {
         "local_time": local_time,
         "input_time": input_time,

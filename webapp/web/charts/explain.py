@@ -87,10 +87,12 @@ def _band_traces(
     high: str,
     tz: str,
     name: str,
-    colour: str,
+    colours: tuple[str, str],
     alpha: float,
     **kw: object,
 ) -> list[dict]:
+    """A filled band between two columns; ``colours`` is (edge line, fill)."""
+    colour, fill = colours
     x = style.wall_clock(rows.index, tz)
     edge = {"color": colour, "width": 0.6}
     common = {"type": "scatter", "x": x, "mode": "lines", "line": edge, "name": name}
@@ -107,7 +109,7 @@ def _band_traces(
             **common,
             "y": rows[high].to_numpy(dtype="float64", na_value=np.nan),
             "fill": "tonexty",
-            "fillcolor": palette.rgba(colour, alpha),
+            "fillcolor": palette.rgba(fill, alpha),
             "legendgroup": name,
             "hoverinfo": "skip",
             **kw,
@@ -214,7 +216,7 @@ def band_figure(
     vermillion, the window itself tinted yellow, page times as dotted lines."""
     view = view or default_view(frame)
     band = _rows(frame, ["lower", "upper", "expected"], n_out, view)
-    traces = _band_traces(band, "lower", "upper", tz, "expected band", palette.BAND_EDGE, 0.32)
+    traces = _band_traces(band, "lower", "upper", tz, "expected band", palette.BAND, 0.32)
     traces.append(
         style.line(band.index, band["expected"], tz, "expected", palette.EXPECTED, dash="dash")
     )
@@ -294,7 +296,7 @@ def overlay_figure(
         spread = reduce_together(overlay, ["p10", "p90"], n_out)
         traces.extend(
             _band_traces(
-                spread, "p10", "p90", tz, "p10–p90 of past weeks", palette.OVERLAY_MEDIAN, 0.22
+                spread, "p10", "p90", tz, "p10–p90 of past weeks", palette.OVERLAY_BAND, 0.22
             )
         )
     weeks = sorted((c for c in overlay.columns if c.startswith("week_")), key=lambda c: -int(c[5:]))
@@ -402,9 +404,7 @@ def components_figure(
     band = _rows(with_half, ["neg_half", "half"], n_row, view)
     traces.extend(
         on_row(t, rows)
-        for t in _band_traces(
-            band, "neg_half", "half", tz, "band half-width", palette.BAND_EDGE, 0.28
-        )
+        for t in _band_traces(band, "neg_half", "half", tz, "band half-width", palette.BAND, 0.28)
     )
     x, y = _points(frame, "residual", n_row, view)
     traces.append(on_row(style.line(x, y, tz, "residual", palette.RESIDUAL, width=1.1), rows))
