@@ -293,7 +293,7 @@ def test_demo_queue_rule_is_judged_against_every_recorded_incident(demo_app, dem
 
 @pytest.fixture
 def band_rule(session, watched):
-    """Outside the expected band at tolerance 3 for 10 minutes: the band needs two weeks of
+    """Outside the expected band at band width 3σ for 10 minutes: the band needs two weeks of
     history, so only the third week (and its burst) is replayed."""
     row = store_rules.create_rule(
         session,
