@@ -60,8 +60,8 @@
     var controls = document.getElementById("controls");
     if (!offer || !controls) return;
     offer.hidden = !range;
-    offer.dataset.start = range ? String(range[0]).slice(0, 16).replace(" ", "T") : "";
-    offer.dataset.end = range ? String(range[1]).slice(0, 16).replace(" ", "T") : "";
+    offer.dataset.start = range ? String(range[0]).slice(0, 16) : "";
+    offer.dataset.end = range ? String(range[1]).slice(0, 16) : "";
   }
 
   function refine(el, event) {

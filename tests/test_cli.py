@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import socket
 from datetime import UTC, datetime
 from pathlib import Path
 
@@ -237,6 +238,19 @@ def test_serve_says_when_the_port_is_taken(runner, db_url, monkeypatch):
     result = runner.invoke(cli, ["serve", "--db", db_url])
     assert result.exit_code == 1
     assert "Address already in use" in result.output and "--port" in result.output
+
+
+@pytest.mark.parametrize("command", ["serve", "demo"])
+def test_a_port_already_listened_on_is_refused_before_any_address_or_work(runner, db_url, command):
+    with socket.socket() as taken:
+        taken.bind(("127.0.0.1", 0))
+        taken.listen()
+        port = str(taken.getsockname()[1])
+        result = runner.invoke(cli, [command, "--port", port, "--db", db_url])
+    assert result.exit_code == 1
+    assert f"cannot listen on 127.0.0.1:{port}" in result.output
+    assert "http://" not in result.output  # no address announced for a server that never ran
+    assert "Building the demo" not in result.output
 
 
 @pytest.mark.parametrize("command", ["serve", "demo"])

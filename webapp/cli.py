@@ -117,9 +117,7 @@ def _serve(url: str, host: str, port: int, team: bool = False) -> None:
     except RemoteAddressRefused as refusal:
         raise click.ClickException(str(refusal)) from None
     except OSError as err:
-        raise click.ClickException(
-            f"cannot listen on {host}:{port} ({err.strerror or err}); choose another --port"
-        ) from None
+        raise _cannot_listen(host, port, err) from None
     warm_in_background(app)
     click.echo(f"whyfired is at {address_for_people(host, port)} (press Ctrl+C to stop)")
     try:
@@ -130,11 +128,12 @@ def _serve(url: str, host: str, port: int, team: bool = False) -> None:
         server.close()
 
 
-def _refuse_remote_early(host: str) -> None:
-    """Refuse a non-loopback address before minutes of work, with the same rule as serving."""
+def _refuse_early(host: str, port: int) -> None:
+    """Refuse a non-loopback address, or a port already taken, before minutes of work,
+    with the same rule and message as serving."""
     from flask import Config
 
-    from webapp.serve import RemoteAddressRefused, check_address
+    from webapp.serve import RemoteAddressRefused, check_address, check_port_free
 
     config = Config(".")
     config.update(settings.defaults())
@@ -143,6 +142,16 @@ def _refuse_remote_early(host: str) -> None:
         check_address(host, bool(config["ALLOW_REMOTE"]))
     except RemoteAddressRefused as refusal:
         raise click.ClickException(str(refusal)) from None
+    try:
+        check_port_free(host, port)
+    except OSError as err:
+        raise _cannot_listen(host, port, err) from None
+
+
+def _cannot_listen(host: str, port: int, err: OSError) -> click.ClickException:
+    return click.ClickException(
+        f"cannot listen on {host}:{port} ({err.strerror or err}); choose another --port"
+    )
 
 
 @click.group(context_settings={"help_option_names": ["-h", "--help"]})
@@ -344,7 +353,7 @@ def demo(
     from webapp.store import db
 
     if not no_serve:
-        _refuse_remote_early(host)
+        _refuse_early(host, port)
     chosen = db_url or os.environ.get("WHYFIRED_DATABASE_URL")
     url = _announce(chosen or demo_database_url())
     with _database_errors(url):

@@ -61,6 +61,16 @@ def check_address(host: str, allow_remote: bool) -> None:
     )
 
 
+def check_port_free(host: str, port: int) -> None:
+    """Raise OSError when ``host:port`` cannot be listened on (taken, or not ours), before
+    minutes of work that would end in that error."""
+    family = socket.AF_INET6 if ":" in host.strip("[]") else socket.AF_INET
+    with socket.socket(family, socket.SOCK_STREAM) as probe:
+        # As the server itself will: a port left in TIME_WAIT is free, one listened on is not.
+        probe.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)
+        probe.bind((host.strip("[]"), port))
+
+
 def light_thread_share(threads: int) -> int:
     """Threads kept free of analyses: a quarter of them, at least two."""
     return max(2, threads // 4)

@@ -191,7 +191,8 @@ def test_a_band_rule_is_tuned_to_the_quietest_tolerance_that_still_catches(band_
         "hold_seconds": 300,
         "check_every_seconds": None,
     }
-    assert "With tolerance 4 and a hold of 5min, it would have fired 1 time" in (verdict.rationale)
+    expected = "With band width 4σ and a hold of 5min, it would have fired 1 time"
+    assert expected in verdict.rationale
     assert verdict.rationale.endswith(OWNER_DECIDES)
 
 

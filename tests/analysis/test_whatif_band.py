@@ -77,7 +77,7 @@ def test_a_noisy_band_rule_is_drafted_to_a_wider_tolerance(sweep):
     assert verdict.suggestion == "tune"
     assert verdict.parameters["kind"] == "band"
     assert verdict.parameters["tolerance"] > RULE.tolerance
-    assert f"With tolerance {verdict.parameters['tolerance']:g}" in verdict.rationale
+    assert f"With band width {verdict.parameters['tolerance']:g}σ" in verdict.rationale
 
 
 def test_a_threshold_sweep_cannot_draft_a_band_rule(sweep):

@@ -52,8 +52,10 @@ def test_import_explain_tolerance_save_reopen(live_server, page, screenshot, dem
 
     tab.fill("#start", WINDOW[0])
     tab.fill("#end", WINDOW[1])
-    tab.click("button:text('Explain this window')")
+    with tab.expect_response(lambda r: "/explain?" in r.url and "2026-11-29T22" in r.url):
+        tab.click("button:text('Explain this window')")
     tab.wait_for_url("**start=2026-11-29T22*")
+    tab.wait_for_load_state("networkidle")
     tab.wait_for_selector(".panel-band .js-plotly-plot")
     assert unlabelled(tab) == []
     screenshot(tab, "3-explain")

@@ -102,7 +102,9 @@ def test_excluded_periods_apply_to_their_series_and_to_all(session, series_id):
     session.add(other)
     session.flush()
     excluded.add_excluded(session, series_id, "2026-11-01 10:00", "2026-11-01 11:00", "deploy")
-    excluded.add_excluded(session, None, "2026-11-02 00:00", "2026-11-02 01:00", "maintenance")
+    excluded.add_excluded(
+        session, None, "2026-11-02 00:00", "2026-11-02 01:00", "maintenance", every_series=True
+    )
     excluded.add_excluded(session, other.id, "2026-11-03 00:00", "2026-11-03 01:00", "theirs")
     assert [r.reason for r in excluded.list_excluded(session, series_id)] == [
         "deploy",
@@ -117,7 +119,14 @@ def test_excluded_periods_apply_to_their_series_and_to_all(session, series_id):
 
 def test_an_excluded_period_must_end_after_it_starts(session):
     with pytest.raises(ValueError, match="must end after it starts"):
-        excluded.add_excluded(session, None, "2026-11-02", "2026-11-01", "backwards")
+        excluded.add_excluded(session, 1, "2026-11-02", "2026-11-01", "backwards")
+
+
+def test_a_period_without_a_series_must_say_it_is_for_every_series(session, series_id):
+    with pytest.raises(ValueError, match="names its series, or has no series and is marked"):
+        excluded.add_excluded(session, None, "2026-11-01", "2026-11-02", "unscoped")
+    with pytest.raises(ValueError, match="names its series, or has no series and is marked"):
+        excluded.add_excluded(session, series_id, "2026-11-01", "2026-11-02", every_series=True)
 
 
 def test_incidents_of_reviews_join_the_periods_and_overlaps_merge(session, series_id):

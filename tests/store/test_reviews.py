@@ -182,6 +182,8 @@ def test_timeline_entry_from_a_fact(session, make_explanation) -> None:
     assert entry.at == pd.Timestamp(exp.facts["first_outside"]).to_pydatetime()
     assert entry.explanation_id == exp.id and entry.fact == "first_outside"
     assert "First outside" in entry.text and exp.series_key in entry.text
+    # The views add "from explanation #N" beside the entry; the text does not say it again.
+    assert f"explanation #{exp.id}" not in entry.text
     with pytest.raises(ReviewInvalid, match="no time fact 'peak_value'"):
         store_timeline.timeline_entry_from_fact(session, review, exp, "peak_value")
 

@@ -103,7 +103,7 @@ def test_an_action_item_saved_from_an_older_version_quotes_theirs(client, csrf, 
     assert refused.status_code == 409
     text = html.unescape(refused.text)
     assert "Stored now: “Add a canary stage, open”" in text
-    assert 'value="Roll back faster"' in text  # yours stays in the form
+    assert ">Roll back faster</textarea>" in text  # yours stays in the form
     assert stored(session, review.id).action_items[0].text == "Add a canary stage"
 
 

@@ -28,7 +28,10 @@ def keep(client, series_id: int, start: pd.Timestamp, end: pd.Timestamp, every: 
     from webapp.store import excluded
 
     owner = None if every else series_id
-    return in_store(client, lambda s: excluded.add_excluded(s, owner, start, end, "a bad day").id)
+    return in_store(
+        client,
+        lambda s: excluded.add_excluded(s, owner, start, end, "a bad day", every_series=every).id,
+    )
 
 
 def stored_rows(client, series_id: int) -> list[int]:
@@ -160,7 +163,7 @@ def test_removing_needs_the_csrf_token(client, csrf, stored, window):
 def test_a_period_of_every_series_says_so(client, csrf, stored, url_for_explain):
     row_id = keep(client, stored, *DAY, every=True)
     listing = stored_list(client.get(url_for_explain(stored)).get_data(as_text=True))
-    assert "(every series)" in listing
+    assert "(every series, those imported later too)" in listing
     assert re.search(
         rf'/explain/exclusions/{row_id}/remove"[^>]*aria-label="[^"]*every series', listing
     )

@@ -76,7 +76,7 @@ def test_every_response_type_carries_the_headers(client, csrf, stored, url_for_e
     figure = client.get(url_for_explain(stored).replace("/explain?", "/explain/figure/band?"))
     assert figure.status_code == 200 and figure.mimetype == "application/json"
     created = client.post("/reviews/new", data={"csrf_token": csrf, **REVIEW})
-    review_id = created.location.rstrip("/").split("/")[-2]
+    review_id = created.location.rstrip("/").split("/")[-1]
     export = client.get(f"/reviews/{review_id}/export.html")
     assert export.status_code == 200 and "attachment" in export.headers["Content-Disposition"]
     static = client.get("/static/whyfired.css")

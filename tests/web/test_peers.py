@@ -87,7 +87,7 @@ def test_bad_parameters_are_a_clear_400(client, hosts, url_for_explain):
     url = url_for_explain(hosts["api-3"], tolerance="lots").replace("/explain?", "/explain/peers?")
     response = client.get(url)
     assert response.status_code == 400
-    assert "tolerance" in response.get_data(as_text=True)
+    assert "band width" in response.get_data(as_text=True)
 
 
 def test_a_failing_comparison_leaves_the_other_panels_standing(

@@ -42,12 +42,14 @@ def review(session) -> Review:
     return row
 
 
-def test_create_redirects_to_the_editor(client, csrf, session) -> None:
+def test_create_lands_on_the_review_with_its_evidence(client, csrf, session) -> None:
     response = post(client, "/reviews/new", csrf, **FORM)
     assert response.status_code == 302
     created = session.query(Review).one()
-    assert response.location.endswith(f"/reviews/{created.id}/edit")
+    assert response.location.endswith(f"/reviews/{created.id}")
     assert created.root_cause == "A cold cache after the deploy."
+    landed = client.get(response.location).text
+    assert '<section id="evidence">' in landed and "Edit the text" in landed
 
 
 def test_invalid_create_keeps_every_typed_word(client, csrf, session) -> None:
@@ -218,7 +220,7 @@ def test_action_items(client, csrf, review, session) -> None:
         client, f"/reviews/{review.id}/actions", csrf, text="Warm the cache", due_date="soon"
     )
     assert bad.status_code == 422
-    assert "is not a date" in html.unescape(bad.text) and 'value="Warm the cache"' in bad.text
+    assert "is not a date" in html.unescape(bad.text) and ">Warm the cache</textarea>" in bad.text
     ok = post(client, f"/reviews/{review.id}/actions", csrf, text="Warm the cache",
               owner="Dana", due_date="2026-12-15")  # fmt: skip
     assert ok.status_code == 302
@@ -332,7 +334,7 @@ def test_new_review_starts_from_a_page_or_an_explanation(
     session.commit()
     from_page = client.get(f"/reviews/new?page_id={page.id}").text
     assert f'<option value="{page.id}" selected>' in from_page
-    assert 'value="2026-11-30T14:00"' in from_page and 'value="2026-11-30T15:00"' in from_page
+    assert 'value="2026-11-30 14:00"' in from_page and 'value="2026-11-30 15:00"' in from_page
     from_exp = client.get(f"/reviews/new?explanation_id={exp.id}").text
     assert f'name="explanation_id" value="{exp.id}"' in from_exp
     created = post(client, "/reviews/new", csrf, **(FORM | {"explanation_id": str(exp.id)}))

@@ -348,7 +348,7 @@ def test_a_second_review_of_the_same_demo_incident_does_not_change_the_count(
 
 @pytest.fixture
 def band_rule(session, watched):
-    """Outside the expected band at tolerance 3 for 10 minutes: the band needs two weeks of
+    """Outside the expected band at band width 3σ for 10 minutes: the band needs two weeks of
     history, so only the third week (and its burst) is replayed."""
     row = store_rules.create_rule(
         session,
@@ -377,11 +377,11 @@ def current_setting(text: str) -> list[str]:
 def test_a_band_rule_page_has_the_sweep_of_tolerances(client, band_rule) -> None:
     text = html.unescape(client.get(f"/rules/{band_rule.id}/replay").text)
     assert count(text, "firings") == "1"
-    assert 'id="sweep-figure"' in text and "tolerance %{customdata[0]:.4g}" in text
+    assert 'id="sweep-figure"' in text and "band width (σ) %{customdata[0]:.4g}" in text
     assert "edit its tolerance and replay again" not in text
-    assert "along it the tolerance changes" in text
-    assert '<th scope="col" class="num">Tolerance</th>' in text
-    assert 'for="sweep-tolerances">Tolerances' in text and 'name="tolerances"' in text
+    assert "along it the band width (σ) changes" in text
+    assert '<th scope="col" class="num">Band width (σ)</th>' in text
+    assert 'for="sweep-tolerances">Band widths (σ)' in text and 'name="tolerances"' in text
     rows = sweep_rows(text)
     # the default grid: tolerances 2 to 8 by holds 0 to 30 min (10 min among them)
     assert {t for t, _ in rows} == {"2", "2.5", "3", "3.5", "4", "5", "6", "8"}
@@ -403,7 +403,7 @@ def test_a_band_rule_sweeps_the_readers_tolerances(client, band_rule) -> None:
     ("query", "message"),
     [
         ("tolerances=lots&holds=0", "'lots' is not a number; list tolerances like 2, 3, 4."),
-        ("tolerances=0,2&holds=0", "'0' is not above 0; a tolerance counts robust standard"),
+        ("tolerances=0,2&holds=0", "'0' is not above 0; a band width counts robust standard"),
         ("tolerances=-1&holds=0", "'-1' is not above 0"),
         ("tolerances=&holds=5min", "List at least one tolerance, e.g. 2, 3, 4."),
         ("tolerances=2&holds=soon", "is not a duration"),
@@ -477,7 +477,7 @@ def test_a_noisy_band_rule_is_drafted_to_a_quieter_tolerance(client, session, no
     assert "Verdict draft: tune" in text
     drafted = re.search(r"tolerance: ([\d.]+)", text)
     assert drafted and float(drafted.group(1)) > 2.0
-    assert f"With tolerance {float(drafted.group(1)):g} and a hold of" in text
+    assert f"With band width {float(drafted.group(1)):g}σ and a hold of" in text
     assert "drafted setting" in text  # the drafted point is marked on the sweep figure
 
 
@@ -517,7 +517,7 @@ def test_a_band_rule_replay_draws_the_band_it_fired_on(client, band_rule, monkey
     monkeypatch.setattr(_replay, "band_centre", counted)
     text = client.get(f"/rules/{band_rule.id}/replay").text
     assert len(fits) == 1, "the figure must reuse the replay's band, not fit it again"
-    band = [t for t in replay_traces(text) if t.get("name") == "expected band at tolerance 3"]
+    band = [t for t in replay_traces(text) if t.get("name") == "expected band, band width 3σ"]
     assert len(band) == 2, "a lower and an upper edge"
     assert band[1]["fill"] == "tonexty" and band[1]["fillcolor"].startswith("rgba(86,180,233")
     x = trace_values(band[0], "x")
@@ -545,7 +545,7 @@ def test_the_replay_band_is_downsampled_keeping_its_extremes() -> None:
     series = pd.Series(grid.values, index=times, name="value")
     fig = replay_figure(series, pd.DataFrame({"start": []}), [], None, None, n_out=400,
                         band=(grid, 2.0))  # fmt: skip
-    lower, upper = (t for t in fig.data if t.name == "expected band at tolerance 2")
+    lower, upper = (t for t in fig.data if t.name == "expected band, band width 2σ")
     assert len(lower.y) <= 400 and len(lower.x) == len(upper.x)
     assert max(upper.y) == 70.0 and min(lower.y) == 30.0
     assert min(upper.y) == 52.0 and max(lower.y) == 48.0
@@ -557,7 +557,7 @@ def test_a_band_rule_replay_band_follows_its_tolerance(client, session, band_rul
     session.commit()
     wider = html.unescape(client.get(f"/rules/{band_rule.id}/replay").text)
     names = {t.get("name") for t in replay_traces(wider)}
-    assert "expected band at tolerance 6" in names and "expected band at tolerance 3" not in names
+    assert "expected band, band width 6σ" in names and "expected band, band width 3σ" not in names
     half = [
         (trace_values(up, "y") - trace_values(low, "y")) / 2
         for low, up in (

@@ -39,6 +39,7 @@ import pandas as pd
 from webapp.analysis._band import expected_band, fit_baseline, mask_excluded
 from webapp.analysis._grid import as_utc_series, infer_step, regularize
 from webapp.analysis.times import short_duration
+from webapp.analysis.vocabulary import band_width_text
 
 __all__ = ["ThresholdRule", "BandRule", "replay", "evaluation_grid", "rule_from_fields"]
 
@@ -147,7 +148,7 @@ class BandRule:
     def text(self) -> str:
         where = {"both": "outside", "above": "above", "below": "below"}[self.direction]
         out = (
-            f"{where} the expected band at tolerance {self.tolerance:g}"
+            f"{where} the expected band ({band_width_text(self.tolerance)})"
             f" for {short_duration(self.hold)}"
         )
         if self.check_every is not None:

@@ -28,7 +28,7 @@ import pandas as pd
 from webapp.analysis._replay import BandRule, Rule, ThresholdRule
 from webapp.analysis._report import ReplayReport
 from webapp.analysis.times import rough_duration, short_duration
-from webapp.analysis.vocabulary import OWNER_DECIDES
+from webapp.analysis.vocabulary import OWNER_DECIDES, band_width_text
 
 TUNE_MIN_SAVING = 0.2
 RETIRE_MIN_FALSE = 2
@@ -190,7 +190,7 @@ def draft_verdict(report: ReplayReport, sweep: pd.DataFrame | None, rule: Rule) 
             "hold_seconds": int(best["hold"].total_seconds()),
         }
         sentences.append(
-            f"With {column} {best[column]:g} and a hold of "
+            f"With {_setting(column, best[column])} and a hold of "
             f"{short_duration(best['hold'])}, it would have fired "
             f"{_plural(int(best['firings']), 'time')} ({best['pages_per_week']:.1f} per week) "
             f"and still caught every incident the current rule caught "
@@ -241,3 +241,8 @@ def _catches_more(report: ReplayReport, sweep: pd.DataFrame, rule: Rule) -> list
 
 def _saves_enough(current: int, proposed: int) -> bool:
     return proposed < current and (current - proposed) >= TUNE_MIN_SAVING * current
+
+
+def _setting(column: str, value: float) -> str:
+    """A sweep's level in words: "threshold 650" or "band width 3σ"."""
+    return band_width_text(value) if column == "tolerance" else f"{column} {value:g}"

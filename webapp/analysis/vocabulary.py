@@ -15,6 +15,10 @@ __all__ = [
     "OWNER_DECIDES",
     "SWEEP_LEVEL",
     "KIND_NAMES",
+    "BAND_WIDTH",
+    "BAND_WIDTH_HELP",
+    "level_words",
+    "band_width_text",
     "FACT_LABELS",
     "FACT_GROUPS",
     "FACT_WORDS",
@@ -38,6 +42,23 @@ SWEEP_LEVEL = {"threshold": "threshold", "band": "tolerance", "burn_rate": "fact
 
 #: Words for each rule kind in tables and sentences.
 KIND_NAMES = {"threshold": "threshold", "band": "band", "burn_rate": "burn-rate"}
+
+#: What the band-width setting (stored and passed as ``tolerance``) is called on screen:
+#: the distance from the expected value to each edge, in robust standard deviations. The
+#: band's sides are calibrated so that a width of 3 holds about 99.7% of normal samples.
+BAND_WIDTH = "band width (σ)"
+BAND_WIDTH_HELP = "robust standard deviations each side; 3 ≈ 99.7% of normal samples inside"
+
+
+def level_words(level: str) -> str:
+    """A sweep level's name for people: "threshold", or "band width (σ)" for "tolerance"."""
+    return BAND_WIDTH if level == "tolerance" else level
+
+
+def band_width_text(width: float) -> str:
+    """A band width in words, e.g. "band width 3σ"."""
+    return f"band width {width:g}σ"
+
 
 #: The stored fields of an alert rule (``webapp.store.models.AlertRule``), in form order.
 #: ``hold_seconds``: how long the condition must hold before the rule is raised;

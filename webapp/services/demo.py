@@ -65,10 +65,11 @@ def load_demo(session: Session, demo: Any) -> dict[str, int]:
         )
         for p in demo.pages
     ]
+    # A span with no series is for every series of this scenario, not for later imports.
     for span in demo.excluded:
-        excluded.add_excluded(
-            session, ids.get(span["series_key"]), span["start"], span["end"], span["reason"]
-        )
+        key = span["series_key"]
+        for series_id in [ids[key]] if key else ids.values():
+            excluded.add_excluded(session, series_id, span["start"], span["end"], span["reason"])
 
     # Every review first, so each explanation leaves the other incidents out of its history.
     made = [(_review(session, i, page_rows, ids), i) for i in demo.incidents]

@@ -1,7 +1,8 @@
 """Excluded periods: spans left out of every baseline.
 
-A span comes from an explicit row (for one series, or for every series when
-``series_id`` is None) or from a review marked ``exclude_from_baselines`` whose incident
+A span comes from an explicit row (for the series it was made for, or, with ``series_id``
+None, for every series including those imported later, which its maker must ask for with
+``every_series=True``) or from a review marked ``exclude_from_baselines`` whose incident
 touches the series, through the review's page or one of its attached explanations.
 """
 
@@ -23,8 +24,21 @@ Span = tuple[pd.Timestamp, pd.Timestamp]
 
 
 def add_excluded(
-    session: Session, series_id: int | None, start: Any, end: Any, reason: str = ""
+    session: Session,
+    series_id: int | None,
+    start: Any,
+    end: Any,
+    reason: str = "",
+    *,
+    every_series: bool = False,
 ) -> ExcludedPeriod:
+    """Store a span left out of ``series_id``'s baselines; ``series_id`` None only together
+    with ``every_series=True``, since such a span also applies to series imported later."""
+    if (series_id is None) != every_series:
+        raise ValueError(
+            "an excluded period names its series, or has no series and is marked for every "
+            "series (including those imported later), not both"
+        )
     begin, finish = utc(start), utc(end)
     if finish <= begin:
         raise ValueError(

@@ -220,7 +220,8 @@ class Incident(Base):
 
 
 class ExcludedPeriod(Base):
-    """A span left out of every baseline; ``series_id`` NULL means every series."""
+    """A span left out of a series' baselines; ``series_id`` NULL marks it for every series,
+    those imported later included (see ``webapp.store.excluded.add_excluded``)."""
 
     __tablename__ = "excluded_periods"
 

@@ -72,10 +72,8 @@ def timeline_entry_from_fact(
         raise ReviewInvalid(
             {"fact": f"Explanation #{explanation.id} has no time fact {fact!r}; it has: {choices}."}
         )
-    text = (
-        text.strip()
-        or f"{fact_label(fact)} on {explanation.series_key} (explanation #{explanation.id})"
-    )
+    # The entry keeps explanation_id, and every view says "from explanation #N" beside it.
+    text = text.strip() or f"{fact_label(fact)} on {explanation.series_key}"
     return add_timeline_entry(
         session, review, facts[fact], text, explanation_id=explanation.id, fact=fact
     )

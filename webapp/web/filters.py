@@ -14,14 +14,15 @@ from flask import Flask, url_for
 from werkzeug.routing import BuildError
 
 from webapp.analysis.times import local_time, long_duration, to_timestamp
+from webapp.analysis.vocabulary import BAND_WIDTH_HELP, level_words
 
 
 def input_time(value: Any, tz: str = "UTC") -> str:
-    """The value for an ``<input type="datetime-local">`` in ``tz``."""
+    """A time as typed into a 24-hour time field (``YYYY-MM-DD HH:MM``) in ``tz``."""
     ts = to_timestamp(value)
     if ts is None:
         return ""
-    return ts.tz_convert(ZoneInfo(tz)).strftime("%Y-%m-%dT%H:%M")
+    return ts.tz_convert(ZoneInfo(tz)).strftime("%Y-%m-%d %H:%M")
 
 
 def number(value: Any, digits: int = 4) -> str:
@@ -80,6 +81,8 @@ def time_zones() -> list[str]:
 def init_app(app: Flask) -> None:
     app.add_template_global(time_zones, "time_zones")
     app.add_template_global(endpoint_url, "endpoint_url")
+    app.add_template_global(level_words, "level_words")
+    app.add_template_global(BAND_WIDTH_HELP, "band_width_help")
     for name, fn in {
         "local_time": local_time,
         "input_time": input_time,

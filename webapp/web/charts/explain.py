@@ -88,10 +88,12 @@ def _band_traces(
     high: str,
     tz: str,
     name: str,
-    colour: str,
+    colours: tuple[str, str],
     alpha: float,
     **kw: object,
 ) -> list[dict]:
+    """A filled band between two columns; ``colours`` is (edge line, fill)."""
+    colour, fill = colours
     x = style.wall_clock(rows.index, tz)
     edge = {"color": colour, "width": 0.6}
     common = {"type": "scatter", "x": x, "mode": "lines", "line": edge, "name": name}
@@ -108,7 +110,7 @@ def _band_traces(
             **common,
             "y": rows[high].to_numpy(dtype="float64", na_value=np.nan),
             "fill": "tonexty",
-            "fillcolor": palette.rgba(colour, alpha),
+            "fillcolor": palette.rgba(fill, alpha),
             "legendgroup": name,
             "hoverinfo": "skip",
             **kw,
@@ -235,7 +237,7 @@ def band_drawing(
     key, unit and values) drawn in orange on its own right-hand axis."""
     view = view or default_view(frame)
     band = _rows(frame, ["lower", "upper", "expected"], n_out, view)
-    traces = _band_traces(band, "lower", "upper", tz, "expected band", palette.BAND_EDGE, 0.32)
+    traces = _band_traces(band, "lower", "upper", tz, "expected band", palette.BAND, 0.32)
     traces.append(
         style.line(band.index, band["expected"], tz, "expected", palette.EXPECTED, dash="dash")
     )
@@ -342,7 +344,9 @@ def overlay_drawing(
     if {"p10", "p90"} <= set(overlay.columns):
         spread = reduce_together(overlay, ["p10", "p90"], n_out)
         traces.extend(
-            _band_traces(spread, "p10", "p90", tz, "p10–p90 of past weeks", palette.ORANGE, 0.22)
+            _band_traces(
+                spread, "p10", "p90", tz, "p10–p90 of past weeks", palette.OVERLAY_BAND, 0.22
+            )
         )
     weeks = sorted((c for c in overlay.columns if c.startswith("week_")), key=lambda c: -int(c[5:]))
     for i, column in enumerate(weeks):
@@ -363,7 +367,8 @@ def overlay_drawing(
         )
     if "median" in overlay:
         x, y = _points(overlay, "median", n_out, None)
-        traces.append(style.line(x, y, tz, "median of past weeks", palette.ORANGE, width=2.2))
+        median = style.line(x, y, tz, "median of past weeks", palette.OVERLAY_MEDIAN, width=2.2)
+        traces.append(median)
     window = window_of(frame)
     if window is not None:
         x, y = _points(clip(frame, *window), "value", n_out, None)
@@ -448,9 +453,7 @@ def components_figure(
     band = _rows(with_half, ["neg_half", "half"], n_row, view)
     traces.extend(
         on_row(t, rows)
-        for t in _band_traces(
-            band, "neg_half", "half", tz, "band half-width", palette.BAND_EDGE, 0.28
-        )
+        for t in _band_traces(band, "neg_half", "half", tz, "band half-width", palette.BAND, 0.28)
     )
     x, y = _points(frame, "residual", n_row, view)
     traces.append(on_row(style.line(x, y, tz, "residual", palette.RESIDUAL, width=1.1), rows))

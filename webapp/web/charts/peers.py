@@ -20,14 +20,7 @@ from webapp.web.charts.downsample import reduce_together
 
 FIGURE_POINTS = 1200  # per peer; min/max buckets keep every spike
 TOP_PEERS = 6  # peers drawn as their own line beside the explained series
-OTHER_COLOURS = (
-    palette.ORANGE,
-    palette.SKY_BLUE,
-    palette.BLUISH_GREEN,
-    palette.BLUE,
-    palette.VERMILLION,
-    palette.REDDISH_PURPLE,
-)
+OTHER_COLOURS = palette.LINES
 OTHER_DASHES = ("dot", "dash", "dashdot", "longdash", "longdashdot")
 
 

@@ -11,6 +11,7 @@ import plotly.graph_objects as go
 
 from webapp.analysis import BandGrid
 from webapp.analysis.times import short_duration
+from webapp.analysis.vocabulary import band_width_text, level_words
 from webapp.web.charts import palette, style
 from webapp.web.charts.downsample import minmax_indices, reduce_together
 from webapp.web.charts.style import wall_clock
@@ -18,7 +19,7 @@ from webapp.web.charts.style import wall_clock
 MAX_SHADES = 300
 # Holds are told apart by marker shape as well as colour.
 SYMBOLS = ("circle", "square", "diamond", "triangle-up", "cross", "x", "pentagon", "hexagon")
-COLOURS = tuple(c for c in palette.OKABE_ITO if c not in (palette.YELLOW, palette.BLACK))
+COLOURS = palette.LINES
 
 
 def _layout(fig: go.Figure, height: int, x_title: str, y_title: str) -> go.Figure:
@@ -112,7 +113,7 @@ def _add_band(fig: go.Figure, grid: BandGrid, tolerance: float, tz: str, n_out: 
     )
     edges = reduce_together(edges, ["lower", "upper"], n_out)
     x = wall_clock(pd.DatetimeIndex(edges.index), tz)
-    name = f"expected band at tolerance {tolerance:g}"
+    name = f"expected band, {band_width_text(tolerance)}"
     line = {"color": palette.BAND_EDGE, "width": 0.6}
     common = {"x": x, "mode": "lines", "line": line, "legendgroup": name, "hoverinfo": "skip"}
     fig.add_trace(go.Scatter(y=edges["lower"], name=name, showlegend=False, **common))
@@ -121,7 +122,7 @@ def _add_band(fig: go.Figure, grid: BandGrid, tolerance: float, tz: str, n_out: 
             y=edges["upper"],
             name=name,
             fill="tonexty",
-            fillcolor=palette.rgba(palette.BAND_EDGE, 0.32),
+            fillcolor=palette.rgba(palette.BAND_FILL, 0.32),
             **common,
         )
     )
@@ -170,7 +171,8 @@ def sweep_figure(
                 marker={"symbol": SYMBOLS[i % len(SYMBOLS)], "size": 8},
                 customdata=np.stack([rows[level], rows["firings"]], axis=1),
                 hovertemplate=(
-                    f"{label}<br>{level} %{{customdata[0]:.4g}}<br>%{{x:.2f}} pages/week"
+                    f"{label}<br>{level_words(level)} %{{customdata[0]:.4g}}"
+                    "<br>%{x:.2f} pages/week"
                     "<br>%{y} incidents caught<br>%{customdata[1]} firings<extra></extra>"
                 ),
             )

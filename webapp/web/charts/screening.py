@@ -105,7 +105,7 @@ def small_figure(exp: Any, tz: str, unit: str) -> go.Figure:
     """One series in the window against its expected band, small (no legend)."""
     frame = exp.frame[exp.frame["in_window"].to_numpy(dtype=bool)]
     rows = _rows(frame, ["lower", "upper", "expected", "value"], SMALL_POINTS, None)
-    traces = _band_traces(rows, "lower", "upper", tz, "expected band", palette.BAND_EDGE, 0.32)
+    traces = _band_traces(rows, "lower", "upper", tz, "expected band", palette.BAND, 0.32)
     traces.append(style.line(rows.index, rows["value"], tz, "value", palette.VALUE, width=1.4))
     layout = style.layout(
         170,

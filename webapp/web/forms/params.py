@@ -87,7 +87,7 @@ def parse_tolerance(text: str | None, default: float) -> float:
         value = math.nan
     if not math.isfinite(value) or not MIN_TOLERANCE <= value <= MAX_TOLERANCE:
         bad_request(
-            f"The tolerance {text!r} is not usable: give a number of robust standard "
+            f"The band width {text!r} is not usable: give a number of robust standard "
             f"deviations from {MIN_TOLERANCE:g} to {MAX_TOLERANCE:g}."
         )
     return value

@@ -81,7 +81,7 @@ def parse_rule_form(session: Session, form: Mapping[str, str]) -> dict[str, Any]
                 f"Give the {name} as a number, e.g. {'500' if name == 'threshold' else '3'}."
             )
         elif name == "tolerance" and float(raw) <= 0:
-            errors[name] = "The tolerance is a number of robust standard deviations above 0."
+            errors[name] = "The band width is a number of robust standard deviations above 0."
         else:
             fields[name] = float(raw)
     fields["hold_seconds"] = parse_duration(form.get("hold", ""), "hold", errors, optional=False)
@@ -280,8 +280,8 @@ def parse_sweep(
             break
         if level == "tolerance" and float(word) <= 0:
             errors[field] = (
-                f"{word!r} is not above 0; a tolerance counts robust standard deviations, "
-                f"so list tolerances like {example}."
+                f"{word!r} is not above 0; a band width counts robust standard deviations, "
+                f"so list band widths like {example}."
             )
             break
         levels.append(float(word))

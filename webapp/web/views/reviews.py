@@ -106,8 +106,8 @@ def new() -> Any:
         session.rollback()
         return _form_page("reviews/new.html", None, request.form, err.errors)
     session.commit()
-    flash(f"Review #{review.id} created. It saves itself as you type from now on.")
-    return redirect(url_for("reviews.edit", review_id=review.id))
+    flash(f"Review #{review.id} created; “Edit the text” writes the rest, saving as you type.")
+    return redirect(url_for("reviews.show", review_id=review.id))
 
 
 def _prefill(args: Mapping[str, str]) -> dict[str, Any]:
@@ -173,9 +173,18 @@ def _show(
         edit_verdict=request.args.get("edit_verdict", type=int),
         format_parameters=review_forms.format_parameters,
         fact_label=fact_label,
+        page_times=page_times(page),
         tz=TZ,
     )
     return html, 422 if errors else 200
+
+
+def page_times(page: Any) -> list[tuple[str, str]]:
+    """The review's page's fired and resolved times, offered for a timeline entry."""
+    if page is None:
+        return []
+    times = [("the page fired", page.fired_at), ("the page resolved", page.resolved_at)]
+    return [(label, filters.input_time(at, TZ)) for label, at in times if at is not None]
 
 
 @bp.route("/reviews/<int:review_id>/edit", methods=["GET", "POST"])
