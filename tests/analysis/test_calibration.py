@@ -178,3 +178,24 @@ def test_short_history_falls_back_to_the_plain_spread_and_says_so(make_service_s
     exp = explain(series, window=(end - pd.Timedelta("2h"), end), history="1D")
     assert exp.facts["band_sides"] == "scale" and exp.facts["band_coverage"] is None
     assert any(s.startswith("The history is too short to test the band") for s in exp.summary)
+
+
+def test_a_past_incident_in_the_history_does_not_set_the_band_and_wider_stays_wider():
+    """A 45-minute incident at ten times the level, left in the history, is one run of
+    errors: it counts once, so it neither becomes the 99.87% side by itself nor makes the
+    width-3 band wider than the width-4 one (synthetic)."""
+    rng = np.random.default_rng(11)
+    index = pd.date_range("2026-10-01", periods=4 * 7 * 1440, freq="min", tz="UTC")
+    minutes = np.arange(index.size) % 1440
+    values = 140 + 10 * np.sin(2 * np.pi * minutes / 1440) + rng.normal(0, 5, index.size)
+    incident = (index >= "2026-10-20 02:00") & (index < "2026-10-20 02:45")
+    values[incident] = 1400.0
+    series = pd.Series(values, index)
+    window = (index[-360], index[-1])
+    widths = {}
+    for tolerance in (3.0, 4.0):
+        frame = explain(series, window=window, history="3W", tolerance=tolerance).frame
+        inside = frame[frame["in_window"]]
+        widths[tolerance] = float((inside["upper"] - inside["expected"]).median())
+    assert widths[3.0] < widths[4.0]
+    assert widths[3.0] < 100  # the noise is 5 wide; the incident is 1,260 above

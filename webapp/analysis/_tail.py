@@ -96,21 +96,25 @@ def cluster_maxima(values: np.ndarray, threshold: float) -> np.ndarray:
 
 def upper_quantile(values: np.ndarray, beyond: float) -> float:
     """The value exceeded by a share `beyond` of `values` (in time order, NaN = missing):
-    conformal empirical rank where the data holds enough beyond it, else the Pareto tail
+    conformal empirical rank among the declustered values where they hold enough beyond
+    it, else the Pareto tail
     of the declustered exceedances; with too few clusters to fit, the conformal rank among
     the declustered values (each run of exceedances counted once)."""
     x = values[np.isfinite(values)]
     if len(x) == 0:
         return float("nan")
-    if conformal_rank(len(x), beyond) <= len(x) - MIN_BEYOND + 1:
-        return ranked(x, beyond)
     threshold = float(np.quantile(x, 1 - THRESHOLD_SHARE))
+    maxima = cluster_maxima(np.where(np.isfinite(values), values, -np.inf), threshold)
+    # Each run of exceedances counts once, so a past incident left in the history (a long
+    # run of large errors) cannot become the quantile by itself.
+    declustered = np.concatenate([x[x <= threshold], maxima])
+    if conformal_rank(len(declustered), beyond) <= len(declustered) - MIN_BEYOND + 1:
+        return ranked(declustered, beyond)
     rate = float(np.mean(x > threshold))
     if rate <= beyond:
         return threshold
-    maxima = cluster_maxima(np.where(np.isfinite(values), values, -np.inf), threshold)
     if len(maxima) < MIN_CLUSTERS:
-        return ranked(np.concatenate([x[x <= threshold], maxima]), beyond)
+        return ranked(declustered, beyond)
     tail = fit_pareto_quantiles(maxima - threshold)
     return threshold + tail.quantile(1 - beyond / rate)
 
