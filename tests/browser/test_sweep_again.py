@@ -75,12 +75,6 @@ def test_sweep_again_redraws_inside_the_panel(page, live_server, screenshot) -> 
     page.click("#whatif summary", timeout=CLICK)  # every control answers a click
     _sweep_again(page, {"#sweep-holds": "0, 5min"}, 2)
     _check_panel(page)
-    page.select_option("#incident-scope", "series", timeout=CLICK)
-    page.wait_for_function(
-        "() => document.querySelector('#whatif input[name=incidents]').value === 'series'"
-        f" && document.querySelectorAll('{FIGURES} svg.main-svg').length >= 2"
-    )
-    _check_panel(page)
     page.click("#verdict button[type=submit]", timeout=CLICK)
     page.wait_for_selector(".flash")
 
@@ -98,5 +92,3 @@ def test_a_burn_rate_rule_sweeps_again_and_compares_the_kinds(page, live_server)
     assert "(4 settings)" in page.inner_text("#whatif summary")
     _check_panel(page)
     page.wait_for_selector("#kinds table", timeout=120_000)
-    page.select_option("#incident-scope", "series", timeout=CLICK)
-    page.wait_for_function("() => document.querySelector('#incident-scope').value === 'series'")
