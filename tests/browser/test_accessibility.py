@@ -99,4 +99,6 @@ def test_save_explanation_is_a_few_key_presses_away(demo_live_server, page):
     page.wait_for_load_state("networkidle")
     presses = presses_to_reach(page, "#h-save ~ form button[type=submit]")
     print(f"key presses to Save explanation: {presses}")
-    assert presses <= 25
+    # 68 before the skip link and text time fields; 28 with the second-series and screening
+    # controls that sit before the results
+    assert presses <= 30
