@@ -126,7 +126,7 @@ def test_a_page_marked_real_counts_and_unmarking_removes_it(client, csrf, rule, 
     rule_id, page_id = rule.id, page.id
     session.commit()
     assert caught(client.get(f"/rules/{rule_id}/replay").text) == (0, 0)
-    assert "Mark page" in client.get("/pages").text
+    assert "Mark real: page" in client.get("/pages").text
     marked = client.post(f"/pages/{page_id}/real", data={"csrf_token": csrf, "real": "1"})
     assert marked.status_code == 303
     text = html.unescape(client.get(f"/rules/{rule_id}/replay").text)
