@@ -63,12 +63,23 @@ def screens(url: str) -> list[tuple[str, str]]:
         page = s.scalars(select(Page.id).order_by(Page.id)).first()
         review = s.scalars(select(Review.id).order_by(Review.id)).first()
         saved = s.scalars(select(Explanation.id).order_by(Explanation.id)).first()
+        rules = {r.kind: r.id for r in s.scalars(select(AlertRule).order_by(AlertRule.id))}
+        first_page = s.get(Page, page)
+        paged = first_page.series_id
+        start = first_page.fired_at.strftime("%Y-%m-%dT%H:%M")
+        end = (first_page.resolved_at or first_page.fired_at).strftime("%Y-%m-%dT%H:%M")
+        metric = s.scalars(select(Series.metric).where(Series.id == paged)).one()
     engine.dispose()
     return [
         ("home", "/"),
         ("series list", "/series"),
         ("explain (a series' last day)", f"/explain?series={series}"),
+        ("a series", f"/series/{series}"),
         ("explain a page", f"/pages/{page}/explain"),
+        ("peers of a page's series", f"/explain/peers?series={paged}"),
+        ("a fleet aggregate", f"/explain/aggregate?metric={metric}&how=p95&start={start}&end={end}"),
+        ("screening a page's window", f"/screening?page={page}"),
+        ("incidents", "/incidents"),
         ("saved explanations", "/explanations"),
         ("a saved explanation", f"/explanations/{saved}"),
         ("imports", "/imports"),
@@ -76,6 +87,8 @@ def screens(url: str) -> list[tuple[str, str]]:
         ("alert rules", "/rules"),
         ("an alert rule", f"/rules/{rule}"),
         ("replay of a rule", f"/rules/{rule}/replay"),
+        ("replay of a burn-rate rule", f"/rules/{rules['burn_rate']}/replay"),
+        ("rule kinds side by side (band rule included)", f"/rules/{rule}/kinds"),
         ("new rule form", "/rules/new"),
         ("reviews", "/reviews"),
         ("a review", f"/reviews/{review}"),
