@@ -68,6 +68,7 @@ def screens(url: str) -> list[tuple[str, str]]:
         paged = first_page.series_id
         start = first_page.fired_at.strftime("%Y-%m-%dT%H:%M")
         end = (first_page.resolved_at or first_page.fired_at).strftime("%Y-%m-%dT%H:%M")
+        window = f"start={start}&end={end}"
         metric = s.scalars(select(Series.metric).where(Series.id == paged)).one()
     engine.dispose()
     return [
@@ -77,7 +78,7 @@ def screens(url: str) -> list[tuple[str, str]]:
         ("a series", f"/series/{series}"),
         ("explain a page", f"/pages/{page}/explain"),
         ("peers of a page's series", f"/explain/peers?series={paged}"),
-        ("a fleet aggregate", f"/explain/aggregate?metric={metric}&how=p95&start={start}&end={end}"),
+        ("a fleet aggregate", f"/explain/aggregate?metric={metric}&how=p95&{window}"),
         ("screening a page's window", f"/screening?page={page}"),
         ("incidents", "/incidents"),
         ("saved explanations", "/explanations"),

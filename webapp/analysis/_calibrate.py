@@ -115,7 +115,7 @@ class Calibration:
         beyond = beyond_share(tolerance)
         lower = -upper_quantile(-self.errors, beyond)
         upper = upper_quantile(self.errors, beyond)
-        return short_float(min(lower, 0.0)), short_float(max(upper, 0.0))
+        return short_float(min(lower, 0.0), -1), short_float(max(upper, 0.0), 1)
 
     def coverage(self, tolerance: float) -> float:
         """Share of the backtest errors inside the band at `tolerance`."""
@@ -124,10 +124,17 @@ class Calibration:
         return float(np.mean((z >= lower) & (z <= upper))) if len(z) else float("nan")
 
 
-def short_float(x: float) -> float:
-    """`x` to 12 significant digits: a side of the band is then `expected + k x band_scale`
-    with a short `k`, which a saved frame stores as that formula rather than as numbers."""
-    return float(f"{x:.12g}")
+def short_float(x: float, away: int) -> float:
+    """`x` to 12 significant digits, one unit of the last digit further in the direction
+    `away` (+1 up, -1 down). A side of the band is then `expected + k x band_scale` with a
+    short `k`, which a saved frame stores as that formula rather than as numbers; and a
+    value the backtest saw exactly on a side is never put outside by the last bit of
+    rounding (a metric that sits on a few levels, 0.066 or 42.0, would otherwise be
+    "outside" at its own floor every few minutes)."""
+    if x == 0 or not np.isfinite(x):
+        return x
+    unit = 10.0 ** (np.floor(np.log10(abs(x))) - 11)
+    return float(f"{x + away * unit:.12g}")
 
 
 def calibrate(errors: np.ndarray, scale: np.ndarray, days: int) -> Calibration | None:
