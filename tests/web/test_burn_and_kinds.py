@@ -176,7 +176,10 @@ def test_the_replay_loads_the_kinds_panel_and_it_compares_four_kinds(client, sto
     replay = client.get(f"/rules/{rule_id}/replay").get_data(as_text=True)
     assert f"/rules/{rule_id}/kinds?" in replay
     kinds_url = f"/rules/{rule_id}/kinds?series_id={stored_rules['depth']}"
-    panel = client.get(kinds_url).get_data(as_text=True)
+    panel = client.get(kinds_url, headers={"HX-Request": "true"}).get_data(as_text=True)
+    assert "<html" not in panel  # the fragment the rule's page swaps in
+    page = client.get(kinds_url).get_data(as_text=True)  # the link for readers without JS
+    assert "<html" in page and "<title>Rule kinds" in page and 'id="kinds"' in page
     kinds = [k for k in ("threshold", "band", "burn-rate") if f"{k} <span" in panel]
     assert kinds == ["threshold", "band", "burn-rate"]
     assert panel.count("<tr") == 5  # the header and four kinds

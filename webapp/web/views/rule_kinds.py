@@ -6,12 +6,13 @@ from __future__ import annotations
 
 from typing import Any
 
-from flask import Blueprint, render_template, request
+from flask import Blueprint, request
 
 from webapp.analysis.vocabulary import KIND_NAMES
 from webapp.services.replay import matching_series
 from webapp.services.rule_kinds import compare_kinds
 from webapp.store import db
+from webapp.web.htmx import render
 from webapp.web.views.rules import load_rule
 
 bp = Blueprint("rule_kinds", __name__)
@@ -19,7 +20,8 @@ bp = Blueprint("rule_kinds", __name__)
 
 @bp.get("/rules/<int:rule_id>/kinds")
 def kinds(rule_id: int) -> Any:
-    """The comparison panel (a fragment; the rule's page loads it)."""
+    """The comparison panel: a fragment when the rule's page loads it, a page of its own
+    when opened directly (the link for readers without JavaScript)."""
     session = db.get_session()
     rule = load_rule(rule_id)
     chosen = request.args.get("series_id", "")
@@ -35,6 +37,11 @@ def kinds(rule_id: int) -> Any:
             comparison = compare_kinds(session, rule, info)
         except ValueError as err:
             problem = f"The rule kinds cannot be compared: {err}."
-    return render_template(
-        "rules/_kinds.html", rule=rule, comparison=comparison, problem=problem, kinds=KIND_NAMES
+    return render(
+        "rules/kinds.html",
+        "rules/_kinds.html",
+        rule=rule,
+        comparison=comparison,
+        problem=problem,
+        kinds=KIND_NAMES,
     )
