@@ -50,6 +50,42 @@ def test_heavy_and_skewed_noise_stay_within_twice_nominal(draw):
     assert NOMINAL_OUT / 2 <= share <= 2 * NOMINAL_OUT
 
 
+def test_one_minute_gaussian_noise_at_width_two_is_outside_its_nominal_share():
+    """The same-hour habit (three hours of 1-minute samples per day and hour) must not widen
+    the band on noise that has none, at a narrow width either."""
+    nominal = 2 * norm.sf(2.0)  # standard normal table: 4.55% beyond +-2 sd
+    outside, total = 0, 0
+    for seed in range(3):
+        rng = np.random.default_rng(50 + seed)
+        index = pd.date_range(T0, periods=15 * 1440, freq="1min")
+        series = pd.Series(rng.normal(100, 5, len(index)), index=index)
+        band = expected_band(series, index[-1440:], tolerance=2.0)
+        values = series.iloc[-1440:].to_numpy()
+        outside += int(np.sum((values < band["lower"]) | (values > band["upper"])))
+        total += len(values)
+    share = outside / total
+    assert abs(share - nominal) < 4 * np.sqrt(nominal * (1 - nominal) / total)
+
+
+def test_a_spike_near_the_same_hour_on_most_days_is_expected_there_and_nowhere_else():
+    """A nightly job lifts the metric for one 5-minute sample between 03:20 and 03:40 on
+    most days: that is the metric's habit, not news; the same spike at 15:30, or one three
+    times as high at 03:30, is."""
+    rng = np.random.default_rng(12)
+    days = 22
+    index = pd.date_range(T0, periods=days * 288, freq="5min")
+    values = rng.normal(10, 0.5, len(index))
+    for day in range(days):
+        if day % 5 != 4:  # four days in five
+            values[day * 288 + 40 + rng.integers(0, 5)] = rng.uniform(35, 45)  # 03:20-03:40
+    series = pd.Series(values, index=index)
+    window = index[-288:]
+    band = expected_band(series, window)
+    at = {t: window.get_loc(window[0] + pd.Timedelta(t)) for t in ("3h30min", "15h30min")}
+    assert band["upper"].iloc[at["3h30min"]] > 38 > 35 > band["upper"].iloc[at["15h30min"]]
+    assert band["upper"].iloc[at["3h30min"]] < 120
+
+
 def test_skewed_noise_gets_a_skewed_band():
     rng = np.random.default_rng(4)
     index = pd.date_range(T0, periods=29 * 288, freq="5min")

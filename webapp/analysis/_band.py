@@ -29,7 +29,13 @@ rather than zero.
 The sides are not +-tolerance x scale but calibrated out of sample: the quantiles, in units
 of the scale, of the errors a rolling-origin backtest made forecasting the last days of the
 history (`_calibrate`, `_tail`), each side on its own. Only when the history is too short
-to backtest (under two days) are they +-tolerance x scale. `Limits` keeps the band within
+to backtest (under two days) are they +-tolerance x scale. A habit near a wall-clock hour
+widens them there (`HourlyRecurrence`, our rule): when on at least half of the backtest
+days the errors within an hour either way of an hour of the day went further than the
+sides (beyond the count chance gives such a stretch), the median of how far they went is
+the side at that hour; a job that spikes near 03:30 on most nights is then expected at
+03:30 and nowhere else, and a spike that recurs at no particular hour changes nothing.
+`Limits` keeps the band within
 what the metric can take: counts stay whole and non-negative, a ratio stays in [0, 1],
 nothing expected or lower falls below the smallest value the history took when that is
 >= 0, and a floor the metric idles at is always inside.
@@ -38,7 +44,7 @@ nothing expected or lower falls below the smallest value the history took when t
 from __future__ import annotations
 
 from collections.abc import Iterable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
@@ -58,6 +64,8 @@ HOURLY_NOISE_Z = 5.0
 SCALE_FLOOR = 1e-9
 DAY = pd.Timedelta(days=1)
 SMALL_COUNT = 10  # a whole-number series whose median is at most this is read as counts
+MIN_RECUR_DAYS = 3  # backtest days needed before a same-hour habit counts
+RECUR_NEAR_HOURS = 1  # a habit's time may drift by an hour either way
 IDLE_SHARE = 0.01  # the lowest value is an idle floor when at least this share sits on it
 EMPTY_BAND_COLUMNS = ("trend", "seasonal", "expected", "band_scale", "lower", "upper")
 
@@ -161,6 +169,73 @@ class Limits:
 
 
 @dataclass(frozen=True)
+class HourlyRecurrence:
+    """The backtest errors (in units of the scale) grouped by backtest day and wall-clock
+    hour: what most days reached near each hour is expected at that hour (see `sides`)."""
+
+    errors: np.ndarray  # standardised backtest errors
+    hours: np.ndarray  # their wall-clock hour, 0-23
+    days: np.ndarray  # their backtest day, 0 = the last
+    tz: str
+    cache: dict = field(default_factory=dict, compare=False, repr=False)
+
+    @classmethod
+    def of(
+        cls, z: np.ndarray, index: pd.DatetimeIndex, tz: str, span: int, days: int
+    ) -> HourlyRecurrence | None:
+        """None when there are too few backtest days or the grid is coarser than an hour."""
+        step = index[1] - index[0] if len(index) > 1 else DAY
+        if days < MIN_RECUR_DAYS or step > pd.Timedelta(hours=1):
+            return None
+        n = len(z)
+        day = np.full(n, -1)
+        for k in range(days):
+            day[max(0, n - (k + 1) * span) : n - k * span] = k
+        ok = (day >= 0) & np.isfinite(z)
+        hours = (wall_clock_ns(index, tz) % DAY_NS // HOUR_NS).astype(np.int64)
+        return cls(z[ok], hours[ok], day[ok], tz)
+
+    def sides(self, tolerance: float) -> tuple[np.ndarray, np.ndarray]:
+        """(low, high) per wall-clock hour: the median over the backtest days of the r-th
+        most extreme error within the hour, give or take one (`RECUR_NEAR_HOURS`), where r
+        is one more than the number of samples such a stretch holds beyond the side by
+        chance. On noise without a daily habit that stays inside +-tolerance, so nothing
+        changes; a job that spikes near 03:30 on most days is expected there."""
+        if tolerance not in self.cache:
+            self.cache[tolerance] = self._sides(beyond_share(tolerance))
+        return self.cache[tolerance]
+
+    def _sides(self, beyond: float) -> tuple[np.ndarray, np.ndarray]:
+        n_days = int(self.days.max()) + 1
+        high = np.full((n_days, 24), np.nan)
+        low = np.full((n_days, 24), np.nan)
+        for d in range(n_days):
+            on_day = self.days == d
+            z, hours = self.errors[on_day], self.hours[on_day]
+            for h in range(24):
+                near = np.abs((hours - h + 12) % 24 - 12) <= RECUR_NEAR_HOURS
+                x = z[near]
+                if len(x) < 2:
+                    continue
+                r = min(len(x), int(round(len(x) * beyond)) + 1)
+                high[d, h] = np.partition(x, len(x) - r)[len(x) - r]
+                low[d, h] = np.partition(x, r - 1)[r - 1]
+        enough = np.isfinite(high).sum(axis=0) >= MIN_RECUR_DAYS
+        low_h, high_h = np.full(24, np.nan), np.full(24, np.nan)
+        if enough.any():
+            high_h[enough] = np.nanmedian(high[:, enough], axis=0)
+            low_h[enough] = np.nanmedian(low[:, enough], axis=0)
+        return low_h, high_h
+
+    def widen(
+        self, index: pd.DatetimeIndex, low: np.ndarray, high: np.ndarray, tolerance: float
+    ) -> tuple[np.ndarray, np.ndarray]:
+        lows, highs = self.sides(tolerance)
+        hours = (wall_clock_ns(index, self.tz) % DAY_NS // HOUR_NS).astype(np.int64)
+        return np.fmin(low, lows[hours]), np.fmax(high, highs[hours])
+
+
+@dataclass(frozen=True)
 class BaselineFit:
     """Decomposition, level, scale and calibration fitted on a baseline; `band` evaluates
     them on a grid. Times after `end` are forecast: seasonal pattern plus `level`."""
@@ -173,6 +248,7 @@ class BaselineFit:
     end: pd.Timestamp
     limits: Limits
     calibration: Calibration | None
+    recurring: HourlyRecurrence | None = None
 
     @property
     def periods(self) -> list[pd.Timedelta]:
@@ -197,6 +273,9 @@ class BaselineFit:
             if self.calibration is not None
             else (-tolerance, tolerance)
         )
+        low, high = np.full(len(index), low), np.full(len(index), high)
+        if self.recurring is not None:
+            low, high = self.recurring.widen(index, low, high, tolerance)
         lower, upper = expected + low * scale, expected + high * scale
         if np.isfinite(self.level_before):
             before = self.limits.clip_expected(np.where(ahead, self.level_before, trend) + seasonal)
@@ -242,8 +321,21 @@ def fit_baseline(
     )
     calibration = calibrate(errors, scale.at(baseline.index), days)
     end = baseline.index[-1] if len(baseline) else pd.Timestamp.min.tz_localize("UTC")
+    recurring = (
+        HourlyRecurrence.of(calibration.errors, baseline.index, tz, span, days)
+        if calibration is not None
+        else None
+    )
     return BaselineFit(
-        decomposition, scale, candidates, level, level_before, end, Limits.of(y, span), calibration
+        decomposition,
+        scale,
+        candidates,
+        level,
+        level_before,
+        end,
+        Limits.of(y, span),
+        calibration,
+        recurring,
     )
 
 
