@@ -235,3 +235,16 @@ def test_a_past_incident_in_the_history_does_not_set_the_band_and_wider_stays_wi
         widths[tolerance] = float((inside["upper"] - inside["expected"]).median())
     assert widths[3.0] < widths[4.0]
     assert widths[3.0] < 100  # the noise is 5 wide; the incident is 1,260 above
+
+
+def test_the_explanation_names_the_hours_a_habit_widens_the_band():
+    rng = np.random.default_rng(12)
+    index = pd.date_range(T0, periods=22 * 288, freq="5min")
+    values = rng.normal(10, 0.5, len(index))
+    for day in range(21):
+        values[day * 288 + 40 + rng.integers(0, 5)] = rng.uniform(35, 45)  # 03:20-03:40
+    exp = explain(pd.Series(values, index=index), window=(index[-288], index[-1]))
+    hours = exp.facts["band_habit_hours"]
+    assert "03:00" in hours and "15:00" not in hours
+    sentence = next(s for s in exp.summary if "reaches further" in s)
+    assert "At 02:00–05:00 it reaches further" in sentence

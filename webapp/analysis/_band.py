@@ -227,6 +227,12 @@ class HourlyRecurrence:
             low_h[enough] = np.nanmedian(low[:, enough], axis=0)
         return low_h, high_h
 
+    def hours_beyond(self, low: float, high: float, tolerance: float) -> list[int]:
+        """The wall-clock hours at which a habit reaches past the sides `low`, `high`."""
+        lows, highs = self.sides(tolerance)
+        with np.errstate(invalid="ignore"):
+            return [int(h) for h in np.flatnonzero((lows < low) | (highs > high))]
+
     def widen(
         self, index: pd.DatetimeIndex, low: np.ndarray, high: np.ndarray, tolerance: float
     ) -> tuple[np.ndarray, np.ndarray]:
@@ -254,6 +260,18 @@ class BaselineFit:
     def periods(self) -> list[pd.Timedelta]:
         return list(self.decomposition.periods)
 
+    def sides(self, tolerance: float) -> tuple[float, float]:
+        """The calibrated (lower, upper) side in units of the scale, before any habit."""
+        if self.calibration is None:
+            return -tolerance, tolerance
+        return self.calibration.quantiles(tolerance)
+
+    def habit_hours(self, tolerance: float) -> list[int]:
+        """Wall-clock hours at which a daily habit widens the band (see `HourlyRecurrence`)."""
+        if self.recurring is None:
+            return []
+        return self.recurring.hours_beyond(*self.sides(tolerance), tolerance)
+
     def band(self, index: pd.DatetimeIndex, tolerance: float = 3.0) -> pd.DataFrame:
         """Columns: trend, seasonal_<label>..., seasonal, expected, band_scale, lower, upper.
 
@@ -268,12 +286,7 @@ class BaselineFit:
         out["expected"] = expected
         scale = self.scale.at(index)
         out["band_scale"] = scale
-        low, high = (
-            self.calibration.quantiles(tolerance)
-            if self.calibration is not None
-            else (-tolerance, tolerance)
-        )
-        low, high = np.full(len(index), low), np.full(len(index), high)
+        low, high = (np.full(len(index), side) for side in self.sides(tolerance))
         if self.recurring is not None:
             low, high = self.recurring.widen(index, low, high, tolerance)
         lower, upper = expected + low * scale, expected + high * scale

@@ -228,9 +228,11 @@ def build_facts(
 def band_coverage_facts(fit: BaselineFit | None, tolerance: float) -> dict[str, Any]:
     """How the band's sides were set, and the share of held-out history it held."""
     calibration = fit.calibration if fit else None
+    habits = [f"{h:02d}:00" for h in fit.habit_hours(tolerance)] if fit else []
     return {
         "band_sides": None if fit is None else ("backtest" if calibration else "scale"),
         "band_backtest_days": calibration.days if calibration else None,
         "band_coverage": number(calibration.coverage(tolerance)) if calibration else None,
         "band_coverage_nominal": nominal_coverage(tolerance),
+        "band_habit_hours": habits or None,
     }

@@ -17,7 +17,9 @@ Keys (None where not applicable):
   history is too short for that: +-tolerance x scale); None without a band.
   band_backtest_days: days forecast in that backtest; band_coverage: share of their
   samples inside the band at this tolerance; band_coverage_nominal: the share the band is
-  built to hold, 1 - 2 x (1 - Phi(tolerance)) (0.9973 at 3)
+  built to hold, 1 - 2 x (1 - Phi(tolerance)) (0.9973 at 3); band_habit_hours: the
+  wall-clock hours ("03:00") at which a daily habit widens the band (on most backtest days
+  the errors within an hour of it went past the sides), None when there is none
 - peak_time, peak_value, peak_expected, peak_lower, peak_upper, peak_deviation_sd: the
   highest value in the window, and how far it was from expected in robust sds
 - strongest_time, strongest_value, strongest_expected, strongest_deviation_sd: the sample

@@ -209,10 +209,30 @@ def band_coverage_sentence(f: dict[str, Any]) -> str | None:
     span = (
         f"{days // 7} weeks" if days % 7 == 0 and days >= 14 else f"{days} day" + "s" * (days != 1)
     )
-    return (
+    held = (
         f"Over the last {span}, each day forecast from the days before it, this band held "
         f"{share(f['band_coverage'])} of samples; it is built to hold {nominal}."
     )
+    hours = f.get("band_habit_hours")
+    if not hours:
+        return held
+    spans = hour_spans([int(h[:2]) for h in hours])
+    near = spans[0] if len(spans) == 1 else ", ".join(spans[:-1]) + f" and {spans[-1]}"
+    return (
+        f"{held} At {near} it reaches further: on most of those days the metric went that "
+        "far near that time of day (a habit, such as a scheduled job)."
+    )
+
+
+def hour_spans(hours: list[int]) -> list[str]:
+    """Consecutive wall-clock hours as spans: [2, 3, 4, 9] -> ["02:00–05:00", "09:00–10:00"]."""
+    spans: list[list[int]] = []
+    for h in sorted(hours):
+        if spans and h == spans[-1][1] + 1:
+            spans[-1][1] = h
+        else:
+            spans.append([h, h])
+    return [f"{a:02d}:00–{(b + 1) % 24:02d}:00" for a, b in spans]
 
 
 def coverage_sentence(f: dict[str, Any]) -> str:
