@@ -37,8 +37,8 @@ the side at that hour; a job that spikes near 03:30 on most nights is then expec
 03:30 and nowhere else, and a spike that recurs at no particular hour changes nothing.
 `Limits` keeps the band within
 what the metric can take: counts stay whole and non-negative, a ratio stays in [0, 1],
-nothing expected or lower falls below the smallest value the history took when that is
->= 0, and a floor the metric idles at is always inside.
+and nothing expected or lower falls below the smallest value the history took when that
+is >= 0.
 """
 
 from __future__ import annotations
@@ -66,7 +66,6 @@ DAY = pd.Timedelta(days=1)
 SMALL_COUNT = 10  # a whole-number series whose median is at most this is read as counts
 MIN_RECUR_DAYS = 3  # backtest days needed before a same-hour habit counts
 RECUR_NEAR_HOURS = 1  # a habit's time may drift by an hour either way
-IDLE_SHARE = 0.01  # the lowest value is an idle floor when at least this share sits on it
 EMPTY_BAND_COLUMNS = ("trend", "seasonal", "expected", "band_scale", "lower", "upper")
 
 
@@ -118,7 +117,6 @@ class Limits:
     counts: bool  # small non-negative integers (errors per minute), see `SMALL_COUNT`
     ratio: bool  # within [0, 1] and reaching above one half
     recent_mean: float  # over the last day: the rate a count band is read around
-    idle: float = np.nan  # the lowest value, when the metric sits on it (see `IDLE_SHARE`)
 
     @classmethod
     def of(cls, values: np.ndarray, span: int) -> Limits:
@@ -134,7 +132,6 @@ class Limits:
             counts=bool(lowest >= 0 and np.median(x) <= SMALL_COUNT and np.all(x == np.round(x))),
             ratio=bool(lowest >= 0 and 0.5 < highest <= 1),
             recent_mean=float(recent.mean()) if len(recent) else float(x.mean()),
-            idle=lowest if np.mean(x <= lowest + 1e-9 * abs(lowest)) >= IDLE_SHARE else np.nan,
         )
 
     def clip_expected(self, expected: np.ndarray) -> np.ndarray:
@@ -149,18 +146,14 @@ class Limits:
         """Sides that respect the metric's scale. Counts: whole numbers, at least the Poisson
         quantiles around the expected rate (or the last day's mean rate, if higher), and one
         count above the expected value is never outside (our rule: a single 0 -> 1 blip is
-        not news). A floor the metric idles at (its lowest value, taken by at least
-        `IDLE_SHARE` of the history: a host's CPU at 0.066, a link's idle 42 bytes) is always
-        inside: sitting idle is not news (our rule). Never below the smallest value taken
-        when that is >= 0; a ratio's upper side never above 1."""
+        not news). Never below the smallest value taken when that is >= 0; a ratio's upper
+        side never above 1."""
         if self.counts:
             beyond = beyond_share(tolerance)
             rate = np.maximum(np.nan_to_num(np.maximum(expected, self.recent_mean)), 1e-12)
             upper = np.fmax(np.ceil(upper), poisson.isf(beyond, rate))
             upper = np.fmax(upper, np.floor(expected) + 1)
             lower = np.fmin(np.floor(lower), poisson.ppf(beyond, rate))
-        if np.isfinite(self.idle):
-            lower = np.fmin(lower, self.idle)
         if self.lowest >= 0:
             lower = np.maximum(lower, self.lowest)
         if self.ratio:
