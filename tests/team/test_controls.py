@@ -21,6 +21,8 @@ from flask.testing import FlaskClient
 from werkzeug.exceptions import HTTPException
 
 from webapp import create_app
+from webapp.demo import build_demo
+from webapp.services.demo import load_demo
 from webapp.store import db, users
 from webapp.store.models import AlertRule, Page, Review
 from webapp.web.auth import ADMIN_ENDPOINTS
@@ -131,10 +133,33 @@ def everything(found: dict[str, set[str]]) -> set[str]:
     return set().union(*found.values())
 
 
+@pytest.fixture(scope="module")
+def team_demo_template(postgres_server) -> Iterator[str]:
+    """The demo scenario in a PostgreSQL database of this module's own (the shared demo
+    fixtures follow the two-store parameter, which team mode replaces)."""
+    name = postgres_server.create()
+    engine = db.make_engine(postgres_server.url_of(name))
+    try:
+        db.upgrade(engine)
+        with db.session_scope(engine) as session:
+            load_demo(session, build_demo(seed=7))
+    finally:
+        engine.dispose()
+    yield name
+    postgres_server.drop(name)
+
+
 @pytest.fixture
-def demo_team(demo_db_copy: str) -> Iterator[Flask]:
+def demo_url(postgres_server, team_demo_template: str) -> Iterator[str]:
+    name = postgres_server.create(template=team_demo_template)
+    yield postgres_server.url_of(name)
+    postgres_server.drop(name)
+
+
+@pytest.fixture
+def demo_team(demo_url: str) -> Iterator[Flask]:
     """The demo scenario served in team mode."""
-    app = create_app({"TESTING": True, "DATABASE_URL": demo_db_copy, "TEAM_MODE": True})
+    app = create_app({"TESTING": True, "DATABASE_URL": demo_url, "TEAM_MODE": True})
     yield app
     db.get_engine(app).dispose()
 
@@ -237,8 +262,8 @@ def test_an_editor_sees_every_change_but_no_admin_control(as_role, csrf_of, seed
     assert admin_seen == seen | ADMIN_ENDPOINTS
 
 
-def test_without_team_mode_every_control_is_there(demo_db_copy, csrf_of, seeds):
-    local = create_app({"TESTING": True, "DATABASE_URL": demo_db_copy})
+def test_without_team_mode_every_control_is_there(demo_url, csrf_of, seeds):
+    local = create_app({"TESTING": True, "DATABASE_URL": demo_url})
     try:
         client = local.test_client()
         add_verdict_and_action(client, csrf_of, seeds)
@@ -249,10 +274,10 @@ def test_without_team_mode_every_control_is_there(demo_db_copy, csrf_of, seeds):
 
 
 @pytest.mark.parametrize("url", ["/reviews/new", "/rules/new", "/reviews/1/edit", "/rules/1/edit"])
-def test_a_viewer_opening_the_form_of_a_change_is_refused(as_role, url):
-    viewer = as_role("viewer")
+def test_a_viewer_opening_the_form_of_a_change_is_refused(signed_in, url):
+    viewer, _ = signed_in("viewer")
     response = viewer.get(url)
     assert response.status_code == 403
     assert "can read but not change this (role: viewer)" in response.text
     if url.endswith("/new"):
-        assert as_role("editor").get(url).status_code == 200
+        assert signed_in("editor")[0].get(url).status_code == 200
