@@ -34,6 +34,7 @@ from webapp.web.htmx import is_htmx
 bp = Blueprint("auth", __name__)
 
 READ_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
+CHANGING_METHODS = frozenset({"POST", "PUT", "PATCH", "DELETE"})
 OPEN_ENDPOINTS = frozenset({"auth.sign_in", "static", "assets.plotly_js"})
 ADMIN_ENDPOINTS = frozenset({"imports.delete"})  # undoing an import removes data
 TRIES_PER_MINUTE = 10  # sign-in tries per client address, on top of the per-account wait
@@ -57,12 +58,19 @@ def check_access() -> Response | None:
     g.audit_token = audit.acting.set(g.user.name)
     if request.endpoint == "auth.sign_out":
         return None
-    changing = request.method not in READ_METHODS or request.endpoint in ADMIN_ENDPOINTS
-    if changing and not may(request.endpoint or ""):
-        if g.user.role == "viewer":
-            abort(403, description="Your account can read but not change anything (role: viewer).")
-        abort(403, description=f"Only an admin can do this (your role: {g.user.role}).")
+    endpoint = request.endpoint or ""
+    if _changing(endpoint) and not may(endpoint):
+        abort(403, description=refusal(endpoint))
     return None
+
+
+def _changing(endpoint: str) -> bool:
+    """A change, an admin-only endpoint, or the form of a change: a GET of a URL that also
+    takes a POST (a new or edit form) is refused to whoever may not send it."""
+    if request.method not in READ_METHODS or endpoint in ADMIN_ENDPOINTS:
+        return True
+    rule = request.url_rule
+    return rule is not None and bool((rule.methods or set()) & CHANGING_METHODS)
 
 
 def may(endpoint: str) -> bool:
@@ -76,6 +84,16 @@ def may(endpoint: str) -> bool:
     if endpoint in ADMIN_ENDPOINTS:
         return user.role == "admin"
     return user.role != "viewer"
+
+
+def refusal(endpoint: str) -> str:
+    """Why the person signed in may not use this endpoint, in one line: the 403's message,
+    and the line a screen shows where the refused form would be."""
+    user = current_user()
+    role = user.role if user is not None else "none"
+    if endpoint in ADMIN_ENDPOINTS and role != "viewer":
+        return f"Only an admin can do this (your role: {role})."
+    return f"Your account can read but not change this (role: {role})."
 
 
 def _signed_in_user() -> User | None:
@@ -164,4 +182,5 @@ def init_app(app: Flask) -> None:
     app.teardown_request(_forget_actor)
     app.add_template_global(current_user, "current_user")
     app.add_template_global(may, "may")
+    app.add_template_global(refusal, "refusal")
     app.register_blueprint(bp)
