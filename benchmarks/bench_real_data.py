@@ -35,7 +35,7 @@ Methods, all on the grid whyfired's explain() puts the data on:
 With --curve, every method also runs at other widths (whyfired at `CURVE_WIDTHS`, the plain
 bands, whose width is not calibrated, up to 50 sds) and the script prints, for each, the
 highest recall among the widths that stay within 5 stretches a week: the fair comparison,
-since any band found more by being left more often.
+since any band finds more by being left more often.
 
 Bars: at most 5 stretches per week, at most 1% of normal samples outside, recall at least
 0.90, AUC at least 0.85 (all for whyfired; the other two are printed for comparison).

@@ -66,6 +66,7 @@ DAY = pd.Timedelta(days=1)
 SMALL_COUNT = 10  # a whole-number series whose median is at most this is read as counts
 MIN_RECUR_DAYS = 3  # backtest days needed before a same-hour habit counts
 RECUR_NEAR_HOURS = 1  # a habit's time may drift by an hour either way
+NEAR_SHIFTS = range(-RECUR_NEAR_HOURS, RECUR_NEAR_HOURS + 1)
 EMPTY_BAND_COLUMNS = ("trend", "seasonal", "expected", "band_scale", "lower", "upper")
 
 
@@ -164,11 +165,16 @@ class Limits:
 @dataclass(frozen=True)
 class HourlyRecurrence:
     """The backtest errors (in units of the scale) grouped by backtest day and wall-clock
-    hour: what most days reached near each hour is expected at that hour (see `sides`)."""
+    hour: what most days reached near each hour is expected at that hour (see `sides`).
 
-    errors: np.ndarray  # standardised backtest errors
-    hours: np.ndarray  # their wall-clock hour, 0-23
-    days: np.ndarray  # their backtest day, 0 = the last
+    The errors are kept sorted by (day, hour) and, within each, from the largest down, so
+    that any tolerance's sides need no further sorting."""
+
+    errors: np.ndarray  # standardised backtest errors, sorted as above
+    bucket: np.ndarray  # day * 24 + wall-clock hour of each; day 0 = the last
+    rank: np.ndarray  # 0 = the largest of its bucket
+    size: np.ndarray  # how many errors its bucket holds
+    n_days: int
     tz: str
     cache: dict = field(default_factory=dict, compare=False, repr=False)
 
@@ -185,40 +191,51 @@ class HourlyRecurrence:
         for k in range(days):
             day[max(0, n - (k + 1) * span) : n - k * span] = k
         ok = (day >= 0) & np.isfinite(z)
-        hours = (wall_clock_ns(index, tz) % DAY_NS // HOUR_NS).astype(np.int64)
-        return cls(z[ok], hours[ok], day[ok], tz)
+        hours = wall_clock_ns(index, tz) % DAY_NS // HOUR_NS
+        bucket, z = day[ok] * 24 + hours[ok], z[ok]
+        order = np.lexsort((-z, bucket))
+        bucket = bucket[order]
+        first = np.searchsorted(bucket, bucket, side="left")
+        size = np.searchsorted(bucket, bucket, side="right") - first
+        rank = np.arange(len(bucket)) - first
+        return cls(z[order], bucket, rank, size, days, tz)
 
     def sides(self, tolerance: float) -> tuple[np.ndarray, np.ndarray]:
         """(low, high) per wall-clock hour: the median over the backtest days of the r-th
         most extreme error within the hour, give or take one (`RECUR_NEAR_HOURS`), where r
-        is one more than the number of samples such a stretch holds beyond the side by
-        chance. On noise without a daily habit that stays inside +-tolerance, so nothing
-        changes; a job that spikes near 03:30 on most days is expected there."""
+        is one more than the number of samples such a stretch typically holds beyond the
+        side by chance. On noise without a daily habit that stays inside +-tolerance, so
+        nothing changes; a job that spikes near 03:30 on most days is expected there."""
         if tolerance not in self.cache:
             self.cache[tolerance] = self._sides(beyond_share(tolerance))
         return self.cache[tolerance]
 
     def _sides(self, beyond: float) -> tuple[np.ndarray, np.ndarray]:
-        n_days = int(self.days.max()) + 1
-        high = np.full((n_days, 24), np.nan)
-        low = np.full((n_days, 24), np.nan)
-        for d in range(n_days):
-            on_day = self.days == d
-            z, hours = self.errors[on_day], self.hours[on_day]
-            for h in range(24):
-                near = np.abs((hours - h + 12) % 24 - 12) <= RECUR_NEAR_HOURS
-                x = z[near]
-                if len(x) < 2:
-                    continue
-                r = min(len(x), int(round(len(x) * beyond)) + 1)
-                high[d, h] = np.partition(x, len(x) - r)[len(x) - r]
-                low[d, h] = np.partition(x, r - 1)[r - 1]
+        per_bucket = np.bincount(self.bucket, minlength=self.n_days * 24)
+        per_bucket = per_bucket.reshape(self.n_days, 24)
+        near = sum(np.roll(per_bucket, s, axis=1) for s in NEAR_SHIFTS)  # samples per stretch
+        typical = float(np.median(near[near > 0])) if (near > 0).any() else 0.0
+        r = max(1, int(round(typical * beyond)) + 1)
+        high = self._rth_extreme(self.errors, self.rank, r)
+        low = -self._rth_extreme(-self.errors, self.size - 1 - self.rank, r)
         enough = np.isfinite(high).sum(axis=0) >= MIN_RECUR_DAYS
         low_h, high_h = np.full(24, np.nan), np.full(24, np.nan)
         if enough.any():
             high_h[enough] = np.nanmedian(high[:, enough], axis=0)
             low_h[enough] = np.nanmedian(low[:, enough], axis=0)
         return low_h, high_h
+
+    def _rth_extreme(self, z: np.ndarray, rank: np.ndarray, r: int) -> np.ndarray:
+        """(days, 24): the r-th largest of `z` (ranked `rank` within its bucket, 0 = largest)
+        within each day's hour, give or take `RECUR_NEAR_HOURS`; NaN where that stretch
+        holds fewer than r values."""
+        keep = rank < r
+        top = np.full((self.n_days * 24, r), -np.inf)
+        top[self.bucket[keep], rank[keep]] = z[keep]
+        top = top.reshape(self.n_days, 24, r)
+        stretch = np.concatenate([np.roll(top, s, axis=1) for s in NEAR_SHIFTS], axis=2)
+        out = np.partition(stretch, -r, axis=2)[:, :, -r]
+        return np.where(np.isfinite(out), out, np.nan)
 
     def hours_beyond(self, low: float, high: float, tolerance: float) -> list[int]:
         """The wall-clock hours at which a habit reaches past the sides `low`, `high`."""
