@@ -324,6 +324,19 @@ def test_demo_reviews_export_to_a_new_folder_small_and_quiet(
     assert markdown.read_text(encoding="utf-8").count(caution) == 1
 
 
+def test_a_command_on_a_current_store_does_not_migrate_it(
+    runner, demo_db_copy, tmp_path, monkeypatch
+):
+    def no_migration(engine):
+        raise AssertionError("the store is current: nothing to migrate")
+
+    monkeypatch.setattr(db, "upgrade", no_migration)
+    args = ["export", "review", "1", "-o", f"{tmp_path}/", "--db", demo_db_copy]
+    result = runner.invoke(cli, args)
+    assert result.exit_code == 0, result.output
+    assert (tmp_path / "review-1.md").is_file()
+
+
 def test_export_of_an_unknown_review_says_so(runner, db_url, tmp_path):
     result = runner.invoke(
         cli, ["export", "review", "7", "-o", str(tmp_path / "x.md"), "--db", db_url]
