@@ -2,7 +2,12 @@
 
 from __future__ import annotations
 
+import io
+import re
 import socket
+import subprocess
+import sys
+import zipfile
 from datetime import UTC, datetime
 from pathlib import Path
 
@@ -335,6 +340,37 @@ def test_a_command_on_a_current_store_does_not_migrate_it(
     result = runner.invoke(cli, args)
     assert result.exit_code == 0, result.output
     assert (tmp_path / "review-1.md").is_file()
+
+
+EXPORTED_AT = re.compile(rb"^Exported from whyfired on .* UTC\.$", re.MULTILINE)
+
+
+@pytest.mark.parametrize("review_id", [1, 2])
+def test_the_markdown_export_in_a_new_process_matches_the_download(
+    demo_client, demo_db_copy, tmp_path, review_id
+):
+    """The command, in a process of its own (which loads no Flask and no Alembic), writes
+    the Markdown and figures of the web download byte for byte, but for the export time."""
+    folder = tmp_path / "exported"
+    args = ["export", "review", str(review_id), "--format", "md", "-o", f"{folder}/"]
+    command = [sys.executable, "-c", "from webapp.cli import main; main()", *args]
+    done = subprocess.run([*command, "--db", demo_db_copy], capture_output=True, text=True)
+    assert done.returncode == 0, done.stdout + done.stderr
+    written = {
+        path.relative_to(folder).as_posix(): path.read_bytes()
+        for path in folder.rglob("*")
+        if path.is_file()
+    }
+    download = demo_client.get(f"/reviews/{review_id}/export.zip")
+    with zipfile.ZipFile(io.BytesIO(download.data)) as archive:
+        downloaded = {name: archive.read(name) for name in archive.namelist()}
+    name = f"review-{review_id}.md"
+    assert any(path.endswith(".svg") for path in written)
+    assert written.keys() == downloaded.keys()
+    for path, data in written.items():
+        if path == name:  # one line says when it was exported
+            data, downloaded[path] = (EXPORTED_AT.sub(b"", x) for x in (data, downloaded[path]))
+        assert data == downloaded[path], path
 
 
 def test_export_of_an_unknown_review_says_so(runner, db_url, tmp_path):
