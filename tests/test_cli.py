@@ -342,6 +342,22 @@ def test_a_command_on_a_current_store_does_not_migrate_it(
     assert (tmp_path / "review-1.md").is_file()
 
 
+@pytest.mark.parametrize("enabled", [True, False])
+def test_an_export_leaves_the_cycle_collector_as_it_found_it(
+    runner, demo_db_copy, tmp_path, enabled
+):
+    import gc
+
+    (gc.enable if enabled else gc.disable)()
+    try:
+        args = ["export", "review", "1", "-o", f"{tmp_path}/", "--db", demo_db_copy]
+        result = runner.invoke(cli, args)
+        assert gc.isenabled() is enabled
+    finally:
+        gc.enable()
+    assert result.exit_code == 0, result.output
+
+
 EXPORTED_AT = re.compile(rb"^Exported from whyfired on .* UTC\.$", re.MULTILINE)
 
 
