@@ -2,7 +2,12 @@
 
 from __future__ import annotations
 
+import io
+import re
 import socket
+import subprocess
+import sys
+import zipfile
 from datetime import UTC, datetime
 from pathlib import Path
 
@@ -322,6 +327,66 @@ def test_demo_reviews_export_to_a_new_folder_small_and_quiet(
     caution = "Retiring an alert can hide a real failure"
     assert html.read_text(encoding="utf-8").count(caution) == 1
     assert markdown.read_text(encoding="utf-8").count(caution) == 1
+
+
+def test_a_command_on_a_current_store_does_not_migrate_it(
+    runner, demo_db_copy, tmp_path, monkeypatch
+):
+    def no_migration(engine):
+        raise AssertionError("the store is current: nothing to migrate")
+
+    monkeypatch.setattr(db, "upgrade", no_migration)
+    args = ["export", "review", "1", "-o", f"{tmp_path}/", "--db", demo_db_copy]
+    result = runner.invoke(cli, args)
+    assert result.exit_code == 0, result.output
+    assert (tmp_path / "review-1.md").is_file()
+
+
+@pytest.mark.parametrize("enabled", [True, False])
+def test_an_export_leaves_the_cycle_collector_as_it_found_it(
+    runner, demo_db_copy, tmp_path, enabled
+):
+    import gc
+
+    (gc.enable if enabled else gc.disable)()
+    try:
+        args = ["export", "review", "1", "-o", f"{tmp_path}/", "--db", demo_db_copy]
+        result = runner.invoke(cli, args)
+        assert gc.isenabled() is enabled
+    finally:
+        gc.enable()
+    assert result.exit_code == 0, result.output
+
+
+EXPORTED_AT = re.compile(rb"^Exported from whyfired on .* UTC\.$", re.MULTILINE)
+
+
+@pytest.mark.parametrize("review_id", [1, 2])
+def test_the_markdown_export_in_a_new_process_matches_the_download(
+    demo_client, demo_db_copy, tmp_path, review_id
+):
+    """The command, in a process of its own (which loads no Flask and no Alembic), writes
+    the Markdown and figures of the web download byte for byte, but for the export time."""
+    folder = tmp_path / "exported"
+    args = ["export", "review", str(review_id), "--format", "md", "-o", f"{folder}/"]
+    command = [sys.executable, "-c", "from webapp.cli import main; main()", *args]
+    done = subprocess.run([*command, "--db", demo_db_copy], capture_output=True, text=True)
+    assert done.returncode == 0, done.stdout + done.stderr
+    written = {
+        path.relative_to(folder).as_posix(): path.read_bytes()
+        for path in folder.rglob("*")
+        if path.is_file()
+    }
+    download = demo_client.get(f"/reviews/{review_id}/export.zip")
+    with zipfile.ZipFile(io.BytesIO(download.data)) as archive:
+        downloaded = {name: archive.read(name) for name in archive.namelist()}
+    name = f"review-{review_id}.md"
+    assert any(path.endswith(".svg") for path in written)
+    assert written.keys() == downloaded.keys()
+    for path, data in written.items():
+        if path == name:  # one line says when it was exported
+            data, downloaded[path] = (EXPORTED_AT.sub(b"", x) for x in (data, downloaded[path]))
+        assert data == downloaded[path], path
 
 
 def test_export_of_an_unknown_review_says_so(runner, db_url, tmp_path):

@@ -30,6 +30,21 @@ def test_the_command_line_help_loads_no_heavy_library() -> None:
     assert modules_loaded_by(code).isdisjoint(HEAVY)
 
 
+def test_the_markdown_export_command_loads_only_what_it_writes_with(demo_db_url, tmp_path) -> None:
+    """No web server, no migrations on a current store, no analysis stack, no dataset layer."""
+    args = ["export", "review", "1", "--format", "md", "-o", f"{tmp_path}/", "--db", demo_db_url]
+    code = (
+        "from webapp.cli import cli\n"
+        f"try:\n    cli.main(args={args!r}, prog_name='whyfired')\n"
+        "except SystemExit as done:\n    assert not done.code, done.code\n"
+        "import sys\nassert 'pyarrow.dataset' not in sys.modules"
+    )
+    loaded = modules_loaded_by(code)
+    assert (tmp_path / "review-1.md").is_file()
+    assert "pandas" in loaded and "sqlalchemy" in loaded  # what a saved frame needs
+    assert loaded.isdisjoint({"flask", "werkzeug", "alembic", "scipy", "statsmodels"})
+
+
 def test_the_time_helpers_load_no_scipy_or_statsmodels() -> None:
     loaded = modules_loaded_by("import webapp.analysis.times, webapp.imports.formats")
     assert "scipy" not in loaded and "statsmodels" not in loaded

@@ -17,6 +17,9 @@ Web requests get a reading session for GET and HEAD and a writing one otherwise
 (:func:`get_session`); a writing request that computes for long before it writes does the
 computing inside :func:`reading_phase`, so it does not hold the lock meanwhile. On other
 dialects all of this is a no-op.
+
+Flask is imported only by the functions for requests, so a command that opens the store
+(an export, an import) does not load it.
 """
 
 from __future__ import annotations
@@ -26,7 +29,6 @@ from contextlib import contextmanager
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from flask import Flask, current_app, g, has_request_context, request
 from sqlalchemy import Engine, create_engine, event
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session
@@ -35,6 +37,7 @@ from webapp.store import audit, guards  # noqa: F401 - register what every flush
 
 if TYPE_CHECKING:
     from alembic.config import Config
+    from flask import Flask
 
 # A write waits up to a minute for the lock rather than fail: a 1M-row import holds it for
 # the seconds its points take to write (benchmarks/bench_import.py), and waiting beats a
@@ -225,6 +228,8 @@ def init_app(app: Flask) -> None:
 
 
 def get_engine(app: Flask | None = None) -> Engine:
+    from flask import current_app
+
     return (app or current_app).extensions[ENGINE_KEY]
 
 
@@ -234,6 +239,8 @@ def get_session() -> Session:
     Views commit explicitly; whatever is left uncommitted is rolled back at teardown. A GET
     or HEAD request reads only; any other method (and work outside a request) may write.
     """
+    from flask import g, has_request_context, request
+
     if g.get("db_reading_phase"):
         if "db_read_session" not in g:
             g.db_read_session = new_session(get_engine(), write=False)
@@ -252,6 +259,8 @@ def reading_phase() -> Iterator[None]:
     first). What is read here may change before the write; write only what does not
     depend on it staying the same, or read it again after the block.
     """
+    from flask import g
+
     before = g.get("db_reading_phase", False)
     g.db_reading_phase = True
     try:
@@ -264,6 +273,8 @@ def reading_phase() -> Iterator[None]:
 
 
 def _close_session(_exc: BaseException | None = None) -> None:
+    from flask import g
+
     for key in ("db_session", "db_read_session"):
         session = g.pop(key, None)
         if session is not None:

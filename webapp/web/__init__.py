@@ -4,7 +4,10 @@
 
 from __future__ import annotations
 
-from flask import Flask
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:  # the export writer, run from the command line, needs no Flask
+    from flask import Flask
 
 
 def register_web(app: Flask) -> None:

@@ -13,10 +13,9 @@ import json
 import os
 import re
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import jinja2
-import plotly.graph_objects as go
 from markupsafe import Markup
 from sqlalchemy.orm import Session
 
@@ -24,11 +23,13 @@ from webapp import resource_dir
 from webapp.analysis.times import long_duration
 from webapp.services.review_export import AttachedEvidence, ExportError, review_context
 from webapp.web import filters
-from webapp.web.assets import plotly_js_path
 from webapp.web.charts import explain as figures
 from webapp.web.charts import style
 from webapp.web.charts.style import PLOT_CONFIG, Drawing, figure_json
 from webapp.web.charts.svg import figure_svg
+
+if TYPE_CHECKING:
+    import plotly.graph_objects as go
 
 FORMATS = ("md", "html")
 FIGURE_WIDTH = 1100
@@ -151,6 +152,8 @@ def figure_script(figure: go.Figure, div_id: str) -> Markup:
 
 def plotly_js() -> Markup:
     """The vendored plotly.js bundle, to inline once in the exported HTML's head."""
+    from webapp.web.assets import plotly_js_path  # with Flask: the HTML export's alone
+
     return Markup(plotly_js_path().read_text(encoding="utf-8"))
 
 

@@ -6,15 +6,16 @@ import datetime as dt
 import math
 import re
 from functools import cache
-from typing import Any
+from typing import TYPE_CHECKING, Any
 from zoneinfo import ZoneInfo, available_timezones
 
 import pandas as pd
-from flask import Flask, url_for
-from werkzeug.routing import BuildError
 
 from webapp.analysis.times import local_time, long_duration, to_timestamp
 from webapp.analysis.vocabulary import BAND_WIDTH_HELP, level_words
+
+if TYPE_CHECKING:  # Flask only where a request needs it: the export writer uses these too
+    from flask import Flask
 
 
 def input_time(value: Any, tz: str = "UTC") -> str:
@@ -66,6 +67,9 @@ def fact_value(value: Any, tz: str = "UTC", name: str = "") -> str:
 
 def endpoint_url(endpoint: str, fallback: str) -> str:
     """``url_for(endpoint)``, or ``fallback`` while that screen has no index route yet."""
+    from flask import url_for
+    from werkzeug.routing import BuildError
+
     try:
         return url_for(endpoint)
     except BuildError:

@@ -12,14 +12,16 @@ detail, which is how the page fetches finer data when the reader zooms in.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
-import plotly.graph_objects as go
 
 from webapp.web.charts import palette, style
 from webapp.web.charts.downsample import clip, minmax_indices, reduce_together
+
+if TYPE_CHECKING:
+    import plotly.graph_objects as go
 
 DEFAULT_POINTS = 2000
 Window = tuple[pd.Timestamp, pd.Timestamp]

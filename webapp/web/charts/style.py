@@ -3,12 +3,16 @@ comes from ``palette``."""
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
 import numpy as np
 import pandas as pd
-import plotly.graph_objects as go
 from markupsafe import Markup
 
 from webapp.web.charts import palette
+
+if TYPE_CHECKING:  # plotly loads where a Figure is built: the SVG writer needs none
+    import plotly.graph_objects as go
 
 #: A figure as plain data: its traces and its layout, before plotly builds a Figure of them
 #: (the SVG writer draws straight from this, without loading plotly's object model).
@@ -61,6 +65,8 @@ def layout(height: int, **extra: object) -> dict:
 def figure(traces: list[dict], layout: dict) -> go.Figure:
     """A Figure from plain dicts, skipping plotly's per-attribute validation (the builders
     here only use attributes they were written against; it is the slow part)."""
+    import plotly.graph_objects as go
+
     return go.Figure(data=traces, layout=layout, _validate=False)
 
 
