@@ -31,9 +31,9 @@ of the scale, of the errors a rolling-origin backtest made forecasting the last 
 history (`_calibrate`, `_tail`), each side on its own. Only when the history is too short
 to backtest (under two days) are they +-tolerance x scale. A habit near a wall-clock hour
 widens them there (`HourlyRecurrence`, our rule): when on at least half of the backtest
-days the errors within an hour either way of an hour of the day went further than the
-sides (beyond the count chance gives such a stretch), the median of how far they went is
-the side at that hour; a job that spikes near 03:30 on most nights is then expected at
+days the errors within an hour either way of an hour of the day went clearly further than
+the sides (a quarter further at least, beyond the count chance gives such a stretch), the
+median of how far they went is the side at that hour; a job that spikes near 03:30 on most nights is then expected at
 03:30 and nowhere else, and a spike that recurs at no particular hour changes nothing.
 `Limits` keeps the band within
 what the metric can take: counts stay whole and non-negative, a ratio stays in [0, 1],
@@ -67,6 +67,7 @@ SMALL_COUNT = 10  # a whole-number series whose median is at most this is read a
 MIN_RECUR_DAYS = 3  # backtest days needed before a same-hour habit counts
 RECUR_NEAR_HOURS = 1  # a habit's time may drift by an hour either way
 NEAR_SHIFTS = range(-RECUR_NEAR_HOURS, RECUR_NEAR_HOURS + 1)
+HABIT_MARGIN = 1.25  # a habit counts where it reaches this much further than the side
 EMPTY_BAND_COLUMNS = ("trend", "seasonal", "expected", "band_scale", "lower", "upper")
 
 
@@ -238,17 +239,27 @@ class HourlyRecurrence:
         return np.where(np.isfinite(out), out, np.nan)
 
     def hours_beyond(self, low: float, high: float, tolerance: float) -> list[int]:
-        """The wall-clock hours at which a habit reaches past the sides `low`, `high`."""
-        lows, highs = self.sides(tolerance)
-        with np.errstate(invalid="ignore"):
-            return [int(h) for h in np.flatnonzero((lows < low) | (highs > high))]
+        """The wall-clock hours at which a habit reaches clearly past the sides `low`,
+        `high` (by `HABIT_MARGIN` of their reach at least)."""
+        lows, highs = self._clear(low, high, tolerance)
+        return [int(h) for h in np.flatnonzero(np.isfinite(lows) | np.isfinite(highs))]
 
     def widen(
-        self, index: pd.DatetimeIndex, low: np.ndarray, high: np.ndarray, tolerance: float
+        self, index: pd.DatetimeIndex, low: float, high: float, tolerance: float
     ) -> tuple[np.ndarray, np.ndarray]:
-        lows, highs = self.sides(tolerance)
+        """The sides at each time of `index`: `low`, `high`, or a habit's reach there."""
+        lows, highs = self._clear(low, high, tolerance)
         hours = (wall_clock_ns(index, self.tz) % DAY_NS // HOUR_NS).astype(np.int64)
         return np.fmin(low, lows[hours]), np.fmax(high, highs[hours])
+
+    def _clear(self, low: float, high: float, tolerance: float) -> tuple[np.ndarray, np.ndarray]:
+        """The habit's reach per hour where it is clearly past the side, else NaN: a habit
+        only a little past it is as likely chance (our rule, as for the hourly scale)."""
+        lows, highs = self.sides(tolerance)
+        with np.errstate(invalid="ignore"):
+            lows = np.where(lows < HABIT_MARGIN * min(low, 0.0), lows, np.nan)
+            highs = np.where(highs > HABIT_MARGIN * max(high, 0.0), highs, np.nan)
+        return lows, highs
 
 
 @dataclass(frozen=True)
@@ -296,7 +307,7 @@ class BaselineFit:
         out["expected"] = expected
         scale = self.scale.at(index)
         out["band_scale"] = scale
-        low, high = (np.full(len(index), side) for side in self.sides(tolerance))
+        low, high = self.sides(tolerance)
         if self.recurring is not None:
             low, high = self.recurring.widen(index, low, high, tolerance)
         lower, upper = expected + low * scale, expected + high * scale
