@@ -131,13 +131,17 @@ def imports_version(session: Session) -> tuple:
 
 
 def data_version(session: Session, series: Any) -> tuple:
-    """Changes whenever the series' stored points or the imports change."""
-    return (
-        *imports_version(session),
-        getattr(series, "point_count", None),
-        getattr(series, "first_ts", None),
-        getattr(series, "last_ts", None),
-    )
+    """Changes whenever the series' stored points or the imports change; the same for a
+    ``Series`` row and its ``SeriesInfo``."""
+    return (*imports_version(session), *_figures(series))
+
+
+def _figures(series: Any) -> tuple:
+    """Point count, first and last time (UTC epoch ms) of a ``Series`` or a ``SeriesInfo``."""
+    if hasattr(series, "point_count"):
+        return series.point_count, series.first_ts, series.last_ts
+    ms = [None if t is None else int(t.value // 1_000_000) for t in (series.first, series.last)]
+    return (series.n_points, *ms)
 
 
 def live_evidence(
