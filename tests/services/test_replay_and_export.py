@@ -7,12 +7,15 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
+from sqlalchemy import select
 
 from webapp.analysis import band_grid
+from webapp.services import band_fits as fit_service
 from webapp.services import replay as replay_service
 from webapp.services import review_export
-from webapp.store import attachments, reviews, rules
+from webapp.store import attachments, db, reviews, rules
 from webapp.store.imports import record_import
+from webapp.store.models import BandFit
 from webapp.store.series import series_by_keys
 
 WINDOW = {"incident_start": "2026-11-30T14:00", "incident_end": "2026-11-30T16:00"}
@@ -69,7 +72,9 @@ def _weeks_of_points(session, make_parsed, key: str, weeks: int = 3) -> int:
     return series_by_keys(session, [key])[key].id
 
 
-def test_a_band_rule_is_fitted_once_per_data_version(session, make_parsed, monkeypatch) -> None:
+def test_a_band_rule_is_fitted_once_per_data_version(
+    session, engine, make_parsed, monkeypatch, assert_same_bands
+) -> None:
     series_id = _weeks_of_points(session, make_parsed, "checkout.latency_p95{host=api-8}")
     fits = []
 
@@ -77,7 +82,7 @@ def test_a_band_rule_is_fitted_once_per_data_version(session, make_parsed, monke
         fits.append(args[1].tolerance)
         return band_grid(*args, **kwargs)
 
-    monkeypatch.setattr(replay_service, "band_grid", counted)
+    monkeypatch.setattr(fit_service, "band_grid", counted)
     rule = rules.create_rule(
         session,
         name="p95 band",
@@ -87,14 +92,37 @@ def test_a_band_rule_is_fitted_once_per_data_version(session, make_parsed, monke
         tolerance=4.0,
         hold_seconds=600,
     )
-    (info,) = replay_service.matching_series(session, rule)
-    first = replay_service.run_replay(session, rule, info)
-    rules.update_rule(session, rule.id, tolerance=6.0, hold_seconds=0)
-    again = replay_service.run_replay(session, rule, info)
-    assert len(fits) == 1  # another tolerance and hold: the same daily fits
-    assert again.result.bands is first.result.bands
-    assert again.rule.tolerance == 6.0
+    session.commit()
+    # pages replay in reading sessions; the fits are kept by a writer of their own
+    with db.session_scope(engine, write=False) as reader:
+        (info,) = replay_service.matching_series(reader, rule)
+        first = replay_service.run_replay(reader, rule, info)
+        rules.update_rule(session, rule.id, hold_seconds=0, direction="both")
+        session.commit()
+        again = replay_service.run_replay(reader, rule, info)
+        assert len(fits) == 1  # another hold and direction: the same daily fits
+        assert again.result.bands is first.result.bands
 
-    _weeks_of_points(session, make_parsed, "checkout.latency_p95{host=api-9}", 1)
-    replay_service.run_replay(session, rule, info)  # a new import: a new data version
-    assert len(fits) == 2
+        fit_service._fits.items.clear()  # as after a restart, or in another worker
+        reader.rollback()  # a later request: a new snapshot
+        kept = replay_service.run_replay(reader, rule, info)
+        assert len(fits) == 1  # read back from the store, not fitted
+        assert_same_bands(kept.result.bands, first.result.bands)
+        assert kept.report.n_firings == again.report.n_firings
+
+        rules.update_rule(session, rule.id, tolerance=6.0)  # the sides are calibrated at it
+        session.commit()
+        assert replay_service.run_replay(reader, rule, info).rule.tolerance == 6.0
+        assert fits == [4.0, 6.0]
+
+        _weeks_of_points(session, make_parsed, "checkout.latency_p95{host=api-9}", 1)
+        session.commit()
+        reader.rollback()
+        fit_service._fits.items.clear()
+        replay_service.run_replay(reader, rule, info)  # a new import: a new data version
+        assert fits == [4.0, 6.0, 6.0]
+        current = fit_service.fit_key(reader, info, replay_service.analysed_rule(rule), [])
+        reader.rollback()
+        rows = reader.scalars(select(BandFit).where(BandFit.series_id == series_id)).all()
+    # the rows of the older data version were replaced, not kept beside
+    assert [row.data_version for row in rows] == [current["data_version"]]
