@@ -4,6 +4,8 @@ review's frozen evidence. Data are synthetic (tests/conftest.py)."""
 
 from __future__ import annotations
 
+import json
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -12,10 +14,10 @@ from sqlalchemy import select
 from webapp.analysis import band_grid
 from webapp.services import band_fits as fit_service
 from webapp.services import replay as replay_service
-from webapp.services import review_export
+from webapp.services import review_export, rule_kinds
 from webapp.store import attachments, db, reviews, rules
 from webapp.store.imports import record_import
-from webapp.store.models import BandFit
+from webapp.store.models import BandFit, Page
 from webapp.store.series import series_by_keys
 
 WINDOW = {"incident_start": "2026-11-30T14:00", "incident_end": "2026-11-30T16:00"}
@@ -126,3 +128,33 @@ def test_a_band_rule_is_fitted_once_per_data_version(
         rows = reader.scalars(select(BandFit).where(BandFit.series_id == series_id)).all()
     # the rows of the older data version were replaced, not kept beside
     assert [row.data_version for row in rows] == [current["data_version"]]
+
+
+def test_fit_ahead_keeps_the_fits_of_the_most_recently_paged_rules(
+    session, engine, make_parsed
+) -> None:
+    keys = ("checkout.latency_p95{host=api-1}", "checkout.latency_p95{host=api-2}")
+    ids = [_weeks_of_points(session, make_parsed, key) for key in keys]
+    older, newer = (
+        rules.create_rule(session, name=f"p95 high {i}", series_id=i, threshold=300.0) for i in ids
+    )
+    rules.create_rule(
+        session, name="p95 band", series_id=ids[0], kind="band", tolerance=4.0, hold_seconds=0
+    )
+    for rule, day in ((older, 10), (newer, 20)):  # the band rule never paged
+        fired = pd.Timestamp("2026-11-01", tz="UTC") + pd.Timedelta(days=day)
+        session.add(Page(series_id=rule.series_id, alert_rule_id=rule.id, fired_at=fired))
+    session.commit()
+
+    def kept(reader) -> list[tuple[int, float]]:
+        rows = reader.scalars(select(BandFit).order_by(BandFit.id)).all()
+        return [(r.series_id, json.loads(r.parameters)["tolerance"]) for r in rows]
+
+    with db.session_scope(engine, write=False) as reader:
+        assert rule_kinds.fit_ahead(reader, rules=1) == 1
+        reader.rollback()
+        assert kept(reader) == [(ids[1], 3.0)]  # the latest page's rule: its kinds' band
+        assert rule_kinds.fit_ahead(reader, rules=3) == 2  # then the older, then the band
+        reader.rollback()
+        assert kept(reader) == [(ids[1], 3.0), (ids[0], 3.0), (ids[0], 4.0)]
+        assert rule_kinds.fit_ahead(reader, rules=3) == 0  # all kept already
