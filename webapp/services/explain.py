@@ -314,10 +314,13 @@ def find_peers(session: Session, series: Any) -> Peers | None:
 def compare_with_peers(
     session: Session, series: Any, query: ExplainQuery, peers: Peers, exclude: list
 ) -> Any:
-    """The series and its peers explained side by side over the query's window (cached)."""
+    """The series and its peers explained side by side over the query's window (cached).
+    The series' own explanation comes from the Explain screen's when it is at hand (the
+    panel loads right after it), so it is not fitted twice."""
 
     version = (*imports_version(session), tuple(sorted(peers.rows)))
     start = query.window[0] - query.history
+    shown = _explanations.peek((series.id, data_version(session, series), query, tuple(exclude)))
 
     def build() -> Any:
         points = {
@@ -333,6 +336,7 @@ def compare_with_peers(
             names=peers.names,
             label=peers.label,
             labels={key: dict(row.labels or {}) for key, row in peers.rows.items()},
+            target_explanation=shown.explanation if shown is not None else None,
         )
 
     return _comparisons.get((series.id, version, query, tuple(exclude)), build)
