@@ -15,6 +15,7 @@ import shutil
 import uuid
 from collections.abc import Callable, Iterator, Sequence
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -412,3 +413,19 @@ def app_session(app: Flask) -> Iterator[Session]:
     s = db.new_session(db.get_engine(app))
     yield s
     s.close()
+
+
+@pytest.fixture
+def assert_same_bands() -> Callable[[Any, Any], None]:
+    """Assert that two band rules' grids (``BandGrid``) are equal bit for bit: times, step,
+    values and every band column."""
+
+    def bits(x: Any) -> bytes:
+        return np.ascontiguousarray(np.asarray(x, dtype=float)).tobytes()
+
+    def check(kept: Any, fresh: Any) -> None:
+        assert kept.step == fresh.step and kept.times.equals(fresh.times)
+        for name in ("values", "expected", "scale", "below_scale", "above_scale"):
+            assert bits(getattr(kept, name)) == bits(getattr(fresh, name)), name
+
+    return check

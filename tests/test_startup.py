@@ -66,3 +66,30 @@ def test_the_warm_start_compiles_every_page_template(app) -> None:
     pages = app.jinja_env.list_templates(filter_func=lambda n: n.endswith(".html"))
     cached = {key[1] for key in app.jinja_env.cache.keys()}  # noqa: SIM118 (an LRU cache)
     assert pages and set(pages) <= cached
+
+
+def test_the_warm_start_keeps_the_band_fits_of_paged_rules(app, app_session, make_parsed) -> None:
+    import numpy as np
+    import pandas as pd
+    from sqlalchemy import select
+
+    from webapp.store import db, rules
+    from webapp.store.imports import record_import
+    from webapp.store.models import BandFit, Page
+    from webapp.store.series import series_by_keys
+    from webapp.warmup import fit_ahead, warm_in_background
+
+    key = "checkout.latency_p95{host=api-5}"  # invented: three weeks of a daily wave
+    index = pd.date_range("2026-11-01", periods=3 * 7 * 288, freq="5min", tz="UTC")
+    wave = 200 + 40 * np.sin(2 * np.pi * (index.hour * 60 + index.minute).to_numpy() / 1440)
+    record_import(app_session, make_parsed([key] * len(index), index.as_unit("ms").asi8, wave))
+    series_id = series_by_keys(app_session, [key])[key].id
+    rule = rules.create_rule(app_session, name="p95 high", series_id=series_id, threshold=260.0)
+    app_session.add(Page(series_id=series_id, alert_rule_id=rule.id, fired_at=index[-100]))
+    app_session.commit()
+
+    warm_in_background(app).join(timeout=300)
+    with db.session_scope(db.get_engine(app), write=False) as reader:
+        kept = reader.scalars(select(BandFit.series_id)).all()
+    assert kept == [series_id]
+    assert fit_ahead(app) == 0  # kept already: a restart fits nothing

@@ -195,3 +195,33 @@ def test_without_an_error_ratio_the_kinds_panel_says_why(client, stored_rules, s
     panel = client.get(f"/rules/{rule.id}/kinds").get_data(as_text=True)
     assert "the disk service has no stored error ratio" in panel
     assert "burn-rate <span" not in panel
+
+
+def test_the_kinds_panel_keeps_its_band_fit_and_a_failed_write_does_not_fail_it(
+    client, stored_rules, monkeypatch
+) -> None:
+    from sqlalchemy.exc import OperationalError
+
+    from webapp.services import band_fits as fit_service
+    from webapp.store import db
+
+    def refused(*_args, **_kwargs):
+        raise OperationalError("INSERT INTO band_fits", {}, Exception("disk full"))
+
+    url = f"/rules/{stored_rules['threshold']}/kinds?series_id={stored_rules['depth']}"
+    fit_service._fits.items.clear()
+    with monkeypatch.context() as patch:
+        patch.setattr(db, "brief_write", refused)
+        failed_write = client.get(url)
+    assert failed_write.status_code == 200 and "band <span" in failed_write.get_data(as_text=True)
+
+    fit_service._fits.items.clear()  # a restart: nothing kept, so it is fitted and kept now
+    assert "band <span" in client.get(url).get_data(as_text=True)
+
+    def no_fitting(*_args, **_kwargs):
+        raise AssertionError("the kept fit should have been read")
+
+    fit_service._fits.items.clear()  # another restart: the kept fit is read, not fitted
+    monkeypatch.setattr(fit_service, "band_grid", no_fitting)
+    kept = client.get(url).get_data(as_text=True)
+    assert kept == failed_write.get_data(as_text=True)  # the same panel, row for row

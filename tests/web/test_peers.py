@@ -161,3 +161,23 @@ def test_the_peer_comparison_downloads_with_every_peer(client, fleet, url_for_ex
     text = client.get(url.replace("data.json", "data.csv")).get_data(as_text=True)
     table = pd.read_csv(io.StringIO(text), comment="#")
     assert sorted(table["name"]) == sorted(r["name"] for r in body["rows"])
+
+
+def test_the_panel_reuses_the_explain_screens_fit_of_the_series(
+    client, hosts, url_for_explain, monkeypatch
+) -> None:
+    import webapp.analysis._peers as peers_core
+
+    page = client.get(url_for_explain(hosts["api-3"])).get_data(as_text=True)
+    url = PEER_URL.search(page).group(1).replace("&amp;", "&")
+    explain_service._explanations.items.clear()  # as if the panel came alone
+    alone = client.get(url).get_data(as_text=True)  # fits api-3 itself
+
+    explain_service._comparisons.items.clear()
+    client.get(url_for_explain(hosts["api-3"]))  # the Explain screen fits it again
+
+    def no_second_fit(*_args, **_kwargs):
+        raise AssertionError("the panel fitted the series the Explain screen had fitted")
+
+    monkeypatch.setattr(peers_core, "explain", no_second_fit)
+    assert client.get(url).get_data(as_text=True) == alone  # the same panel

@@ -22,6 +22,7 @@ _EXPORTS = {
     "._aggregate": ("aggregate",),
     "._alert_replay": ("RuleReplay", "RuleReplayResult"),
     "._band": ("expected_band", "fit_baseline"),
+    "._fitted_bands": ("band_fit_frame", "band_fit_parameters", "band_grid_from_frame"),
     "._burn": (
         "WORKBOOK_WINDOWS",
         "BurnRateRule",

@@ -22,7 +22,7 @@ import pandas as pd
 
 from ._align import align
 from ._grid import Agg, as_utc_series, check_step, infer_step, make_grid
-from ._robust import quiet_nan_warnings
+from ._robust import nanpercentile_rows, quiet_nan_warnings
 
 How = Literal["sum", "mean", "min", "p50", "p95", "max"]
 COMBINE = {
@@ -30,7 +30,7 @@ COMBINE = {
     "mean": lambda m: np.nanmean(m, axis=0),
     "min": lambda m: np.nanmin(m, axis=0),
     "p50": lambda m: np.nanmedian(m, axis=0),
-    "p95": lambda m: np.nanpercentile(m, 95, axis=0),
+    "p95": lambda m: nanpercentile_rows(m.T, 95),
     "max": lambda m: np.nanmax(m, axis=0),
 }
 

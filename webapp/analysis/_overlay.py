@@ -8,7 +8,7 @@ import pandas as pd
 from ._checks import check_window
 from ._clock import check_tz, same_wall_clock_weeks_ago
 from ._grid import Agg, as_utc_series, check_step, infer_step, regularize
-from ._robust import quiet_nan_warnings
+from ._robust import nanpercentile_rows, quiet_nan_warnings
 
 
 def past_weeks_overlay(
@@ -47,8 +47,8 @@ def past_weeks_overlay(
     past = out.to_numpy()
     with quiet_nan_warnings():
         out["median"] = np.nanmedian(past, axis=1)
-        out["p10"] = np.nanpercentile(past, 10, axis=1)
-        out["p90"] = np.nanpercentile(past, 90, axis=1)
+        out["p10"] = nanpercentile_rows(past, 10)
+        out["p90"] = nanpercentile_rows(past, 90)
         out["min"] = np.nanmin(past, axis=1)
         out["max"] = np.nanmax(past, axis=1)
     return out

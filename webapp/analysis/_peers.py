@@ -140,6 +140,7 @@ def compare_peers(
     labels: Mapping[str, Mapping[str, str]] | None = None,
     sustained: pd.Timedelta | str = SUSTAINED,
     together: pd.Timedelta | str = TOGETHER,
+    target_explanation: Explanation | None = None,
 ) -> PeerComparison:
     """Compare `target_key` with each of its peers over `window`.
 
@@ -147,7 +148,8 @@ def compare_peers(
     `names` gives each key a short display name (the differing label's value, "api-4");
     `label` names the label they differ in ("host"); `labels` gives each key its whole label
     set, so a group can be named by a label it shares ("zone"). `exclude` applies to every
-    peer.
+    peer. `target_explanation`: the target already explained over the same points with the
+    same options (the Explain screen's), so it is not fitted again.
     """
     if target_key not in peers:
         raise ValueError(f"the peers must include the target {target_key!r}")
@@ -161,10 +163,14 @@ def compare_peers(
     options = dict(
         window=(start, end), history=history, tolerance=tolerance, exclude=spans, tz=tz, unit=unit
     )
-    try:
-        target_exp: Explanation | str = explain(peers[target_key].rename(target_key), **options)
-    except ValueError as error:
-        target_exp = str(error)
+    target_exp: Explanation | str
+    if target_explanation is not None:
+        target_exp = target_explanation
+    else:
+        try:
+            target_exp = explain(peers[target_key].rename(target_key), **options)
+        except ValueError as error:
+            target_exp = str(error)
     fleet = Fleet.build(keys, peers, target_exp, start, end, history, spans)
     results = fleet.results(display, tolerance, sustained)
     groups = find_groups(results, tolerance, together, labels or {})

@@ -16,6 +16,11 @@ class Recent:
         self.items: OrderedDict[tuple, Any] = OrderedDict()
         self.lock = threading.Lock()
 
+    def peek(self, key: tuple) -> Any:
+        """The value kept for ``key``, or None; builds nothing."""
+        with self.lock:
+            return self.items.get(key)
+
     def get(self, key: tuple, build: Callable[[], Any]) -> Any:
         with self.lock:
             if key in self.items:

@@ -131,13 +131,17 @@ def imports_version(session: Session) -> tuple:
 
 
 def data_version(session: Session, series: Any) -> tuple:
-    """Changes whenever the series' stored points or the imports change."""
-    return (
-        *imports_version(session),
-        getattr(series, "point_count", None),
-        getattr(series, "first_ts", None),
-        getattr(series, "last_ts", None),
-    )
+    """Changes whenever the series' stored points or the imports change; the same for a
+    ``Series`` row and its ``SeriesInfo``."""
+    return (*imports_version(session), *_figures(series))
+
+
+def _figures(series: Any) -> tuple:
+    """Point count, first and last time (UTC epoch ms) of a ``Series`` or a ``SeriesInfo``."""
+    if hasattr(series, "point_count"):
+        return series.point_count, series.first_ts, series.last_ts
+    ms = [None if t is None else int(t.value // 1_000_000) for t in (series.first, series.last)]
+    return (series.n_points, *ms)
 
 
 def live_evidence(
@@ -310,10 +314,13 @@ def find_peers(session: Session, series: Any) -> Peers | None:
 def compare_with_peers(
     session: Session, series: Any, query: ExplainQuery, peers: Peers, exclude: list
 ) -> Any:
-    """The series and its peers explained side by side over the query's window (cached)."""
+    """The series and its peers explained side by side over the query's window (cached).
+    The series' own explanation comes from the Explain screen's when it is at hand (the
+    panel loads right after it), so it is not fitted twice."""
 
     version = (*imports_version(session), tuple(sorted(peers.rows)))
     start = query.window[0] - query.history
+    shown = _explanations.peek((series.id, data_version(session, series), query, tuple(exclude)))
 
     def build() -> Any:
         points = {
@@ -329,6 +336,7 @@ def compare_with_peers(
             names=peers.names,
             label=peers.label,
             labels={key: dict(row.labels or {}) for key, row in peers.rows.items()},
+            target_explanation=shown.explanation if shown is not None else None,
         )
 
     return _comparisons.get((series.id, version, query, tuple(exclude)), build)

@@ -9,8 +9,9 @@ from typing import Any
 import pandas as pd
 from sqlalchemy.orm import Session
 
-from webapp.analysis import BandRule, RuleReplay, RuleReplayResult, band_grid, rule_from_fields
+from webapp.analysis import RuleReplay, RuleReplayResult, rule_from_fields
 from webapp.analysis.vocabulary import RULE_FIELDS
+from webapp.services.band_fits import band_fit
 from webapp.services.cache import Recent
 from webapp.services.explain import data_version
 from webapp.services.incidents import IncidentChoice, choose_incidents
@@ -118,28 +119,11 @@ def run_replay(
     keys = {s.id: s.key for s in store_series.list_series(session)}
     choice = choose_incidents(session, info.id, add or (), drop or (), keys)
     exclude = store_excluded.periods_for(session, info.id)
-    bands = band_fit(version, values, analysed, exclude)
+    bands = band_fit(session, info, values, analysed, exclude)
     result = RuleReplay(values, analysed, choice.windows, exclude, grid, bands).fit()
     return Replay(info, result, values, choice)
 
 
-# The points and a band rule's daily fits, kept by data version: replaying again (another
-# tolerance, another sweep) reads and fits nothing.
+# The points, kept by data version: replaying again (another tolerance, another sweep)
+# reads nothing.
 _points = Recent(4)
-_band_fits = Recent(8)
-
-
-def band_fit(version: tuple, values: pd.Series, rule: Any, exclude: list) -> Any:
-    """A band rule's daily bands, fitted once per data version, history and exclusions
-    (tolerance, hold and direction do not change the fit); None for other kinds."""
-    if not isinstance(rule, BandRule):
-        return None
-    key = (
-        version,
-        rule.history,
-        rule.min_history,
-        rule.tz,
-        rule.check_every,
-        tuple((pd.Timestamp(a), pd.Timestamp(b)) for a, b in exclude),
-    )
-    return _band_fits.get(key, lambda: band_grid(values, rule, exclude))

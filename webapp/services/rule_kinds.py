@@ -31,9 +31,10 @@ from webapp.analysis import (
 )
 from webapp.analysis.times import short_duration
 from webapp.analysis.vocabulary import OWNER_DECIDES
+from webapp.services.band_fits import band_fit, fit_key
 from webapp.services.burn import read_events, run_burn_replay
-from webapp.services.explain import data_version
-from webapp.services.replay import TZ, analysed_rule, band_fit, run_replay
+from webapp.services.replay import TZ, analysed_rule, matching_series, run_replay
+from webapp.store import band_fits as store_fits
 from webapp.store import excluded as store_excluded
 from webapp.store import rules as store_rules
 from webapp.store import series as store_series
@@ -42,6 +43,8 @@ from webapp.store.models import AlertRule
 #: The least paging a best setting may do: once a week (common practice, not a standard).
 WEEKLY = 1.0
 TOLERANCES = (2.0, 2.5, 3.0, 3.5, 4.0, 5.0, 6.0, 8.0)
+#: Rules whose band fits the warm start keeps ahead of their pages: the most recently paged.
+FIT_AHEAD_RULES = 4
 
 Incidents = Sequence[tuple[pd.Timestamp, pd.Timestamp | None]]
 
@@ -85,9 +88,7 @@ def compare_kinds(
     every = analysed_rule(rule).check_every
     rows = [current]
     rows.append(own.get("threshold") or _threshold(values, incidents, ceiling, direction, every))
-    band = own.get("band") or _band(
-        session, info, values, incidents, ceiling, direction, every, notes
-    )
+    band = own.get("band") or _band(session, info, values, incidents, ceiling, rule, notes)
     burn_row = own.get("burn_rate") or _burn(session, info, incidents, ceiling, notes)
     rows += [r for r in (band, burn_row) if r is not None]
     sentence, suggested = kinds_sentence(rows)
@@ -136,20 +137,25 @@ def _threshold(
     return row_from_sweep("threshold", "best of its sweep", _text("threshold", row, seed), row)
 
 
+def kinds_band_rule(rule: AlertRule) -> BandRule:
+    """The band rule the comparison sweeps for ``rule`` (its fits serve every setting)."""
+    direction = "below" if rule.direction == "below" else "above"
+    return BandRule(3.0, direction=direction, tz=TZ, check_every=analysed_rule(rule).check_every)
+
+
 def _band(
     session: Session,
     info: Any,
     values: pd.Series,
     incidents: Incidents,
     ceiling: float,
-    direction: str,
-    every: Any,
+    rule: AlertRule,
     notes: list[str],
 ) -> KindRow | None:
-    seed = BandRule(3.0, direction=direction, tz=TZ, check_every=every)
+    seed = kinds_band_rule(rule)
     exclude = store_excluded.periods_for(session, info.id)
     try:
-        bands = band_fit((info.id, *data_version(session, info)), values, seed, exclude)
+        bands = band_fit(session, info, values, seed, exclude)
     except ValueError as err:
         notes.append(f"No band rule: {err}.")
         return None
@@ -157,6 +163,34 @@ def _band(
     sweep = band_sweep(values, seed, TOLERANCES, holds, incidents, exclude, bands=bands)
     row = best_setting(sweep, ceiling)
     return row_from_sweep("band", "best of its sweep", _text("band", row, seed), row)
+
+
+def fit_ahead(session: Session, rules: int = FIT_AHEAD_RULES) -> int:
+    """Fit and keep the daily bands that the replay (a band rule's) or the rule kinds (any
+    other rule's) of the ``rules`` most recently paged rules will ask for, on the series
+    their page shows first, where the store does not hold them yet. Returns how many were
+    fitted; a rule that cannot be replayed is passed over."""
+    fitted = 0
+    for rule in store_rules.rules_by_last_page(session, rules):
+        candidates = matching_series(session, rule)
+        try:
+            analysed = analysed_rule(rule)
+            band_rule = analysed if isinstance(analysed, BandRule) else kinds_band_rule(rule)
+        except ValueError:
+            continue
+        if not candidates:
+            continue
+        info = candidates[0]
+        exclude = store_excluded.periods_for(session, info.id)
+        if store_fits.is_kept(session, info.id, fit_key(session, info, band_rule, exclude)):
+            continue
+        values = store_series.read_series(session, info.id).dropna()
+        try:
+            band_fit(session, info, values, band_rule, exclude)
+        except ValueError:
+            continue
+        fitted += 1
+    return fitted
 
 
 def _burn(

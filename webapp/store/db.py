@@ -29,7 +29,7 @@ from contextlib import contextmanager
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
-from sqlalchemy import Engine, create_engine, event
+from sqlalchemy import Connection, Engine, create_engine, event, text
 from sqlalchemy.engine import make_url
 from sqlalchemy.orm import Session
 
@@ -44,6 +44,9 @@ if TYPE_CHECKING:
 # lost save. Past that, the web says the store stayed busy and shows the typed text back.
 BUSY_TIMEOUT_MS = 60_000
 CACHE_KIB = 65_536
+# A write of derived data (a kept band fit) waits at most this long for the lock: it is
+# worth less than the page that would wait for it, and the data is simply computed again.
+BRIEF_WAIT_MS = 1_000
 ENGINE_KEY = "whyfired_engine"
 READING_OPTION = "whyfired_reading"
 READING_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
@@ -213,6 +216,30 @@ def session_scope(engine: Engine, *, write: bool = True) -> Iterator[Session]:
         raise
     finally:
         session.close()
+
+
+@contextmanager
+def brief_write(bind: Engine | Connection, wait_ms: int = BRIEF_WAIT_MS) -> Iterator[Session]:
+    """A writing session that commits when the block ends and waits at most ``wait_ms`` for
+    the lock (SQLite's busy timeout, PostgreSQL's ``lock_timeout``) instead of a minute; for
+    writes of derived data that may as well be skipped when the store is busy. ``bind`` may
+    be a reading session's: the session given writes all the same (its own connection)."""
+    engine = bind.engine if isinstance(bind, Connection) else bind
+    engine = engine.execution_options(**{READING_OPTION: False})
+    sqlite = engine.dialect.name == "sqlite"
+    with engine.connect() as connection:
+        driver = connection.connection.driver_connection if sqlite else None
+        if driver is not None:
+            driver.execute(f"PRAGMA busy_timeout = {int(wait_ms)}")
+        try:
+            with Session(connection, expire_on_commit=False) as session:
+                if engine.dialect.name == "postgresql":
+                    session.execute(text(f"SET LOCAL lock_timeout = {int(wait_ms)}"))
+                yield session
+                session.commit()
+        finally:
+            if driver is not None:
+                driver.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
 
 
 def init_app(app: Flask) -> None:

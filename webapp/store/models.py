@@ -149,6 +149,27 @@ class PointBlock(Base):
     value: Mapped[bytes] = mapped_column(LargeBinary)
 
 
+class BandFit(Base):
+    """A band rule's daily fits over all of one series' history, kept so that replays and
+    rule kinds side by side need not fit them again after a restart or in another worker.
+
+    Derived data (``webapp.store.band_fits``): used only while ``data_version``,
+    ``engine_version`` and ``exclusions`` still match; one row per series and fit
+    ``parameters``, replaced when the data, the engine or the exclusions change."""
+
+    __tablename__ = "band_fits"
+    __table_args__ = (UniqueConstraint("series_id", "parameters"),)
+
+    id: Mapped[int] = mapped_column(Integer, primary_key=True)
+    series_id: Mapped[int] = mapped_column(ForeignKey("series.id", ondelete="CASCADE"))
+    parameters: Mapped[str] = mapped_column(String(400))  # canonical JSON
+    exclusions: Mapped[str] = mapped_column(String(64))  # sha256 of the excluded spans
+    data_version: Mapped[str] = mapped_column(String(400))
+    engine_version: Mapped[str] = mapped_column(String(40))
+    frame: Mapped[bytes] = mapped_column(LargeBinary)  # webapp.store.frames.encode_frame
+    created_at: Mapped[dt.datetime] = mapped_column(UTCDateTime, default=utcnow)
+
+
 class AlertRule(Base):
     """The condition that produced pages: a threshold, an expected-band or a burn-rate rule.
 

@@ -5,13 +5,13 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from sqlalchemy import select
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session
 
 from webapp.analysis import burn_rule_from_fields
 from webapp.analysis.vocabulary import DIRECTIONS, RULE_FIELDS, RULE_KINDS
 from webapp.store._sql import delete_by_id, require
-from webapp.store.models import AlertRule
+from webapp.store.models import AlertRule, Page
 from webapp.store.versions import claim
 
 
@@ -74,6 +74,23 @@ def list_rules(session: Session, series_id: int | None = None) -> list[AlertRule
     stmt = select(AlertRule).order_by(AlertRule.name, AlertRule.id)
     if series_id is not None:
         stmt = stmt.where(AlertRule.series_id == series_id)
+    return list(session.scalars(stmt))
+
+
+def rules_by_last_page(session: Session, limit: int | None = None) -> list[AlertRule]:
+    """The rules, the one that paged most recently first; rules that never paged last
+    (newest first)."""
+    last = (
+        select(Page.alert_rule_id, func.max(Page.fired_at).label("last"))
+        .group_by(Page.alert_rule_id)
+        .subquery()
+    )
+    stmt = (
+        select(AlertRule)
+        .outerjoin(last, last.c.alert_rule_id == AlertRule.id)
+        .order_by(last.c.last.is_(None), last.c.last.desc(), AlertRule.id.desc())
+        .limit(limit)
+    )
     return list(session.scalars(stmt))
 
 
