@@ -75,7 +75,6 @@ def screens(url: str) -> list[tuple[str, str]]:
         paged = first_page.series_id
         start = first_page.fired_at.strftime("%Y-%m-%dT%H:%M")
         end = (first_page.resolved_at or first_page.fired_at).strftime("%Y-%m-%dT%H:%M")
-        window = f"start={start}&end={end}"
         metric = s.scalars(select(Series.metric).where(Series.id == paged)).one()
     engine.dispose()
     return [

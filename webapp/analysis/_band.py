@@ -33,12 +33,13 @@ to backtest (under two days) are they +-tolerance x scale. A habit near a wall-c
 widens them there (`HourlyRecurrence`, our rule): when on at least half of the backtest
 days the errors within an hour either way of an hour of the day went clearly further than
 the sides (a quarter further at least, beyond the count chance gives such a stretch), the
-median of how far they went is the side at that hour; a job that spikes near 03:30 on most nights is then expected at
-03:30 and nowhere else, and a spike that recurs at no particular hour changes nothing.
-`Limits` keeps the band within
-what the metric can take: counts stay whole and non-negative, a ratio stays in [0, 1],
-and nothing expected or lower falls below the smallest value the history took when that
-is >= 0.
+median of how far they went is the side at that hour; a job that spikes near 03:30 on most
+nights is then expected at 03:30 and nowhere else, and a spike that recurs at no particular
+hour changes nothing.
+
+`Limits` keeps the band within what the metric can take: counts stay whole and
+non-negative, a ratio stays in [0, 1], and nothing expected or lower falls below the
+smallest value the history took when that is >= 0.
 """
 
 from __future__ import annotations
