@@ -248,3 +248,18 @@ def test_the_explanation_names_the_hours_a_habit_widens_the_band():
     assert "03:00" in hours and "15:00" not in hours
     sentence = next(s for s in exp.summary if "reaches further" in s)
     assert "At 02:00–05:00 it reaches further" in sentence
+
+
+def test_count_quantiles_on_a_rate_grid_only_ever_widen_the_band():
+    """The Poisson quantiles are read once per rounded rate; rounding outward keeps each
+    side at least as wide as scipy's exact quantile at the sample's own rate."""
+    from scipy.stats import poisson
+
+    from webapp.analysis._band import on_rate_grid
+
+    rate = np.random.default_rng(8).gamma(0.5, 4.0, 20_000) + 1e-9
+    beyond = norm.sf(3.0)
+    upper = on_rate_grid(poisson.isf, beyond, rate, up=True)
+    lower = on_rate_grid(poisson.ppf, beyond, rate, up=False)
+    assert (upper >= poisson.isf(beyond, rate)).all() and (lower <= poisson.ppf(beyond, rate)).all()
+    assert np.mean(upper == poisson.isf(beyond, rate)) > 0.99
