@@ -292,6 +292,27 @@ def test_demo_replaces_when_asked_and_rebuilds_its_own_file(runner, db_url, tmp_
     assert count(own, Import) == 1  # its own file starts again from empty
 
 
+@pytest.mark.slow
+def test_demo_replace_keeps_the_accounts_of_a_shared_store(runner, db_url):
+    """Emptying a team's store for the demo must not lock its admin out."""
+    from webapp.store import users
+
+    engine = db.make_engine(db_url)
+    db.upgrade(engine)
+    with db.session_scope(engine) as session:
+        users.add_user(session, "rosa", "a long passphrase here", "admin")
+    runner.invoke(cli, ["import", str(EXAMPLE_LONG), "--db", db_url])
+    result = runner.invoke(cli, ["demo", "--no-serve", "--replace", "--db", db_url])
+    assert result.exit_code == 0, result.output
+    assert "Kept its 1 account" in result.output
+    with db.session_scope(engine) as session:
+        kept = users.find_user(session, "rosa")
+        assert kept is not None and kept.role == "admin"
+        assert users.sign_in(session, "rosa", "a long passphrase here").user is not None
+    engine.dispose()
+    assert count(db_url, Review) == 2
+
+
 def test_export_review_writes_the_file(runner, demo_db_copy, tmp_path):
     target = tmp_path / "out" / "review.html"
     args = ["export", "review", "1", "--format", "html", "-o", str(target), "--db", demo_db_copy]

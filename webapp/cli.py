@@ -349,9 +349,33 @@ def _prepare_demo_target(url: str, own_file: bool, replace: bool) -> Engine:
         from webapp.store import db
 
         click.echo("Emptying it first (--replace).")
+        accounts = _read_accounts(engine)
         db.downgrade(engine, "base")
         db.upgrade(engine)
+        if accounts:
+            _restore_accounts(engine, accounts)
+            click.echo(f"Kept its {counted(len(accounts), 'account')}: their passwords still work.")
     return engine
+
+
+def _read_accounts(engine: Engine) -> list[dict]:
+    """The team's accounts, so that emptying a shared store does not lock its admins out."""
+    from sqlalchemy import select
+
+    from webapp.store import db
+    from webapp.store.models import User
+
+    columns = ("name", "password_hash", "role", "created_at")
+    with db.session_scope(engine) as session:
+        return [{c: getattr(u, c) for c in columns} for u in session.scalars(select(User))]
+
+
+def _restore_accounts(engine: Engine, accounts: list[dict]) -> None:
+    from webapp.store import db
+    from webapp.store.models import User
+
+    with db.session_scope(engine) as session:
+        session.add_all(User(**account) for account in accounts)
 
 
 @cli.command()
