@@ -380,7 +380,11 @@ def _restore_accounts(engine: Engine, accounts: list[dict]) -> None:
 
 @cli.command()
 @click.option("--no-serve", is_flag=True, help="Load the demo and stop, without serving it.")
-@click.option("--replace", is_flag=True, help="Empty a database named by --db that holds data.")
+@click.option(
+    "--replace",
+    is_flag=True,
+    help="Empty a database named by --db that holds data (its accounts are kept).",
+)
 @click.option("--seed", default=7, show_default=True, type=int, help="Seed of the generator.")
 @host_option
 @port_option
