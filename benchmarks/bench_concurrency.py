@@ -158,7 +158,7 @@ def start_server(url: str) -> tuple[subprocess.Popen, str]:
 def new_review(browser: Browser, title: str) -> int:
     status, _, headers = browser.request("POST", "/reviews/new", REVIEW_FORM | {"title": title})
     assert status == 302, status
-    return int(headers["Location"].rstrip("/").split("/")[-2])
+    return int(re.search(r"/reviews/(\d+)", headers["Location"]).group(1))
 
 
 def edit_version(browser: Browser, review_id: int) -> str:
