@@ -97,7 +97,7 @@ class NoRedirect(urllib.request.HTTPRedirectHandler):
 class Tally:
     errors: list[str] = field(default_factory=list)
     read_seconds: list[float] = field(default_factory=list)
-    write_seconds: list[float] = field(default_factory=list)
+    write_seconds: dict[str, list[float]] = field(default_factory=dict)
     acknowledged: dict[str, list[str]] = field(default_factory=dict)
     conflicts: int = 0
     lock: threading.Lock = field(default_factory=threading.Lock)
@@ -113,7 +113,7 @@ class Tally:
     def ack(self, kind: str, marker: str, seconds: float) -> None:
         with self.lock:
             self.acknowledged.setdefault(kind, []).append(marker)
-            self.write_seconds.append(seconds)
+            self.write_seconds.setdefault(kind, []).append(seconds)
 
 
 def free_port() -> int:
@@ -265,10 +265,10 @@ def report(t: Tally, ids: dict, url: str, seconds: float) -> None:
     acked = {kind: len(v) for kind, v in t.acknowledged.items()}
     print(f"run: {seconds:.1f} s")
     print(f"acknowledged writes: {sum(acked.values())} {acked}")
-    if t.write_seconds:
+    for kind, times in sorted(t.write_seconds.items()):
         print(
-            f"write latency: p50 {percentile(t.write_seconds, 50):.3f} s, "
-            f"p95 {percentile(t.write_seconds, 95):.3f} s, max {max(t.write_seconds):.3f} s"
+            f"write latency, {kind}: p50 {percentile(times, 50):.3f} s, "
+            f"p95 {percentile(times, 95):.3f} s, max {max(times):.3f} s"
         )
     if t.read_seconds:
         print(

@@ -51,7 +51,13 @@ def save_explanation(
     screening: dict[str, Any] | None = None,
 ) -> Explanation:
     """Freeze ``exp`` (a ``webapp.analysis.Explanation``) for one stored series, with its
-    peer comparison and screening as JSON objects when given."""
+    peer comparison and screening as JSON objects when given.
+
+    The frames are encoded (a fraction of a second of CPU) before the first statement, so a
+    SQLite store's write lock is not held while they are: other writers wait only for the
+    insert."""
+    frame = encode_frame(exp.frame)
+    overlay_bytes = encode_frame(overlay) if overlay is not None else None
     series = require(session, Series, series_id, "series")
     start, end = exp.window
     row = Explanation(
@@ -63,8 +69,8 @@ def save_explanation(
         window_end=utc(end),
         parameters=jsonable(dict(exp.parameters)),
         engine_version=str(exp.engine_version),
-        frame=encode_frame(exp.frame),
-        overlay=encode_frame(overlay) if overlay is not None else None,
+        frame=frame,
+        overlay=overlay_bytes,
         facts=jsonable(dict(exp.facts)),
         summary=[str(s) for s in exp.summary],
         peers=jsonable(peers) if peers is not None else None,
