@@ -97,8 +97,9 @@ def test_saving_for_an_unknown_series_says_so(session):
         store_exp.save_explanation(session, SimpleNamespace(frame=pd.DataFrame({"v": [1.0]})), 9)
 
 
-def test_delete_explanation(session, series_row):
-    exp = SimpleNamespace(
+def one_row_explanation() -> SimpleNamespace:
+    """The least an explanation needs to be saved: a window and a one-row frame."""
+    return SimpleNamespace(
         window=(pd.Timestamp("2026-11-30 01:00Z"), pd.Timestamp("2026-11-30 03:00Z")),
         parameters={},
         engine_version="t",
@@ -106,6 +107,10 @@ def test_delete_explanation(session, series_row):
         summary=[],
         frame=pd.DataFrame({"value": [1.0]}),
     )
+
+
+def test_delete_explanation(session, series_row):
+    exp = one_row_explanation()
     row = store_exp.save_explanation(session, exp, series_row.id)
     store_exp.delete_explanation(session, row.id)
     assert store_exp.get_explanation(session, row.id) is None
@@ -127,13 +132,6 @@ def test_the_frame_is_encoded_before_the_write_lock_is_taken(session, series_row
         return real(frame)
 
     monkeypatch.setattr(store_exp, "encode_frame", encode)
-    exp = SimpleNamespace(
-        window=(pd.Timestamp("2026-11-30 01:00Z"), pd.Timestamp("2026-11-30 03:00Z")),
-        parameters={},
-        engine_version="t",
-        facts={},
-        summary=[],
-        frame=pd.DataFrame({"value": [1.0]}),
-    )
+    exp = one_row_explanation()
     store_exp.save_explanation(session, exp, series_id)
     assert during == [False]

@@ -53,7 +53,7 @@ from scipy.stats import poisson
 
 from ._calibrate import Calibration, backtest_errors, beyond_share, calibrate, recent_level
 from ._checks import check_exclude, check_history, check_tolerance
-from ._clock import DAY_NS, HOUR_NS, check_tz, wall_clock_ns
+from ._clock import DAY_NS, HOUR_NS, check_tz, wall_clock_hour, wall_clock_ns
 from ._decompose import Decomposition, decompose, others
 from ._grid import Agg, as_utc_series, infer_step, regularize, to_utc
 from ._periods import Candidate, select_periods
@@ -99,7 +99,7 @@ def fit_scale(
     span = index[-1] - index[0] if len(index) else pd.Timedelta(0)
     if not np.isfinite(overall) or step > pd.Timedelta(hours=1) or span < pd.Timedelta(days=2):
         return ScaleModel(overall, None, tz)
-    hours = (wall_clock_ns(index, tz) % DAY_NS // HOUR_NS).astype(np.int64)
+    hours = wall_clock_hour(index, tz)
     raw, counts = grouped_robust_scale(residual, hours, 24)
     raw = np.where(np.isfinite(raw), raw, overall)
     shrunk = (counts * raw + HOURLY_PRIOR_SAMPLES * overall) / (counts + HOURLY_PRIOR_SAMPLES)
@@ -203,7 +203,7 @@ class HourlyRecurrence:
         for k in range(days):
             day[max(0, n - (k + 1) * span) : n - k * span] = k
         ok = (day >= 0) & np.isfinite(z)
-        hours = wall_clock_ns(index, tz) % DAY_NS // HOUR_NS
+        hours = wall_clock_hour(index, tz)
         bucket, z = day[ok] * 24 + hours[ok], z[ok]
         order = np.lexsort((-z, bucket))
         bucket = bucket[order]
@@ -260,7 +260,7 @@ class HourlyRecurrence:
     ) -> tuple[np.ndarray, np.ndarray]:
         """The sides at each time of `index`: `low`, `high`, or a habit's reach there."""
         lows, highs = self._clear(low, high, tolerance)
-        hours = (wall_clock_ns(index, self.tz) % DAY_NS // HOUR_NS).astype(np.int64)
+        hours = wall_clock_hour(index, self.tz)
         return np.fmin(low, lows[hours]), np.fmax(high, highs[hours])
 
     def _clear(self, low: float, high: float, tolerance: float) -> tuple[np.ndarray, np.ndarray]:

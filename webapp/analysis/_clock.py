@@ -38,6 +38,11 @@ def wall_clock_ns(index: pd.DatetimeIndex, tz: str) -> np.ndarray:
     return np.asarray(local.asi8, dtype=np.int64) - MONDAY_ORIGIN_NS
 
 
+def wall_clock_hour(index: pd.DatetimeIndex, tz: str) -> np.ndarray:
+    """The hour of day, 0-23, on the wall clock of `tz` (int64)."""
+    return (wall_clock_ns(index, tz) % DAY_NS // HOUR_NS).astype(np.int64)
+
+
 def same_wall_clock_weeks_ago(index: pd.DatetimeIndex, weeks, tz: str) -> pd.DatetimeIndex:
     """UTC instants showing the same wall-clock time `weeks` weeks earlier (`weeks` may be an
     array as long as `index`).

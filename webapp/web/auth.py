@@ -34,7 +34,6 @@ from webapp.web.htmx import is_htmx
 bp = Blueprint("auth", __name__)
 
 READ_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
-CHANGING_METHODS = frozenset({"POST", "PUT", "PATCH", "DELETE"})
 OPEN_ENDPOINTS = frozenset({"auth.sign_in", "static", "assets.plotly_js"})
 ADMIN_ENDPOINTS = frozenset({"imports.delete"})  # undoing an import removes data
 TRIES_PER_MINUTE = 10  # sign-in tries per client address, on top of the per-account wait
@@ -70,7 +69,7 @@ def _changing(endpoint: str) -> bool:
     if request.method not in READ_METHODS or endpoint in ADMIN_ENDPOINTS:
         return True
     rule = request.url_rule
-    return rule is not None and bool((rule.methods or set()) & CHANGING_METHODS)
+    return rule is not None and bool((rule.methods or set()) - READ_METHODS)
 
 
 def may(endpoint: str) -> bool:
