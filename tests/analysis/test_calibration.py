@@ -8,10 +8,16 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pytest
-from scipy.stats import genpareto, norm
+from scipy.stats import genpareto, lomax, norm
 
 from webapp.analysis import expected_band, explain
-from webapp.analysis._tail import cluster_maxima, fit_pareto_quantiles, upper_quantile
+from webapp.analysis._band import fit_baseline
+from webapp.analysis._tail import (
+    cluster_maxima,
+    fit_pareto_quantiles,
+    predictive_widening,
+    upper_quantile,
+)
 
 T0 = pd.Timestamp("2026-01-05", tz="UTC")
 NOMINAL_OUT = 2 * norm.sf(3)  # standard normal table: 0.27% beyond +-3 sd
@@ -263,3 +269,89 @@ def test_count_quantiles_on_a_rate_grid_only_ever_widen_the_band():
     lower = on_rate_grid(poisson.ppf, beyond, rate, up=False)
     assert (upper >= poisson.isf(beyond, rate)).all() and (lower <= poisson.ppf(beyond, rate)).all()
     assert np.mean(upper == poisson.isf(beyond, rate)) > 0.99
+
+
+def test_the_predictive_widening_is_the_lomax_quantile_of_a_learned_exponential_tail():
+    # Reference library: scipy.stats.lomax. An exponential tail whose scale is the mean of m
+    # excesses has as predictive distribution of the next excess a Lomax (Pareto II) of
+    # shape m and scale m x that mean (the gamma-exponential predictive).
+    mean_excess, share = 2.5, 0.027
+    for m in (3, 10, 100):
+        plug_in = mean_excess * -np.log(share)
+        predictive = lomax.ppf(1 - share, m, scale=m * mean_excess)
+        assert plug_in * predictive_widening(m, share) == pytest.approx(predictive, rel=1e-9)
+    assert predictive_widening(10, share) > predictive_widening(100, share) > 1.0
+
+
+def test_a_sample_too_small_for_the_share_is_never_read_below_its_largest_value():
+    """288 errors cannot show a 0.135% side even once: the side is at least the largest
+    of them, whatever the tail fit says (here a metric sitting on a few levels, where the
+    fit sees mostly ties)."""
+    errors = np.where(np.arange(288) % 2 == 0, 0.0, -2.4)
+    errors[np.arange(8) * 30 + 10] = 2.4  # ten separate clusters above the threshold (0)
+    errors[[245, 265, 285]] = [76.0, 79.0, 83.0]
+    assert upper_quantile(errors, norm.sf(3)) >= 83.0
+
+
+def bursty_cpu(rng: np.random.Generator, days: int) -> pd.Series:
+    """5-minute CPU near 2.5 with short bursts to 60-72 at random times, six a day."""
+    index = pd.date_range(T0, periods=days * 288, freq="5min")
+    values = 2.5 + rng.gamma(2.0, 0.2, len(index))
+    for start in rng.choice(len(index) - 3, size=6 * days, replace=False):
+        values[start : start + 2] = rng.uniform(60, 72)
+    return pd.Series(values, index=index)
+
+
+def test_a_bursty_metric_s_band_reaches_no_further_than_its_backtest_went():
+    """The hourly scale is large at hours that once had a burst; the side there must not
+    reach past the furthest the backtest's errors went (bursts to 72 once gave a band up to
+    270), so a burst to 100, higher than any before, is outside."""
+    series = bursty_cpu(np.random.default_rng(5), 15)
+    history, window = series.iloc[:-288], series.index[-288:]
+    fit = fit_baseline(history)
+    band = fit.band(window)
+    lowest, highest = fit.calibration.reach(3.0)
+    assert np.isfinite(highest) and highest < 72
+    # measured from the higher of the two levels the band covers (the last day's and the
+    # day before's)
+    centre = band["expected"] + max(fit.level_before - fit.level, 0.0)
+    assert (band["upper"] - centre <= highest * (1 + 1e-9)).all()
+    assert band["upper"].max() < 100
+    assert (band["upper"] > 60).all(), "a burst like the past ones is still inside"
+
+
+def test_the_reach_bound_holds_both_sides_of_a_signed_metric_and_needs_enough_errors():
+    rng = np.random.default_rng(6)
+    index = pd.date_range(T0, periods=15 * 288, freq="5min")
+    series = pd.Series(rng.standard_t(2, len(index)), index=index)  # a signed, heavy-tailed delta
+    fit = fit_baseline(series.iloc[:-288])
+    band = fit.band(series.index[-288:])
+    lowest, highest = fit.calibration.reach(3.0)
+    assert lowest < 0 < highest
+    low_centre = band["expected"] + min(fit.level_before - fit.level, 0.0)
+    high_centre = band["expected"] + max(fit.level_before - fit.level, 0.0)
+    assert (low_centre - band["lower"] <= -lowest * (1 + 1e-9)).all()
+    assert (band["upper"] - high_centre <= highest * (1 + 1e-9)).all()
+    short = fit_baseline(series.iloc[: 2 * 288])  # one backtest day: 288 errors < 1 / 0.135%
+    assert short.calibration.reach(3.0) == (-np.inf, np.inf)
+
+
+def test_a_nightly_job_s_spike_is_expected_as_high_as_it_went_not_half_as_high():
+    """The job's spike height varies from night to night: the band at its hour reaches as
+    far as the spikes went on the backtest nights (5-minute data, a habit stretch holds
+    about 36 samples, so all but a few percent of nights), not their median, which half of
+    all nights pass. A spike far past all of them is still outside."""
+    rng = np.random.default_rng(14)
+    days = 15
+    index = pd.date_range(T0, periods=days * 288, freq="5min")
+    values = rng.normal(10, 0.5, len(index))
+    heights = rng.uniform(30, 50, days)
+    for day in range(days):
+        values[day * 288 + 42] = heights[day]  # 03:30
+    series = pd.Series(values, index=index)
+    window = index[-288:]
+    band = expected_band(series, window)
+    at = window.get_loc(window[0] + pd.Timedelta("3h30min"))
+    tallest = heights[:-1].max()
+    assert tallest * 0.98 <= band["upper"].iloc[at] < 60
+    assert band["upper"].iloc[at] > np.median(heights[:-1]) + 5

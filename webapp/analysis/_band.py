@@ -33,9 +33,20 @@ to backtest (under two days) are they +-tolerance x scale. A habit near a wall-c
 widens them there (`HourlyRecurrence`, our rule): when on at least half of the backtest
 days the errors within an hour either way of an hour of the day went clearly further than
 the sides (a quarter further at least, beyond the count chance gives such a stretch), the
-median of how far they went is the side at that hour; a job that spikes near 03:30 on most
-nights is then expected at 03:30 and nowhere else, and a spike that recurs at no particular
-hour changes nothing.
+side at that hour is as far as they went on all but the share of days chance allows (with
+few days, the furthest); a job that spikes near 03:30 on most nights is then expected at
+03:30 and nowhere else, and a spike that recurs at no particular hour changes nothing.
+
+Nor does a side reach further from the expected value than the furthest error the backtest
+made that way, in the metric's own units, once the backtest holds enough errors for that to
+be a split-conformal bound (`Calibration.reach`). The hourly scale of a bursty metric is
+large at hours that once had a burst, and the calibrated side times that scale would reach
+far past anything the metric did (a CPU whose bursts reached 70 got a band up to 270).
+Either bound alone leaves a share of exchangeable errors no larger than nominal outside;
+the narrower of the two at most twice that. On a metric that never went below zero the
+lower side is not bounded this way but by the smallest value taken (`Limits`): how far
+below its level such a metric can go depends on the level (a CPU idling at 2 whose level
+rose to 3 can drop further than it did before).
 
 `Limits` keeps the band within what the metric can take: counts stay whole and
 non-negative, a ratio stays in [0, 1], and nothing expected or lower falls below the
@@ -212,30 +223,40 @@ class HourlyRecurrence:
         rank = np.arange(len(bucket)) - first
         return cls(z[order], bucket, rank, size, days, tz)
 
-    def sides(self, tolerance: float) -> tuple[np.ndarray, np.ndarray]:
-        """(low, high) per wall-clock hour: the median over the backtest days of the r-th
-        most extreme error within the hour, give or take one (`RECUR_NEAR_HOURS`), where r
-        is one more than the number of samples such a stretch typically holds beyond the
-        side by chance. On noise without a daily habit that stays inside +-tolerance, so
-        nothing changes; a job that spikes near 03:30 on most days is expected there."""
+    def sides(self, tolerance: float) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+        """(typical low, typical high, far low, far high) per wall-clock hour, from the r-th
+        most extreme error of each backtest day within the hour, give or take one
+        (`RECUR_NEAR_HOURS`), where r is one more than the number of samples such a stretch
+        typically holds beyond the side by chance. Typical is the median over the days (what
+        most days reached: whether there is a habit at all); far is their conformal rank for
+        a share of days equal to the chance such a stretch holds a sample beyond the side,
+        at most half the days (with few days, the furthest of them: how far the habit may
+        go). On noise without a daily habit the typical reach stays inside +-tolerance, so
+        nothing changes; a job that spikes near 03:30 on most days is expected there, as
+        far as it went on the days before."""
         if tolerance not in self.cache:
             self.cache[tolerance] = self._sides(beyond_share(tolerance))
         return self.cache[tolerance]
 
-    def _sides(self, beyond: float) -> tuple[np.ndarray, np.ndarray]:
+    def _sides(self, beyond: float) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
         per_bucket = np.bincount(self.bucket, minlength=self.n_days * 24)
         per_bucket = per_bucket.reshape(self.n_days, 24)
         near = sum(np.roll(per_bucket, s, axis=1) for s in NEAR_SHIFTS)  # samples per stretch
         typical = float(np.median(near[near > 0])) if (near > 0).any() else 0.0
         r = max(1, int(round(typical * beyond)) + 1)
         high = self._rth_extreme(self.errors, self.rank, r)
-        low = -self._rth_extreme(-self.errors, self.size - 1 - self.rank, r)
-        enough = np.isfinite(high).sum(axis=0) >= MIN_RECUR_DAYS
-        low_h, high_h = np.full(24, np.nan), np.full(24, np.nan)
-        if enough.any():
-            high_h[enough] = np.nanmedian(high[:, enough], axis=0)
-            low_h[enough] = np.nanmedian(low[:, enough], axis=0)
-        return low_h, high_h
+        low = self._rth_extreme(-self.errors, self.size - 1 - self.rank, r)  # negated
+        days_seen = np.isfinite(high).sum(axis=0)
+        enough = days_seen >= MIN_RECUR_DAYS
+        day_share = min(0.5, typical * beyond)
+        rank = np.minimum(np.ceil((days_seen + 1) * (1 - day_share)).astype(int), days_seen)
+        out = []
+        for reach, sign in ((low, -1.0), (high, 1.0)):
+            ordered = np.sort(reach, axis=0)  # NaN last
+            median = ordered[np.maximum((days_seen - 1) // 2, 0), np.arange(24)]
+            far = ordered[np.maximum(rank - 1, 0), np.arange(24)]
+            out += [sign * np.where(enough, median, np.nan), sign * np.where(enough, far, np.nan)]
+        return out[0], out[2], out[1], out[3]
 
     def _rth_extreme(self, z: np.ndarray, rank: np.ndarray, r: int) -> np.ndarray:
         """(days, 24): the r-th largest of `z` (ranked `rank` within its bucket, 0 = largest)
@@ -264,12 +285,13 @@ class HourlyRecurrence:
         return np.fmin(low, lows[hours]), np.fmax(high, highs[hours])
 
     def _clear(self, low: float, high: float, tolerance: float) -> tuple[np.ndarray, np.ndarray]:
-        """The habit's reach per hour where it is clearly past the side, else NaN: a habit
-        only a little past it is as likely chance (our rule, as for the hourly scale)."""
-        lows, highs = self.sides(tolerance)
+        """The habit's far reach per hour where its typical reach is clearly past the side,
+        else NaN: a habit only a little past it is as likely chance (our rule, as for the
+        hourly scale)."""
+        typical_low, typical_high, far_low, far_high = self.sides(tolerance)
         with np.errstate(invalid="ignore"):
-            lows = np.where(lows < HABIT_MARGIN * min(low, 0.0), lows, np.nan)
-            highs = np.where(highs > HABIT_MARGIN * max(high, 0.0), highs, np.nan)
+            lows = np.where(typical_low < HABIT_MARGIN * min(low, 0.0), far_low, np.nan)
+            highs = np.where(typical_high > HABIT_MARGIN * max(high, 0.0), far_high, np.nan)
         return lows, highs
 
 
@@ -321,6 +343,11 @@ class BaselineFit:
         low, high = self.sides(tolerance)
         if self.recurring is not None:
             low, high = self.recurring.widen(index, low, high, tolerance)
+        if self.calibration is not None:
+            lowest, highest = self.calibration.reach(tolerance)
+            if self.limits.lowest >= 0:
+                lowest = -np.inf  # bounded by the smallest value taken instead (`Limits`)
+            low, high = np.maximum(low, lowest / scale), np.minimum(high, highest / scale)
         lower, upper = expected + low * scale, expected + high * scale
         if np.isfinite(self.level_before):
             before = self.limits.clip_expected(np.where(ahead, self.level_before, trend) + seasonal)

@@ -31,7 +31,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.stats import norm
 
-from ._tail import upper_quantile
+from ._tail import conformal_rank, upper_quantile
 
 BACKTEST_DAYS = 28
 MIN_LEVEL_SAMPLES = 12
@@ -105,10 +105,21 @@ def nominal_coverage(tolerance: float) -> float:
 @dataclass(frozen=True)
 class Calibration:
     """Standardised backtest errors (error / scale at its hour, NaN outside the backtest, in
-    time order) and how many days they cover."""
+    time order), how many days they cover, and the furthest the raw errors went each way."""
 
     errors: np.ndarray
     days: int
+    furthest: tuple[float, float] = (float("-inf"), float("inf"))
+
+    def reach(self, tolerance: float) -> tuple[float, float]:
+        """(lowest, highest) raw error the band need allow at `tolerance`: the furthest the
+        backtest went each way once it holds enough errors for that to be a split-conformal
+        bound (a new error beyond all n has chance at most 1 / (n + 1) <= the side's share
+        on exchangeable errors); else unbounded."""
+        n = int(np.isfinite(self.errors).sum())
+        if conformal_rank(n, beyond_share(tolerance)) > n:
+            return float("-inf"), float("inf")
+        return min(self.furthest[0], 0.0), max(self.furthest[1], 0.0)
 
     def quantiles(self, tolerance: float) -> tuple[float, float]:
         """(lower, upper) side of the band in units of the scale at each hour."""
@@ -144,4 +155,5 @@ def calibrate(errors: np.ndarray, scale: np.ndarray, days: int) -> Calibration |
         z = np.where(scale > 0, errors / scale, np.nan)
     if days < 1 or np.isfinite(z).sum() < MIN_BACKTEST_SAMPLES:
         return None
-    return Calibration(z, days)
+    seen = errors[np.isfinite(z)]
+    return Calibration(z, days, (float(seen.min()), float(seen.max())))
