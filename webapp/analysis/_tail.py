@@ -23,8 +23,9 @@ Choices, each our own unless cited:
   tails cannot be told apart from a few hundred values and would make the band unbounded.
 * Rate: the share of all samples above the threshold, so that the quantile is per sample,
   as the nominal level is.
-* Fewer than `MIN_CLUSTERS` clusters: no shape can be told, so the excesses get an
-  exponential tail (shape 0) with their mean as its scale.
+* With fewer than `MIN_CLUSTERS` clusters there is no tail to fit: the same conformal rank
+  is read among the declustered values, so a couple of past bursts, each counted once, are
+  rarer than the nominal share and stay outside.
 * Parameter uncertainty: a tail fitted to m clusters is known only roughly, and its plain
   ("plug-in") far quantile is exceeded more often than asked. For an exponential tail whose
   scale is learned from m excesses the predictive distribution of the next excess is a Lomax
@@ -123,11 +124,9 @@ def upper_quantile(values: np.ndarray, beyond: float) -> float:
     rate = float(np.mean(x > threshold))
     if rate <= beyond:
         return threshold
-    excesses = maxima - threshold
     if len(maxima) < MIN_CLUSTERS:
-        tail = ParetoTail(0.0, float(np.mean(excesses)))
-    else:
-        tail = fit_pareto_quantiles(excesses)
+        return ranked(declustered, beyond)
+    tail = fit_pareto_quantiles(maxima - threshold)
     share = beyond / rate
     estimate = threshold + tail.quantile(1 - share) * predictive_widening(len(maxima), share)
     if conformal_rank(len(declustered), beyond) > len(declustered):
