@@ -7,7 +7,9 @@ writer committed in between; these tests drive real threads on a real SQLite fil
 from __future__ import annotations
 
 import threading
+import time
 
+import numpy as np
 import pytest
 from sqlalchemy import Engine, text
 
@@ -87,3 +89,59 @@ def test_a_writing_request_reads_without_the_lock_inside_a_reading_phase(app):
         with db.reading_phase():
             assert reading(db.get_session())
         assert not reading(db.get_session())
+
+
+def test_a_long_write_gets_its_turn_beside_writers_that_take_the_lock_every_few_ms(counter):
+    """Three writers loop on short writes (20 ms each, as a web request's); a fourth holds
+    the lock for 0.2 s per write. SQLite's busy handler retries on a timer (up to every
+    100 ms), so without turns taken in order the long writer loses the race again and
+    again; with them it waits at most one short write per other writer each time."""
+    stop = threading.Event()
+
+    def hammer() -> None:
+        while not stop.is_set():
+            with db.session_scope(counter) as session:
+                session.execute(text("UPDATE counter SET n = n + 1"))
+                time.sleep(0.02)
+
+    hammers = [threading.Thread(target=hammer) for _ in range(3)]
+    for thread in hammers:
+        thread.start()
+    waits = []
+    try:
+        for _ in range(5):
+            asked = time.perf_counter()
+            with db.session_scope(counter) as session:
+                session.execute(text("UPDATE counter SET n = n + 1000"))  # takes the lock
+                waits.append(time.perf_counter() - asked)
+                time.sleep(0.2)
+            time.sleep(0.05)  # the others are at the lock again
+    finally:
+        stop.set()
+        for thread in hammers:
+            thread.join(timeout=60)
+    assert np.median(waits) < 0.5, waits
+
+
+def test_writer_turns_are_first_come_first_served_and_a_writer_that_gives_up_is_skipped():
+    turns = db.WriterTurns()
+    assert turns.take(1.0)  # the first writer holds the turn
+    order: list[str] = []
+
+    def writer(name: str, timeout: float) -> None:
+        if turns.take(timeout):
+            order.append(name)
+            turns.give_back()
+
+    impatient = threading.Thread(target=writer, args=("impatient", 0.05))
+    impatient.start()
+    time.sleep(0.02)
+    patient = [threading.Thread(target=writer, args=(f"w{k}", 5.0)) for k in range(3)]
+    for thread in patient:
+        thread.start()
+        time.sleep(0.02)  # w0 asks first, then w1, then w2
+    impatient.join()
+    turns.give_back()
+    for thread in patient:
+        thread.join(timeout=5)
+    assert order == ["w0", "w1", "w2"]

@@ -13,6 +13,10 @@ write lock first, waiting up to the busy timeout for it) unless it was opened th
 Writes are the default and reads opt out, so a write path cannot forget the lock: the
 worst a missed opt-out costs is a reader waiting its turn. A write attempted in a reading
 transaction raises :class:`WriteInReadingTransaction` instead of failing under load.
+Writers of one process take turns in the order they asked (:class:`WriterTurns`) before
+they ask SQLite for the lock: SQLite's busy handler retries on a timer, so a writer that
+holds the lock for a second (saving an explanation) could otherwise wait for minutes
+beside writers that take it every few milliseconds (autosaves).
 Web requests get a reading session for GET and HEAD and a writing one otherwise
 (:func:`get_session`); a writing request that computes for long before it writes does the
 computing inside :func:`reading_phase`, so it does not hold the lock meanwhile. On other
@@ -24,6 +28,7 @@ Flask is imported only by the functions for requests, so a command that opens th
 
 from __future__ import annotations
 
+import threading
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
@@ -52,8 +57,49 @@ READING_OPTION = "whyfired_reading"
 READING_METHODS = frozenset({"GET", "HEAD", "OPTIONS"})
 
 
+WAIT_KEY = "whyfired_wait_ms"  # connection info: how long a write waits for the lock
+TURN_KEY = "whyfired_writer_turn"  # connection info: this connection holds the turn
+
+
 class WriteInReadingTransaction(RuntimeError):
     """A write was sent through a session opened for reading (a programming error)."""
+
+
+class WriterTurns:
+    """First come, first served among the writers of one process: a ticket queue.
+
+    A writer that gives up waiting (its time ran out) leaves the queue; its turn is
+    skipped. Writers of other processes (a CLI import) still meet at SQLite's lock."""
+
+    def __init__(self) -> None:
+        self._cond = threading.Condition()
+        self._next = 0
+        self._serving = 0
+        self._gave_up: set[int] = set()
+
+    def take(self, timeout_s: float) -> bool:
+        """Wait for this writer's turn, at most `timeout_s`; False when it did not come."""
+        with self._cond:
+            ticket = self._next
+            self._next += 1
+            if self._cond.wait_for(lambda: self._serving == ticket, timeout_s):
+                return True
+            if self._serving == ticket:  # it came as time ran out: pass it on
+                self._advance()
+            else:
+                self._gave_up.add(ticket)
+            return False
+
+    def give_back(self) -> None:
+        with self._cond:
+            self._advance()
+
+    def _advance(self) -> None:
+        self._serving += 1
+        while self._serving in self._gave_up:
+            self._gave_up.discard(self._serving)
+            self._serving += 1
+        self._cond.notify_all()
 
 
 def make_engine(url: str, **kwargs: Any) -> Engine:
@@ -89,10 +135,36 @@ def _configure_sqlite(engine: Engine, *, in_memory: bool) -> None:
         finally:
             cursor.close()
 
+    turns = WriterTurns()
+
     @event.listens_for(engine, "begin")
     def _on_begin(conn: Any) -> None:
-        reading = conn.get_execution_options().get(READING_OPTION, False)
-        conn.exec_driver_sql("BEGIN" if reading else "BEGIN IMMEDIATE")
+        if conn.get_execution_options().get(READING_OPTION, False):
+            conn.exec_driver_sql("BEGIN")
+            return
+        wait_ms = conn.info.get(WAIT_KEY, BUSY_TIMEOUT_MS)
+        conn.info[TURN_KEY] = turns.take(wait_ms / 1000)
+        try:
+            conn.exec_driver_sql("BEGIN IMMEDIATE")
+        except BaseException:
+            _end_turn(conn.info)
+            raise
+
+    def _end_turn(info: dict) -> None:
+        if info.pop(TURN_KEY, False):
+            turns.give_back()
+
+    @event.listens_for(engine, "commit")
+    def _on_commit(conn: Any) -> None:
+        _end_turn(conn.info)
+
+    @event.listens_for(engine, "rollback")
+    def _on_rollback(conn: Any) -> None:
+        _end_turn(conn.info)
+
+    @event.listens_for(engine, "checkin")
+    def _on_checkin(_dbapi_connection: Any, record: Any) -> None:
+        _end_turn(record.info)  # a connection invalidated mid-transaction
 
     @event.listens_for(engine, "before_cursor_execute")
     def _refuse_writes_when_reading(
@@ -231,6 +303,7 @@ def brief_write(bind: Engine | Connection, wait_ms: int = BRIEF_WAIT_MS) -> Iter
         driver = connection.connection.driver_connection if sqlite else None
         if driver is not None:
             driver.execute(f"PRAGMA busy_timeout = {int(wait_ms)}")
+            connection.info[WAIT_KEY] = wait_ms
         try:
             with Session(connection, expire_on_commit=False) as session:
                 if engine.dialect.name == "postgresql":
@@ -240,6 +313,7 @@ def brief_write(bind: Engine | Connection, wait_ms: int = BRIEF_WAIT_MS) -> Iter
         finally:
             if driver is not None:
                 driver.execute(f"PRAGMA busy_timeout = {BUSY_TIMEOUT_MS}")
+                connection.info.pop(WAIT_KEY, None)
 
 
 def init_app(app: Flask) -> None:
