@@ -30,10 +30,11 @@ Choices, each our own unless cited:
   ("plug-in") far quantile is exceeded more often than asked. For an exponential tail whose
   scale is learned from m excesses the predictive distribution of the next excess is a Lomax
   (Pareto type II) with shape m, whose quantile is wider than the plug-in one by the factor
-  m (q^(-1/m) - 1) / (-ln q) for a tail share q (the gamma-exponential predictive, e.g.
-  Bernardo & Smith 1994, section 5.2; see `predictive_widening`). We apply that factor to the
-  fitted excess quantile whatever the shape (our choice): about 1.2 for 10 clusters, 1.02
-  for 100, so it matters only where the history is short.
+  m (q^(-1/m) - 1) / (-ln q) for a tail share q (the gamma-exponential predictive, a
+  textbook result recalled from memory and checked against `scipy.stats.lomax` in the
+  tests; see `predictive_widening`). We apply that factor to the fitted excess quantile
+  whatever the shape (our choice): about 1.2 for 10 clusters, 1.02 for 100 (at a tail
+  share of 2.7%), so it matters only where the history is short.
 * A sample too small to hold the asked share even once (conformal rank past its end, e.g.
   one day of 5-minute errors for a 0.135% side) gives no ground to go below its largest
   value: the estimate is then never below the largest declustered value (the split-conformal
