@@ -355,3 +355,40 @@ def test_a_nightly_job_s_spike_is_expected_as_high_as_it_went_not_half_as_high()
     tallest = heights[:-1].max()
     assert tallest * 0.98 <= band["upper"].iloc[at] < 60
     assert band["upper"].iloc[at] > np.median(heights[:-1]) + 5
+
+
+def flapping_group(rng: np.random.Generator, days: int, flap_hours: float) -> pd.Series:
+    """5-minute CPU of a group of hosts near 33.4, that flaps between 31 and 36 for the last
+    `flap_hours` of the series (it started to scale in and out)."""
+    index = pd.date_range(T0, periods=days * 288, freq="5min")
+    values = 33.4 + rng.normal(0, 0.05, len(index))
+    flapping = index >= index[-1] - pd.Timedelta(hours=flap_hours)
+    values[flapping] = np.where(rng.random(int(flapping.sum())) < 0.5, 31.0, 36.0)
+    return pd.Series(values, index=index)
+
+
+def test_a_change_of_spread_in_the_last_hours_is_followed_and_stated():
+    """Like a change of level, a change of spread in the last hours of the history is
+    followed at once: the next day's band holds the new flapping, and says why."""
+    rng = np.random.default_rng(31)
+    series = flapping_group(rng, 10, 6)
+    history = series.iloc[:-1]
+    window = pd.date_range(series.index[-1], periods=288, freq="5min")
+    band = expected_band(history, window)
+    assert (band["lower"] <= 31.0).all() and (band["upper"] >= 36.0).all()
+    steady = expected_band(history.iloc[: -6 * 12], window)
+    assert (steady["upper"] < 35.0).all(), "without the flapping the band stays narrow"
+    more = pd.Series(np.where(rng.random(288) < 0.5, 31.0, 36.0), index=window)
+    exp = explain(pd.concat([history, more]), window=(window[0], window[-1]), history="9D")
+    assert exp.facts["band_recent_spread"] > 3 * exp.facts["scale"]
+    assert "times as much as usual" in " ".join(exp.summary)
+    assert exp.facts["minutes_outside"] == 0
+
+
+def test_a_spike_or_two_in_the_last_hours_do_not_widen_the_band():
+    rng = np.random.default_rng(32)
+    index = pd.date_range(T0, periods=10 * 288, freq="5min")
+    values = 33.4 + rng.normal(0, 0.05, len(index))
+    values[[-20, -7]] = [45.0, 20.0]
+    fit = fit_baseline(pd.Series(values, index=index))
+    assert np.isnan(fit.spread)

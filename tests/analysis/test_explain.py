@@ -19,7 +19,7 @@ DOCUMENTED_FACTS = {
     "same_hour_rank", "same_hour_past_extreme", "same_hour_past_median", "same_hour_side",
     "confidence",
     "confidence_reasons", "band_sides", "band_backtest_days", "band_coverage",
-    "band_coverage_nominal", "band_habit_hours",
+    "band_coverage_nominal", "band_habit_hours", "band_recent_spread",
 }  # fmt: skip
 
 

@@ -48,6 +48,9 @@ lower side is not bounded this way but by the smallest value taken (`Limits`): h
 below its level such a metric can go depends on the level (a CPU idling at 2 whose level
 rose to 3 can drop further than it did before).
 
+After a change of spread in the last hours of the history (`_calibrate.recent_spread`) the
+band ahead is at least +-tolerance times the recent spread.
+
 `Limits` keeps the band within what the metric can take: counts stay whole and
 non-negative, a ratio stays in [0, 1], and nothing expected or lower falls below the
 smallest value the history took when that is >= 0.
@@ -62,7 +65,14 @@ import numpy as np
 import pandas as pd
 from scipy.stats import poisson
 
-from ._calibrate import Calibration, backtest_errors, beyond_share, calibrate, recent_level
+from ._calibrate import (
+    Calibration,
+    backtest_errors,
+    beyond_share,
+    calibrate,
+    recent_level,
+    recent_spread,
+)
 from ._checks import check_exclude, check_history, check_tolerance
 from ._clock import DAY_NS, HOUR_NS, check_tz, wall_clock_hour, wall_clock_ns
 from ._decompose import Decomposition, decompose, others
@@ -309,6 +319,7 @@ class BaselineFit:
     limits: Limits
     calibration: Calibration | None
     recurring: HourlyRecurrence | None = None
+    spread: float = float("nan")  # a recent change of spread, NaN without one (see `band`)
 
     @property
     def periods(self) -> list[pd.Timedelta]:
@@ -353,6 +364,9 @@ class BaselineFit:
             before = self.limits.clip_expected(np.where(ahead, self.level_before, trend) + seasonal)
             lower = np.fmin(lower, before + low * scale)
             upper = np.fmax(upper, before + high * scale)
+        if np.isfinite(self.spread):
+            lower = np.where(ahead, np.fmin(lower, expected - tolerance * self.spread), lower)
+            upper = np.where(ahead, np.fmax(upper, expected + tolerance * self.spread), upper)
         lower, upper = self.limits.bound(lower, upper, expected, tolerance)
         out["lower"] = lower
         out["upper"] = upper
@@ -388,9 +402,8 @@ def fit_baseline(
     deseasonalised = y - others(decomposition.fitted_seasonals, -1, len(y))
     level = recent_level(deseasonalised, len(y), span, scale.overall)
     level_before = recent_level(deseasonalised, len(y) - span, span)
-    errors, days = backtest_errors(
-        held_out_deseasonalised(decomposition, y), span, scale=scale.overall
-    )
+    held_out = held_out_deseasonalised(decomposition, y)
+    errors, days = backtest_errors(held_out, span, scale=scale.overall)
     calibration = calibrate(errors, scale.at(baseline.index), days)
     end = baseline.index[-1] if len(baseline) else pd.Timestamp.min.tz_localize("UTC")
     recurring = (
@@ -408,6 +421,7 @@ def fit_baseline(
         Limits.of(y, span),
         calibration,
         recurring,
+        recent_spread(held_out, span, scale.overall),
     )
 
 

@@ -9,6 +9,10 @@ migration) is followed sooner: when at least `SHIFT_SHARE` of the last values, o
 least an eighth of a day, lie more than `SHIFT_Z` scales to one side of the day's median,
 their median is the level (`shifted_level`; thresholds our choice). This is the running
 median of the backtest's errors moving away from zero, read at the end of the history.
+A change of spread is followed the same way (`recent_spread`): when the robust spread of
+each half of the last eighth of a day is at least `SHIFT_Z` times the band's scale (a group
+of hosts that started to flap between two levels), the band ahead is at least +-tolerance
+times that spread; a day later the backtest has learnt it.
 
 To learn how far that forecast misses, each of the last `BACKTEST_DAYS` days of the history
 is forecast the same way from the day before it, with the seasonal pattern fitted without
@@ -39,6 +43,7 @@ MIN_BACKTEST_SAMPLES = 48
 SHIFT_Z = 3.0
 SHIFT_SHARE = 0.9
 SHIFT_PARTS = 8  # a shift counts once it has held an eighth of a day (3 hours)
+IQR_TO_SD = 1.349  # the interquartile range of a normal distribution, in sds
 
 
 def recent_level(values: np.ndarray, end: int, span: int, scale: float = float("nan")) -> float:
@@ -70,6 +75,22 @@ def shifted_level(recent: np.ndarray, level: float, scale: float, shortest: int)
             longest = int(np.flatnonzero(held)[-1]) + 1
             return float(np.median(recent[-longest:]))
     return None
+
+
+def recent_spread(values: np.ndarray, span: int, scale: float) -> float:
+    """The robust spread of the last eighth of a day of valid `values` when it is at least
+    `SHIFT_Z` times `scale`, else NaN. The spread is the interquartile range / 1.349 (the
+    normal-consistent IQR, common practice), not the MAD: flapping between two levels has a
+    MAD near zero when one level holds just over half the values, but an IQR as wide as the
+    flapping. It must hold in both halves of that stretch (the smaller of their two
+    spreads counts), so a burst and its decay, a spike or two, or a metric that sits on one
+    level do not widen the band."""
+    recent = values[np.isfinite(values)][-max(MIN_LEVEL_SAMPLES, span // SHIFT_PARTS) :]
+    if len(recent) < MIN_LEVEL_SAMPLES or not np.isfinite(scale):
+        return float("nan")
+    quartiles = [np.percentile(half, [25, 75]) for half in np.array_split(recent, 2)]
+    spread = min(float(high - low) for low, high in quartiles) / IQR_TO_SD
+    return spread if spread >= SHIFT_Z * scale else float("nan")
 
 
 def backtest_errors(

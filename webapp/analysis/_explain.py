@@ -31,8 +31,8 @@ from ._grid import Agg, as_utc_series, check_step, find_gaps, infer_step, regula
 from ._sentences import sentences
 
 # 2: sides calibrated on a backtest; 2.1: shifts, two levels; 2.1.2: daily habits;
-# 2.2: reach bound, predictive tail, a habit as far as it went
-ENGINE_VERSION = "2.2.0"
+# 2.2: reach bound, predictive tail, a habit as far as it went; 2.2.1: a change of spread
+ENGINE_VERSION = "2.2.1"
 DEFAULT_HISTORY = pd.Timedelta(weeks=6)
 BAND_COLUMNS = ("expected", "lower", "upper", "trend", "seasonal", "band_scale")
 
@@ -236,4 +236,5 @@ def band_coverage_facts(fit: BaselineFit | None, tolerance: float) -> dict[str, 
         "band_coverage": number(calibration.coverage(tolerance)) if calibration else None,
         "band_coverage_nominal": nominal_coverage(tolerance),
         "band_habit_hours": habits or None,
+        "band_recent_spread": number(fit.spread) if fit and np.isfinite(fit.spread) else None,
     }

@@ -19,7 +19,9 @@ Keys (None where not applicable):
   samples inside the band at this tolerance; band_coverage_nominal: the share the band is
   built to hold, 1 - 2 x (1 - Phi(tolerance)) (0.9973 at 3); band_habit_hours: the
   wall-clock hours ("03:00") at which a daily habit widens the band (on most backtest days
-  the errors within an hour of it went past the sides), None when there is none
+  the errors within an hour of it went past the sides), None when there is none;
+  band_recent_spread: the robust spread of the history's last hours when it was at least 3
+  times the scale (the band ahead is then at least +-tolerance x it), else None
 - peak_time, peak_value, peak_expected, peak_lower, peak_upper, peak_deviation_sd: the
   highest value in the window, and how far it was from expected in robust sds
 - strongest_time, strongest_value, strongest_expected, strongest_deviation_sd: the sample

@@ -214,14 +214,22 @@ def band_coverage_sentence(f: dict[str, Any]) -> str | None:
         f"{share(f['band_coverage'])} of samples; it is built to hold {nominal}."
     )
     hours = f.get("band_habit_hours")
-    if not hours:
-        return held
-    spans = hour_spans([int(h[:2]) for h in hours])
-    near = spans[0] if len(spans) == 1 else ", ".join(spans[:-1]) + f" and {spans[-1]}"
-    return (
-        f"{held} At {near} it reaches further: on most of those days the metric went that "
-        "far near that time of day (a habit, such as a scheduled job)."
-    )
+    if hours:
+        spans = hour_spans([int(h[:2]) for h in hours])
+        near = spans[0] if len(spans) == 1 else ", ".join(spans[:-1]) + f" and {spans[-1]}"
+        held += (
+            f" At {near} it reaches further: on most of those days the metric went that "
+            "far near that time of day (a habit, such as a scheduled job)."
+        )
+    spread = f.get("band_recent_spread")
+    if spread is not None and f.get("scale"):
+        held += (
+            f" In the last hours of the history the metric varied {spread / f['scale']:.0f} "
+            "times as much as usual, so the band allows at least "
+            f"±{fmt_value(f['tolerance'] * spread, f.get('unit') or '')} around the expected "
+            "value until the backtest has seen a day of it."
+        )
+    return held
 
 
 def hour_spans(hours: list[int]) -> list[str]:

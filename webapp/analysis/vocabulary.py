@@ -160,6 +160,7 @@ FACT_GROUPS: tuple[tuple[str, tuple[tuple[str, str, tuple[str, ...]], ...]], ...
             ("Share the band is built to hold", "share", ("band_coverage_nominal",)),
             ("Share it held on those days", "share", ("band_coverage",)),
             ("Hours a daily habit widens it", "list", ("band_habit_hours",)),
+            ("Recent spread it allows for", "value", ("band_recent_spread",)),
             ("Seasonal periods used", "periods", ("periods",)),
             ("Strength of each period tried", "strengths", ("period_strengths",)),
             ("Robust spread of what is left", "value", ("scale",)),
