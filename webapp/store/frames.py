@@ -176,19 +176,27 @@ def choose_codecs(frame: pd.DataFrame) -> dict[str, Codec]:
     the columns choose in (``expected`` from ``lower``, or ``lower`` from ``expected``), so
     a few orders are tried and the smallest total kept."""
     floats = [c for c in frame.columns if frame[c].dtype == np.float64]
+    if not floats:
+        return {}
     arrays = {c: np.ascontiguousarray(frame[c].to_numpy()) for c in floats}
     lags = _grid_lags(frame.index)
     block = _block_rows(lags)
-    own = {
-        name: min(
-            ((_size(arrays, name, c), c) for c in _own_codecs(arrays[name], lags, block)),
-            key=lambda t: t[0],
-        )
-        for name in floats
-    }
+    decimals = {name: _decimals(arrays[name]) for name in floats}
+    sizer = _Sizer(len(frame))
+    own: dict[str, tuple[int, Codec]] = {}
+    by_content: dict[bytes, tuple[int, Codec]] = {}  # a column repeated (one seasonal period)
+    for name in floats:
+        key = arrays[name].tobytes()
+        if key not in by_content:
+            by_content[key] = _best_own(arrays[name], lags, block, decimals[name], sizer)
+        own[name] = by_content[key]
+    stacked = np.stack([arrays[name] for name in floats])
     formulas = {
-        name: [(_size(arrays, name, c), c) for c in _formula_codecs(arrays, name, floats)]
-        for name in floats
+        name: [
+            (sizer.size(_formula_or_decimal_words(arrays, name, c)), c)
+            for c in _formula_codecs(stacked, floats, j, decimals[name])
+        ]
+        for j, name in enumerate(floats)
     }
     by_size = sorted(floats, key=lambda c: own[c][0])
     best: tuple[int, dict[str, Codec]] | None = None
@@ -197,6 +205,27 @@ def choose_codecs(frame: pd.DataFrame) -> dict[str, Codec]:
         if best is None or total < best[0]:
             best = (total, chosen)
     return {name: best[1][name] for name in floats} if best else {}
+
+
+def _best_own(
+    x: np.ndarray, lags: list[int], block: int, decimals: int | None, sizer: _Sizer
+) -> tuple[int, Codec]:
+    """The smallest own-row codec of ``x`` and its size (the first of equal sizes)."""
+    rows = _own_row_codecs(x, lags)
+    words = {codec: _own_words(x, codec) for codec in rows}
+    candidates = list(rows)
+    if len(x) > block:
+        candidates.append(_blocks_codec(x, rows, block, words))
+    if decimals is not None:
+        candidates.append(Codec("decimal", number=float(decimals)))
+    sized = []
+    for codec in candidates:
+        if codec.kind == "decimal":
+            stored = _own_words(_decimal_integers(x, codec).view(np.float64), Codec("previous"))
+        else:
+            stored = _grouped(_own_words(x, codec, words), codec)
+        sized.append((sizer.size(stored), codec))
+    return min(sized, key=lambda t: t[0])
 
 
 def _choose_in_order(
@@ -266,23 +295,21 @@ def _block_rows(lags: list[int]) -> int:
     return lags[0] * -(-MIN_BLOCK_ROWS // lags[0])
 
 
-def _own_codecs(x: np.ndarray, lags: list[int], block: int) -> Iterator[Codec]:
+def _own_row_codecs(x: np.ndarray, lags: list[int]) -> list[Codec]:
+    """The codecs predicting each row from the rows before it (``blocks`` picks among them)."""
     rows = [Codec("raw"), Codec("previous"), Codec("linear"), Codec("cubic")]
     rows += [Codec("lag", number=float(lag)) for lag in lags]
-    rows += [c for c in (_alternate_codec(x, parity) for parity in (0, 1)) if c is not None]
-    yield from rows
-    if len(x) > block:
-        yield _blocks_codec(x, rows, block)
-    decimals = _decimals(x)
-    if decimals is not None:
-        yield Codec("decimal", number=float(decimals))
+    return rows + [c for c in (_alternate_codec(x, parity) for parity in (0, 1)) if c is not None]
 
 
-def _blocks_codec(x: np.ndarray, candidates: list[Codec], block: int) -> Codec:
+def _blocks_codec(
+    x: np.ndarray, candidates: list[Codec], block: int, known: dict[Codec, np.ndarray] | None = None
+) -> Codec:
     """Each block of ``block`` rows under its own smallest own-row codec: a seasonal pattern
-    may repeat exactly for some days (lag) and change smoothly on others (differences)."""
+    may repeat exactly for some days (lag) and change smoothly on others (differences).
+    ``known``: words of the candidates already computed."""
     # A block's cost under each codec, estimated cheaply: the significant bits of its words.
-    costs = np.stack([_block_bits(_own_words(x, c), block) for c in candidates])
+    costs = _block_bits(np.stack([_own_words(x, c, known) for c in candidates]), block)
     chosen = [candidates[i] for i in np.argmin(costs, axis=0)]
     runs: list[tuple[Codec, int]] = []
     for codec in chosen:
@@ -394,34 +421,90 @@ def _decimals(x: np.ndarray) -> int | None:
 _NAN_BITS = np.array([np.nan]).view(np.uint64)[0]
 
 
-def _formula_codecs(arrays: dict[str, np.ndarray], name: str, allowed: list[str]) -> list[Codec]:
-    """Sums, differences and scaled sums of two allowed columns that match most of a sample
-    of ``name`` exactly."""
-    x = arrays[name]
+def _formula_codecs(
+    stacked: np.ndarray, names: list[str], j: int, decimals: int | None
+) -> list[Codec]:
+    """Sums, differences and scaled sums of two columns of ``stacked`` (one row per name)
+    that match most of a sample of column ``j`` exactly.
+
+    Every pair is tested at once on the sample; the search for a pair's scale constant runs
+    only where enough rows lie close enough to ``a + median * b`` that it could succeed."""
+    x = stacked[j]
+    name = names[j]
     sample = np.flatnonzero(np.isfinite(x))[:SAMPLE_ROWS]
     if not len(sample):
         return []
-    xs = x[sample]
     found: list[Codec] = []
-    decimals = _decimals(x)
     if decimals is not None:  # values with short decimals, stored near another column
-        found += [Codec("decimal", (ref,), float(decimals)) for ref in allowed if ref != name]
-    for i, a in enumerate(allowed):
-        av = arrays[a][sample]
-        for b in allowed:
-            if b == a:
+        found += [Codec("decimal", (ref,), float(decimals)) for ref in names if ref != name]
+    rows = stacked[:, sample]
+    xs = rows[j]
+    with np.errstate(invalid="ignore", over="ignore"):
+        differences = _shares(rows[:, None, :] - rows[None, :, :] == xs) >= EXACT_SHARE
+        sums = _shares(rows[:, None, :] + rows[None, :, :] == xs) >= EXACT_SHARE
+    scalable = _scalable(xs, rows)
+    for i, a in enumerate(names):
+        for jb, b in enumerate(names):
+            if jb == i:
                 continue
-            bv = arrays[b][sample]
-            tries = [Codec("difference", (a, b))]
-            if allowed.index(b) > i:
-                tries.append(Codec("sum", (a, b)))
-            k = _scale_of(xs, av, bv)
+            if differences[i, jb]:
+                found.append(Codec("difference", (a, b)))
+            if jb > i and sums[i, jb]:
+                found.append(Codec("sum", (a, b)))
+            k = _scale_of(xs, rows[i], rows[jb]) if scalable[i, jb] else None
             if k is not None:
-                tries.append(Codec("scaled", (a, b), k))
-            for codec in tries:
-                if np.mean(_predict_formula(codec, av, bv) == xs) >= EXACT_SHARE:
+                codec = Codec("scaled", (a, b), k)
+                if np.mean(_predict_formula(codec, rows[i], rows[jb]) == xs) >= EXACT_SHARE:
                     found.append(codec)
     return found
+
+
+def _shares(matches: np.ndarray) -> np.ndarray:
+    """The share of rows (the last axis) that match, as ``np.mean`` gives it."""
+    return np.count_nonzero(matches, axis=-1) / matches.shape[-1]
+
+
+def _scalable(x: np.ndarray, rows: np.ndarray) -> np.ndarray:
+    """For every pair (a, b) of ``rows``: could ``_scale_of`` find a ``k`` with
+    ``x == a + k * b`` on at least EXACT_SHARE of the rows? False only where it cannot.
+
+    Each candidate ``k`` lies within ``reach`` of the median ratio ``m``, and a row where
+    ``a + k * b`` rounds to ``x`` has ``|x - a - m * b| <= reach * |b|`` plus a few units of
+    rounding, bounded here very generously (1e-9 relative). Rows further off cannot match
+    any candidate; a pair with too few rows left is not searched."""
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore", under="ignore"):
+        rest = x - rows  # x - a, one row per a
+        ratios = rest[:, None, :] / rows[None, :, :]  # (a, b, row)
+        valid = np.isfinite(ratios) & (rows != 0)[None, :, :]
+        counts = np.count_nonzero(valid, axis=-1)
+        median = _medians(np.where(valid, ratios, np.inf), counts)
+        bits = median.view(np.int64)
+        reach = np.maximum(
+            np.abs((bits - SCALE_ULPS).view(np.float64) - median),
+            np.abs((bits + SCALE_ULPS).view(np.float64) - median),
+        )
+        reach = np.maximum(reach, 1e-11 * np.abs(median) + 1e-300)  # 12 significant digits
+        line = median[:, :, None] * rows[None, :, :]
+        miss = np.abs(rest[:, None, :] - line)
+        size = np.abs(x) + np.abs(rows)[:, None, :] + np.abs(line)
+        allowed = reach[:, :, None] * np.abs(rows)[None, :, :] + 1e-9 * size + 1e-300
+        far = (miss > allowed) & np.isfinite(miss) & np.isfinite(allowed)
+        near = (far.shape[-1] - np.count_nonzero(far, axis=-1)) / far.shape[-1]
+    return (counts > 0) & (median != 0) & (near >= EXACT_SHARE)
+
+
+def _medians(values: np.ndarray, counts: np.ndarray) -> np.ndarray:
+    """``np.median`` of the first ``counts`` values of each row once sorted (the others are
+    +inf), for every row of the last axis at once."""
+    n = values.shape[-1]
+    lo_at, hi_at = np.maximum(counts - 1, 0) // 2, counts // 2
+    if (counts == n).all():
+        ordered = np.partition(values, sorted({(n - 1) // 2, n // 2}), axis=-1)
+    else:
+        ordered = np.sort(values, axis=-1)
+    lo = np.take_along_axis(ordered, lo_at[..., None], axis=-1)[..., 0]
+    hi = np.take_along_axis(ordered, np.minimum(hi_at, n - 1)[..., None], axis=-1)[..., 0]
+    return np.where(counts % 2 == 1, lo, (lo + hi) / 2)
 
 
 def _scale_of(x: np.ndarray, a: np.ndarray, b: np.ndarray) -> float | None:
@@ -458,17 +541,22 @@ def _predict_formula(codec: Codec, a: np.ndarray, b: np.ndarray) -> np.ndarray:
         return a + codec.number * b
 
 
-def _own_words(x: np.ndarray, codec: Codec) -> np.ndarray:
+def _own_words(
+    x: np.ndarray, codec: Codec, known: dict[Codec, np.ndarray] | None = None
+) -> np.ndarray:
     """The stored words of an own-row codec: differences of the bit patterns taken as
     integers (wrapping), zigzagged so small negative steps are small words too. Smooth
     doubles of one sign and exponent have nearly evenly spaced bit patterns, so a line's
     second difference is a few units; and unlike a float prediction, this one decodes with
-    cumulative sums instead of a loop."""
+    cumulative sums instead of a loop. ``known``: words of ``x`` already computed, by codec
+    (read, never changed)."""
+    if known is not None and codec in known:
+        return known[codec]
     bits = x.view(np.int64)
     if codec.kind == "raw":
         return bits.view(np.uint64).copy()
     if codec.kind == "blocks":
-        return _blocks_words(x, codec)
+        return _blocks_words(x, codec, known)
     if codec.kind == "alternate":
         return _alternate_words(x, codec)
     if codec.kind == "lag":
@@ -506,11 +594,13 @@ def _run_bounds(codec: Codec, n: int) -> Iterator[tuple[Codec, int, int]]:
 
 
 def _block_bits(words: np.ndarray, block: int) -> np.ndarray:
-    """Significant bits per block of ``block`` rows (the words' byte layout aside)."""
+    """Significant bits per block of ``block`` rows (the words' byte layout aside), for each
+    row of ``words`` (one row of words per codec): codecs x blocks."""
     bits = np.log2(words.astype(np.float64) + 1.0)
-    padded = np.zeros(-(-len(bits) // block) * block)
-    padded[: len(bits)] = bits
-    return padded.reshape(-1, block).sum(axis=1)
+    n = bits.shape[1]
+    padded = np.zeros((len(bits), -(-n // block) * block))
+    padded[:, :n] = bits
+    return padded.reshape(len(bits), -1, block).sum(axis=2)
 
 
 def _shifted(codec: Codec, start: int) -> Codec:
@@ -542,10 +632,15 @@ def _grouped(words: np.ndarray, codec: Codec, *, undo: bool = False) -> np.ndarr
     return out
 
 
-def _blocks_words(x: np.ndarray, codec: Codec) -> np.ndarray:
+def _blocks_words(
+    x: np.ndarray, codec: Codec, known: dict[Codec, np.ndarray] | None = None
+) -> np.ndarray:
     words = np.empty(len(x), dtype=np.uint64)
+    known = dict(known or {})  # each part's words computed once, however many runs it has
     for part, start, end in _run_bounds(codec, len(x)):
-        words[start:end] = _own_words(x, part)[start:end]
+        if part not in known:
+            known[part] = _own_words(x, part)
+        words[start:end] = known[part][start:end]
     return words
 
 
@@ -652,26 +747,36 @@ def _decode_column(frame: pd.DataFrame, name: str, codec: Codec) -> np.ndarray:
     return _undo_own(_grouped(words, codec, undo=True), codec)
 
 
-def _size(arrays: dict[str, np.ndarray], name: str, codec: Codec) -> int:
-    """Compressed size of a stretch of the column under ``codec``: byte planes through
-    zstd, about what Parquet's BYTE_STREAM_SPLIT with zstd writes."""
-    x = arrays[name]
-    if codec.kind == "decimal" and codec.refs:
-        words = _decimal_words(arrays, name, codec)
-    elif codec.kind == "decimal":
-        words = _own_words(_decimal_integers(x, codec).view(np.float64), Codec("previous"))
-    elif codec.refs:
-        words = _formula_words(arrays, name, codec)
-    else:
-        words = _grouped(_own_words(x, codec), codec)
-    if len(words) <= SIZE_ROWS:
-        return _compressed(words)
-    # Stretches spread over the column: a codec may suit only some of it (see blocks).
-    stretch = SIZE_ROWS // SIZE_STRETCHES
-    starts = np.linspace(0, len(words) - stretch, SIZE_STRETCHES).astype(np.int64)
-    return sum(_compressed(words[s : s + stretch]) for s in starts)
+def _formula_or_decimal_words(arrays: dict[str, np.ndarray], name: str, codec: Codec) -> np.ndarray:
+    if codec.kind == "decimal":
+        return _decimal_words(arrays, name, codec)
+    return _formula_words(arrays, name, codec)
 
 
-def _compressed(words: np.ndarray) -> int:
-    planes = np.ascontiguousarray(words.view(np.uint8).reshape(-1, 8).T)
-    return len(_ZSTD.compress(planes.tobytes(), asbytes=True))
+class _Sizer:
+    """Compressed sizes of a frame's candidate words: stretches spread over the column (a
+    codec may suit only some of it, see blocks), byte planes through zstd, about what
+    Parquet's BYTE_STREAM_SPLIT with zstd writes. An all-zero stretch (an exact formula)
+    is compressed once."""
+
+    def __init__(self, rows: int) -> None:
+        if rows <= SIZE_ROWS:
+            self.picks = np.arange(rows)[None, :]
+        else:
+            stretch = SIZE_ROWS // SIZE_STRETCHES
+            starts = np.linspace(0, rows - stretch, SIZE_STRETCHES).astype(np.int64)
+            self.picks = starts[:, None] + np.arange(stretch)
+        piece = 8 * self.picks.shape[1]
+        self.zeros = len(_ZSTD.compress(bytes(piece), asbytes=True))
+
+    def size(self, words: np.ndarray) -> int:
+        picked = words[self.picks]
+        used = picked.any(axis=1)
+        total = self.zeros * int(len(used) - used.sum())
+        if used.any():
+            planes = picked[used].view(np.uint8).reshape(-1, picked.shape[1], 8)
+            data = np.ascontiguousarray(planes.transpose(0, 2, 1)).tobytes()
+            step = 8 * picked.shape[1]
+            for start in range(0, len(data), step):
+                total += len(_ZSTD.compress(data[start : start + step], asbytes=True))
+        return total
