@@ -42,7 +42,6 @@ from __future__ import annotations
 import io
 import json
 import math
-import struct
 from collections.abc import Iterator
 from dataclasses import dataclass, replace
 
@@ -372,30 +371,43 @@ def _alternate_words(x: np.ndarray, codec: Codec) -> np.ndarray:
     return words
 
 
-_DOUBLE = struct.Struct("<d")
-_WORD = struct.Struct("<Q")
-
-
 def _undo_alternate(words: np.ndarray, codec: Codec) -> np.ndarray:
-    """Row by row for the blended rows: each needs the one two rows before it."""
+    """Row by row for the blended rows: each needs the one two rows before it. The rows of
+    the other parity come first (cumulative sums), and their products with the weights are
+    taken for all rows at once; the loop adds in the encoder's order."""
     parity = int(codec.number)
     steps = _unzigzag(words)
     steps[parity::2] = 0
     x = _cumsum(_cumsum(steps, 2), 2).view(np.float64)
-    values = x.tolist()
-    stored = words.tolist()
+    head = np.arange(parity, min(3, len(x)), 2)
+    x[head] = words[head].view(np.float64)
+    first = 4 - parity  # the first blended row with three rows before it
+    if len(x) <= first:
+        return x
     alpha, beta, gamma = codec.coefs
-    for i in range(parity, len(values), 2):
-        if i < 3:
-            values[i] = _DOUBLE.unpack(_WORD.pack(stored[i]))[0]
-            continue
-        guess = alpha * values[i - 1] + beta * values[i - 2] + gamma * values[i - 3]
-        if not math.isfinite(guess):
+    count = len(x[first::2])
+    with np.errstate(invalid="ignore", over="ignore"):
+        before = (alpha * x[first - 1 :: 2][:count]).tolist()
+        after = (gamma * x[first - 3 :: 2][:count]).tolist()
+    stored = words[first::2].tolist()
+    space = bytearray(8)  # one double seen as its word, to XOR its bits
+    as_float, as_word = memoryview(space).cast("d"), memoryview(space).cast("Q")
+    infinity = math.inf
+    prev = float(x[first - 2])
+    values = []
+    for one, three, word in zip(before, after, stored, strict=True):
+        guess = one + beta * prev + three
+        if not -infinity < guess < infinity:
             guess = 0.0
-        word = stored[i] ^ _WORD.unpack(_DOUBLE.pack(guess))[0]
-        values[i] = _DOUBLE.unpack(_WORD.pack(word))[0]
+        if word:
+            as_float[0] = guess
+            as_word[0] ^= word
+            guess = as_float[0]
+        values.append(guess)
+        prev = guess
     # Floats from a list keep their bits (NaN payloads included) on the way back.
-    return np.array(values, dtype=np.float64)
+    x[first::2] = np.array(values, dtype=np.float64)
+    return x
 
 
 def _decimals(x: np.ndarray) -> int | None:
