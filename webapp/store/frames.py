@@ -61,7 +61,7 @@ SCALE_ULPS = 32  # how far from the median ratio a scale constant is looked for
 SCALE_ROWS = 256  # rows the candidates are tried on
 MIN_BLOCK_ROWS = 1024
 FIT_ROWS = 8192  # rows the alternate blend is fitted on
-_ZSTD = pa.Codec("zstd", compression_level=3)
+SIZE_LEVEL = 3  # zstd level of the size comparisons
 
 
 @dataclass(frozen=True)
@@ -190,13 +190,17 @@ def choose_codecs(frame: pd.DataFrame) -> dict[str, Codec]:
             by_content[key] = _best_own(arrays[name], lags, block, decimals[name], sizer)
         own[name] = by_content[key]
     stacked = np.stack([arrays[name] for name in floats])
-    formulas = {
-        name: [
-            (sizer.size(_formula_or_decimal_words(arrays, name, c)), c)
-            for c in _formula_codecs(stacked, floats, j, decimals[name])
-        ]
+    found = [
+        (name, codec)
         for j, name in enumerate(floats)
-    }
+        for codec in _formula_codecs(stacked, floats, j, decimals[name])
+    ]
+    sizes = (
+        sizer.sizes([_formula_or_decimal_words(arrays, n, c) for n, c in found]) if found else []
+    )
+    formulas: dict[str, list[tuple[int, Codec]]] = {name: [] for name in floats}
+    for (name, codec), size in zip(found, sizes, strict=True):
+        formulas[name].append((size, codec))
     by_size = sorted(floats, key=lambda c: own[c][0])
     best: tuple[int, dict[str, Codec]] | None = None
     for order in (by_size, by_size[::-1], floats):
@@ -217,13 +221,13 @@ def _best_own(
         candidates.append(_blocks_codec(x, rows, block, words))
     if decimals is not None:
         candidates.append(Codec("decimal", number=float(decimals)))
-    sized = []
-    for codec in candidates:
-        if codec.kind == "decimal":
-            stored = _own_words(_decimal_integers(x, codec).view(np.float64), Codec("previous"))
-        else:
-            stored = _grouped(_own_words(x, codec, words), codec)
-        sized.append((sizer.size(stored), codec))
+    stored = [
+        _own_words(_decimal_integers(x, c).view(np.float64), Codec("previous"))
+        if c.kind == "decimal"
+        else _grouped(_own_words(x, c, words), c)
+        for c in candidates
+    ]
+    sized = list(zip(sizer.sizes(stored), candidates, strict=True))
     return min(sized, key=lambda t: t[0])
 
 
@@ -766,29 +770,46 @@ def _formula_or_decimal_words(arrays: dict[str, np.ndarray], name: str, codec: C
 
 
 class _Sizer:
-    """Compressed sizes of a frame's candidate words: stretches spread over the column (a
-    codec may suit only some of it, see blocks), byte planes through zstd, about what
-    Parquet's BYTE_STREAM_SPLIT with zstd writes. An all-zero stretch (an exact formula)
-    is compressed once."""
+    """Compressed sizes of candidate words: stretches spread over the column (a codec may
+    suit only some of it, see blocks), each stored as Parquet stores a column chunk,
+    BYTE_STREAM_SPLIT (byte planes) with zstd. Many candidates go through one Parquet
+    write: one call, instead of one compression per stretch of each candidate."""
 
     def __init__(self, rows: int) -> None:
         if rows <= SIZE_ROWS:
-            self.picks = np.arange(rows)[None, :]
+            self.picks = np.arange(rows)
+            self.stretch = max(rows, 1)
         else:
-            stretch = SIZE_ROWS // SIZE_STRETCHES
-            starts = np.linspace(0, rows - stretch, SIZE_STRETCHES).astype(np.int64)
-            self.picks = starts[:, None] + np.arange(stretch)
-        piece = 8 * self.picks.shape[1]
-        self.zeros = len(_ZSTD.compress(bytes(piece), asbytes=True))
+            self.stretch = SIZE_ROWS // SIZE_STRETCHES
+            starts = np.linspace(0, rows - self.stretch, SIZE_STRETCHES).astype(np.int64)
+            self.picks = (starts[:, None] + np.arange(self.stretch)).ravel()
 
-    def size(self, words: np.ndarray) -> int:
-        picked = words[self.picks]
-        used = picked.any(axis=1)
-        total = self.zeros * int(len(used) - used.sum())
-        if used.any():
-            planes = picked[used].view(np.uint8).reshape(-1, picked.shape[1], 8)
-            data = np.ascontiguousarray(planes.transpose(0, 2, 1)).tobytes()
-            step = 8 * picked.shape[1]
-            for start in range(0, len(data), step):
-                total += len(_ZSTD.compress(data[start : start + step], asbytes=True))
-        return total
+    def sizes(self, candidates: list[np.ndarray]) -> list[int]:
+        """The compressed bytes of each candidate's stretches, page headers left out."""
+        names = [str(i) for i in range(len(candidates))]
+        schema = pa.schema([pa.field(n, pa.int64(), nullable=False) for n in names])
+        arrays = [pa.array(words[self.picks].view(np.int64)) for words in candidates]
+        buffer = io.BytesIO()
+        pq.write_table(
+            pa.Table.from_arrays(arrays, schema=schema),
+            buffer,
+            compression="zstd",
+            compression_level=SIZE_LEVEL,
+            use_dictionary=False,
+            column_encoding=dict.fromkeys(names, "BYTE_STREAM_SPLIT"),
+            write_statistics=False,
+            row_group_size=self.stretch,  # one row group, one page, per stretch
+            max_rows_per_page=self.stretch,
+            data_page_size=16 * self.stretch,
+            store_schema=False,
+        )
+        metadata = pq.ParquetFile(io.BytesIO(buffer.getvalue())).metadata
+        sizes = [0] * len(candidates)
+        for group in range(metadata.num_row_groups):
+            chunks = metadata.row_group(group)
+            for i in range(len(candidates)):
+                chunk = chunks.column(i)
+                # Both totals count the page header; the uncompressed page is 8 bytes a row.
+                header = chunk.total_uncompressed_size - 8 * chunk.num_values
+                sizes[i] += chunk.total_compressed_size - header
+        return sizes
