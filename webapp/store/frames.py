@@ -59,6 +59,7 @@ SIZE_ROWS = 32768  # rows compressed to compare codecs
 SIZE_STRETCHES = 8
 SCALE_ULPS = 32  # how far from the median ratio a scale constant is looked for
 SCALE_ROWS = 256  # rows the candidates are tried on
+PAIR_CELLS = 1 << 19  # values per array when all pairs are tested at once (memory)
 MIN_BLOCK_ROWS = 1024
 FIT_ROWS = 8192  # rows the alternate blend is fitted on
 SIZE_LEVEL = 3  # zstd level of the size comparisons
@@ -190,11 +191,8 @@ def choose_codecs(frame: pd.DataFrame) -> dict[str, Codec]:
             by_content[key] = _best_own(arrays[name], lags, block, decimals[name], sizer)
         own[name] = by_content[key]
     stacked = np.stack([arrays[name] for name in floats])
-    found = [
-        (name, codec)
-        for j, name in enumerate(floats)
-        for codec in _formula_codecs(stacked, floats, j, decimals[name])
-    ]
+    candidates = _formula_codecs(stacked, floats, [decimals[name] for name in floats])
+    found = [(name, codec) for name in floats for codec in candidates[name]]
     sizes = (
         sizer.sizes([_formula_or_decimal_words(arrays, n, c) for n, c in found]) if found else []
     )
@@ -438,41 +436,69 @@ _NAN_BITS = np.array([np.nan]).view(np.uint64)[0]
 
 
 def _formula_codecs(
-    stacked: np.ndarray, names: list[str], j: int, decimals: int | None
-) -> list[Codec]:
+    stacked: np.ndarray, names: list[str], decimals: list[int | None]
+) -> dict[str, list[Codec]]:
     """Sums, differences and scaled sums of two columns of ``stacked`` (one row per name)
-    that match most of a sample of column ``j`` exactly.
+    that match most of a sample of a column exactly; and for a column of short decimals,
+    every other column to store it near.
 
-    Every pair is tested at once on the sample; the search for a pair's scale constant runs
-    only where enough rows lie close enough to ``a + median * b`` that it could succeed."""
-    x = stacked[j]
-    name = names[j]
-    sample = np.flatnonzero(np.isfinite(x))[:SAMPLE_ROWS]
-    if not len(sample):
-        return []
-    found: list[Codec] = []
-    if decimals is not None:  # values with short decimals, stored near another column
-        found += [Codec("decimal", (ref,), float(decimals)) for ref in names if ref != name]
-    rows = stacked[:, sample]
-    xs = rows[j]
-    with np.errstate(invalid="ignore", over="ignore"):
-        differences = _shares(rows[:, None, :] - rows[None, :, :] == xs) >= EXACT_SHARE
-        sums = _shares(rows[:, None, :] + rows[None, :, :] == xs) >= EXACT_SHARE
-    scalable = _scalable(xs, rows)
-    for i, a in enumerate(names):
-        for jb, b in enumerate(names):
-            if jb == i:
-                continue
-            if differences[i, jb]:
-                found.append(Codec("difference", (a, b)))
-            if jb > i and sums[i, jb]:
-                found.append(Codec("sum", (a, b)))
-            k = _scale_of(xs, rows[i], rows[jb]) if scalable[i, jb] else None
-            if k is not None:
-                codec = Codec("scaled", (a, b), k)
-                if np.mean(_predict_formula(codec, rows[i], rows[jb]) == xs) >= EXACT_SHARE:
-                    found.append(codec)
+    Every pair is tested at once for several columns (those sharing a sample); the search
+    for a pair's scale constant runs only where it could succeed (see ``_scalable``)."""
+    found: dict[str, list[Codec]] = {name: [] for name in names}
+    for columns, sample in _samples(stacked):
+        rows = stacked[:, sample]
+        with np.errstate(invalid="ignore", over="ignore"):
+            differences = rows[:, None, :] - rows[None, :, :]  # (a, b, row)
+            sums = rows[:, None, :] + rows[None, :, :]
+        step = max(1, PAIR_CELLS // differences.size)
+        for first in range(0, len(columns), step):
+            chunk = columns[first : first + step]
+            xs = rows[chunk]
+            exact_differences = _shares(differences == xs[:, None, None, :]) >= EXACT_SHARE
+            exact_sums = _shares(sums == xs[:, None, None, :]) >= EXACT_SHARE
+            scalable = _scalable(xs, rows)
+            for at, j in enumerate(chunk):
+                name = names[j]
+                if decimals[j] is not None:  # short decimals, stored near another column
+                    number = float(decimals[j])
+                    found[name] += [Codec("decimal", (r,), number) for r in names if r != name]
+                for i, a in enumerate(names):
+                    for ib, b in enumerate(names):
+                        if ib == i:
+                            continue
+                        if exact_differences[at, i, ib]:
+                            found[name].append(Codec("difference", (a, b)))
+                        if ib > i and exact_sums[at, i, ib]:
+                            found[name].append(Codec("sum", (a, b)))
+                        if scalable[at, i, ib]:
+                            found[name] += _scaled(xs[at], rows[i], rows[ib], (a, b))
     return found
+
+
+def _samples(stacked: np.ndarray) -> list[tuple[list[int], np.ndarray | slice]]:
+    """The columns tested on each sample: a column's first SAMPLE_ROWS finite rows (most
+    columns share the first rows of the frame)."""
+    finite = np.isfinite(stacked)
+    head = min(stacked.shape[1], SAMPLE_ROWS)
+    whole = finite[:, :head].all(axis=1)
+    shared = [j for j in range(len(stacked)) if whole[j]]
+    groups: list[tuple[list[int], np.ndarray | slice]] = []
+    if shared and head:
+        groups.append((shared, slice(0, head)))
+    for j in range(len(stacked)):
+        sample = np.flatnonzero(finite[j])[:SAMPLE_ROWS] if not whole[j] else ()
+        if len(sample):
+            groups.append(([j], sample))
+    return groups
+
+
+def _scaled(x: np.ndarray, a: np.ndarray, b: np.ndarray, refs: tuple[str, str]) -> list[Codec]:
+    """``a + k * b`` as a one-codec list when it matches enough rows of ``x``, else empty."""
+    k = _scale_of(x, a, b)
+    if k is None:
+        return []
+    codec = Codec("scaled", refs, k)
+    return [codec] if np.mean(_predict_formula(codec, a, b) == x) >= EXACT_SHARE else []
 
 
 def _shares(matches: np.ndarray) -> np.ndarray:
@@ -480,46 +506,53 @@ def _shares(matches: np.ndarray) -> np.ndarray:
     return np.count_nonzero(matches, axis=-1) / matches.shape[-1]
 
 
-def _scalable(x: np.ndarray, rows: np.ndarray) -> np.ndarray:
-    """For every pair (a, b) of ``rows``: could ``_scale_of`` find a ``k`` with
-    ``x == a + k * b`` on at least EXACT_SHARE of the rows? False only where it cannot.
+def _scalable(xs: np.ndarray, rows: np.ndarray) -> np.ndarray:
+    """For every column of ``xs`` and every pair (a, b) of ``rows``: could ``_scale_of``
+    find a ``k`` with ``x == a + k * b`` on at least EXACT_SHARE of the rows? False only
+    where it cannot.
 
     Each candidate ``k`` lies within ``reach`` of the median ratio ``m``, and a row where
     ``a + k * b`` rounds to ``x`` has ``|x - a - m * b| <= reach * |b|`` plus a few units of
     rounding, bounded here very generously (1e-9 relative). Rows further off cannot match
     any candidate; a pair with too few rows left is not searched."""
+    n = rows.shape[-1]
     with np.errstate(divide="ignore", invalid="ignore", over="ignore", under="ignore"):
-        rest = x - rows  # x - a, one row per a
-        ratios = rest[:, None, :] / rows[None, :, :]  # (a, b, row)
-        valid = np.isfinite(ratios) & (rows != 0)[None, :, :]
+        rest = xs[:, None, :] - rows[None, :, :]  # (x, a, row): x - a
+        values = rest[:, :, None, :] / rows[None, None, :, :]  # (x, a, b, row): the ratios
+        valid = np.isfinite(values) & (rows != 0)
         counts = np.count_nonzero(valid, axis=-1)
-        median = _medians(np.where(valid, ratios, np.inf), counts)
+        np.copyto(values, np.inf, where=~valid)
+        median = _medians(values, counts)
         bits = median.view(np.int64)
         reach = np.maximum(
             np.abs((bits - SCALE_ULPS).view(np.float64) - median),
             np.abs((bits + SCALE_ULPS).view(np.float64) - median),
         )
         reach = np.maximum(reach, 1e-11 * np.abs(median) + 1e-300)  # 12 significant digits
-        line = median[:, :, None] * rows[None, :, :]
-        miss = np.abs(rest[:, None, :] - line)
-        size = np.abs(x) + np.abs(rows)[:, None, :] + np.abs(line)
-        allowed = reach[:, :, None] * np.abs(rows)[None, :, :] + 1e-9 * size + 1e-300
+        line = median[..., None] * rows  # m * b
+        np.subtract(rest[:, :, None, :], line, out=values)
+        miss = np.abs(values, out=values)
+        allowed = np.abs(line, out=line)
+        allowed += np.abs(xs)[:, None, None, :] + np.abs(rows)[None, :, None, :]
+        allowed *= 1e-9
+        allowed += reach[..., None] * np.abs(rows) + 1e-300
         far = (miss > allowed) & np.isfinite(miss) & np.isfinite(allowed)
-        near = (far.shape[-1] - np.count_nonzero(far, axis=-1)) / far.shape[-1]
+        near = (n - np.count_nonzero(far, axis=-1)) / n
     return (counts > 0) & (median != 0) & (near >= EXACT_SHARE)
 
 
 def _medians(values: np.ndarray, counts: np.ndarray) -> np.ndarray:
-    """``np.median`` of the first ``counts`` values of each row once sorted (the others are
-    +inf), for every row of the last axis at once."""
+    """``np.median`` of the first ``counts`` values of each row (the last axis) once
+    sorted, the others being +inf; ``values`` is reordered in place."""
     n = values.shape[-1]
-    lo_at, hi_at = np.maximum(counts - 1, 0) // 2, counts // 2
     if (counts == n).all():
-        ordered = np.partition(values, sorted({(n - 1) // 2, n // 2}), axis=-1)
+        values.partition(sorted({(n - 1) // 2, n // 2}), axis=-1)
     else:
-        ordered = np.sort(values, axis=-1)
-    lo = np.take_along_axis(ordered, lo_at[..., None], axis=-1)[..., 0]
-    hi = np.take_along_axis(ordered, np.minimum(hi_at, n - 1)[..., None], axis=-1)[..., 0]
+        values.sort(axis=-1)
+    lo_at = np.maximum(counts - 1, 0) // 2
+    hi_at = np.minimum(counts // 2, n - 1)
+    lo = np.take_along_axis(values, lo_at[..., None], axis=-1)[..., 0]
+    hi = np.take_along_axis(values, hi_at[..., None], axis=-1)[..., 0]
     return np.where(counts % 2 == 1, lo, (lo + hi) / 2)
 
 
