@@ -310,7 +310,7 @@ def _blocks_codec(
     may repeat exactly for some days (lag) and change smoothly on others (differences).
     ``known``: words of the candidates already computed."""
     # A block's cost under each codec, estimated cheaply: the significant bits of its words.
-    costs = _block_bits(np.stack([_own_words(x, c, known) for c in candidates]), block)
+    costs = _block_bits([_own_words(x, c, known) for c in candidates], block)
     chosen = [candidates[i] for i in np.argmin(costs, axis=0)]
     runs: list[tuple[Codec, int]] = []
     for codec in chosen:
@@ -642,14 +642,20 @@ def _run_bounds(codec: Codec, n: int) -> Iterator[tuple[Codec, int, int]]:
         start = end
 
 
-def _block_bits(words: np.ndarray, block: int) -> np.ndarray:
+def _block_bits(candidates: list[np.ndarray], block: int) -> np.ndarray:
     """Significant bits per block of ``block`` rows (the words' byte layout aside), for each
-    row of ``words`` (one row of words per codec): codecs x blocks."""
-    bits = np.log2(words.astype(np.float64) + 1.0)
-    n = bits.shape[1]
-    padded = np.zeros((len(bits), -(-n // block) * block))
-    padded[:, :n] = bits
-    return padded.reshape(len(bits), -1, block).sum(axis=2)
+    candidate's words: candidates x blocks. A last, partial block counts as if padded with
+    zero words."""
+    bits = np.stack(candidates, dtype=np.float64)
+    bits += 1.0
+    np.log2(bits, out=bits)
+    whole = bits.shape[1] // block * block
+    costs = bits[:, :whole].reshape(len(bits), -1, block).sum(axis=2)
+    if whole == bits.shape[1]:
+        return costs
+    tail = np.zeros((len(bits), block))
+    tail[:, : bits.shape[1] - whole] = bits[:, whole:]
+    return np.concatenate([costs, tail.sum(axis=1)[:, None]], axis=1)
 
 
 def _shifted(codec: Codec, start: int) -> Codec:
