@@ -57,6 +57,7 @@ EXACT_SHARE = 0.5  # a formula is tried when at least this share of a sample is 
 SAMPLE_ROWS = 2000
 SIZE_ROWS = 32768  # rows compressed to compare codecs
 SIZE_STRETCHES = 8
+SIZE_BATCH = 64  # candidates measured in one Parquet write (about 16 MB of stretches)
 SCALE_ULPS = 32  # how far from the median ratio a scale constant is looked for
 SCALE_ROWS = 256  # rows the candidates are tried on
 PAIR_CELLS = 1 << 19  # values per array when all pairs are tested at once (memory)
@@ -183,22 +184,24 @@ def choose_codecs(frame: pd.DataFrame) -> dict[str, Codec]:
     block = _block_rows(lags)
     decimals = {name: _decimals(arrays[name]) for name in floats}
     sizer = _Sizer(len(frame))
-    own: dict[str, tuple[int, Codec]] = {}
-    by_content: dict[bytes, tuple[int, Codec]] = {}  # a column repeated (one seasonal period)
+    options: dict[bytes, list[tuple[int, Codec]]] = {}  # a column repeated: one seasonal period
     for name in floats:
         key = arrays[name].tobytes()
-        if key not in by_content:
-            by_content[key] = _best_own(arrays[name], lags, block, decimals[name], sizer)
-        own[name] = by_content[key]
+        if key not in options:
+            candidates = _own_candidates(arrays[name], lags, block, decimals[name])
+            options[key] = [(sizer.add(words), codec) for codec, words in candidates]
     stacked = np.stack([arrays[name] for name in floats])
-    candidates = _formula_codecs(stacked, floats, [decimals[name] for name in floats])
-    found = [(name, codec) for name in floats for codec in candidates[name]]
-    sizes = (
-        sizer.sizes([_formula_or_decimal_words(arrays, n, c) for n, c in found]) if found else []
-    )
-    formulas: dict[str, list[tuple[int, Codec]]] = {name: [] for name in floats}
-    for (name, codec), size in zip(found, sizes, strict=True):
-        formulas[name].append((size, codec))
+    found = _formula_codecs(stacked, floats, [decimals[name] for name in floats])
+    formula_options = {
+        name: [(sizer.add(_formula_or_decimal_words(arrays, name, c)), c) for c in found[name]]
+        for name in floats
+    }
+    sizes = sizer.measure()
+    own = {  # the first of equal sizes
+        name: min(((sizes[at], c) for at, c in options[arrays[name].tobytes()]), key=_first)
+        for name in floats
+    }
+    formulas = {name: [(sizes[at], c) for at, c in formula_options[name]] for name in floats}
     by_size = sorted(floats, key=lambda c: own[c][0])
     best: tuple[int, dict[str, Codec]] | None = None
     for order in (by_size, by_size[::-1], floats):
@@ -208,25 +211,24 @@ def choose_codecs(frame: pd.DataFrame) -> dict[str, Codec]:
     return {name: best[1][name] for name in floats} if best else {}
 
 
-def _best_own(
-    x: np.ndarray, lags: list[int], block: int, decimals: int | None, sizer: _Sizer
-) -> tuple[int, Codec]:
-    """The smallest own-row codec of ``x`` and its size (the first of equal sizes)."""
+def _first(option: tuple[int, Codec]) -> int:
+    return option[0]
+
+
+def _own_candidates(
+    x: np.ndarray, lags: list[int], block: int, decimals: int | None
+) -> Iterator[tuple[Codec, np.ndarray]]:
+    """Each own-row codec of ``x`` with the words it would store."""
     rows = _own_row_codecs(x, lags)
     words = {codec: _own_words(x, codec) for codec in rows}
-    candidates = list(rows)
+    for codec in rows:
+        yield codec, _grouped(words[codec], codec)
     if len(x) > block:
-        candidates.append(_blocks_codec(x, rows, block, words))
+        codec = _blocks_codec(x, rows, block, words)
+        yield codec, _grouped(_own_words(x, codec, words), codec)
     if decimals is not None:
-        candidates.append(Codec("decimal", number=float(decimals)))
-    stored = [
-        _own_words(_decimal_integers(x, c).view(np.float64), Codec("previous"))
-        if c.kind == "decimal"
-        else _grouped(_own_words(x, c, words), c)
-        for c in candidates
-    ]
-    sized = list(zip(sizer.sizes(stored), candidates, strict=True))
-    return min(sized, key=lambda t: t[0])
+        codec = Codec("decimal", number=float(decimals))
+        yield codec, _own_words(_decimal_integers(x, codec).view(np.float64), Codec("previous"))
 
 
 def _choose_in_order(
@@ -811,8 +813,9 @@ def _formula_or_decimal_words(arrays: dict[str, np.ndarray], name: str, codec: C
 class _Sizer:
     """Compressed sizes of candidate words: stretches spread over the column (a codec may
     suit only some of it, see blocks), each stored as Parquet stores a column chunk,
-    BYTE_STREAM_SPLIT (byte planes) with zstd. Many candidates go through one Parquet
-    write: one call, instead of one compression per stretch of each candidate."""
+    BYTE_STREAM_SPLIT (byte planes) with zstd. The candidates are gathered (their stretches
+    only), then measured together, SIZE_BATCH to one Parquet write: a few calls instead of
+    one compression per stretch of each candidate."""
 
     def __init__(self, rows: int) -> None:
         if rows <= SIZE_ROWS:
@@ -822,15 +825,26 @@ class _Sizer:
             self.stretch = SIZE_ROWS // SIZE_STRETCHES
             starts = np.linspace(0, rows - self.stretch, SIZE_STRETCHES).astype(np.int64)
             self.picks = (starts[:, None] + np.arange(self.stretch)).ravel()
+        self.pending: list[np.ndarray] = []
 
-    def sizes(self, candidates: list[np.ndarray]) -> list[int]:
-        """The compressed bytes of each candidate's stretches, page headers left out."""
+    def add(self, words: np.ndarray) -> int:
+        """Where the size of ``words`` will be in ``measure``'s answer."""
+        self.pending.append(words[self.picks].view(np.int64))
+        return len(self.pending) - 1
+
+    def measure(self) -> list[int]:
+        """The compressed bytes of each candidate added, page headers left out."""
+        sizes: list[int] = []
+        for first in range(0, len(self.pending), SIZE_BATCH):
+            sizes += self._measure(self.pending[first : first + SIZE_BATCH])
+        return sizes
+
+    def _measure(self, candidates: list[np.ndarray]) -> list[int]:
         names = [str(i) for i in range(len(candidates))]
         schema = pa.schema([pa.field(n, pa.int64(), nullable=False) for n in names])
-        arrays = [pa.array(words[self.picks].view(np.int64)) for words in candidates]
         buffer = io.BytesIO()
         pq.write_table(
-            pa.Table.from_arrays(arrays, schema=schema),
+            pa.Table.from_arrays([pa.array(c) for c in candidates], schema=schema),
             buffer,
             compression="zstd",
             compression_level=SIZE_LEVEL,
