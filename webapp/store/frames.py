@@ -53,11 +53,13 @@ import pyarrow.parquet as pq
 FREQ_KEY = b"whyfired.index_freq"
 CODECS_KEY = b"whyfired.codecs"
 MAX_DECIMALS = 6
+DECIMALS_HEAD = 64  # values tried for every number of decimals before the whole column
 EXACT_SHARE = 0.5  # a formula is tried when at least this share of a sample is exact
 SAMPLE_ROWS = 2000
 SIZE_ROWS = 32768  # rows compressed to compare codecs
 SIZE_STRETCHES = 8
-SIZE_BATCH = 64  # candidates measured in one Parquet write (about 16 MB of stretches)
+SIZE_BATCH = 32  # candidates measured in one Parquet write (8 MB of stretches at most)
+OWN_BATCH = 4  # columns whose differenced words are computed together
 SCALE_ULPS = 32  # how far from the median ratio a scale constant is looked for
 SCALE_ROWS = 256  # rows the candidates are tried on
 PAIR_CELLS = 1 << 19  # values per array when all pairs are tested at once (memory)
@@ -184,12 +186,18 @@ def choose_codecs(frame: pd.DataFrame) -> dict[str, Codec]:
     block = _block_rows(lags)
     decimals = {name: _decimals(arrays[name]) for name in floats}
     sizer = _Sizer(len(frame))
-    options: dict[bytes, list[tuple[int, Codec]]] = {}  # a column repeated: one seasonal period
+    same = {}  # a column repeated (one seasonal period) is sized once
     for name in floats:
-        key = arrays[name].tobytes()
-        if key not in options:
-            candidates = _own_candidates(arrays[name], lags, block, decimals[name])
-            options[key] = [(sizer.add(words), codec) for codec, words in candidates]
+        same.setdefault(arrays[name].tobytes(), name)
+    distinct = list(same.values())
+    options: dict[str, list[tuple[int, Codec]]] = {}
+    for first in range(0, len(distinct), OWN_BATCH):
+        names = distinct[first : first + OWN_BATCH]
+        shared = _row_words(np.stack([arrays[name] for name in names]), lags)
+        for i, name in enumerate(names):
+            known = {codec: words[i] for codec, words in shared.items()}
+            candidates = _own_candidates(arrays[name], block, decimals[name], known)
+            options[name] = [(sizer.add(words), codec) for codec, words in candidates]
     stacked = np.stack([arrays[name] for name in floats])
     found = _formula_codecs(stacked, floats, [decimals[name] for name in floats])
     formula_options = {
@@ -198,7 +206,7 @@ def choose_codecs(frame: pd.DataFrame) -> dict[str, Codec]:
     }
     sizes = sizer.measure()
     own = {  # the first of equal sizes
-        name: min(((sizes[at], c) for at, c in options[arrays[name].tobytes()]), key=_first)
+        name: min(((sizes[at], c) for at, c in options[same[arrays[name].tobytes()]]), key=_first)
         for name in floats
     }
     formulas = {name: [(sizes[at], c) for at, c in formula_options[name]] for name in floats}
@@ -216,11 +224,16 @@ def _first(option: tuple[int, Codec]) -> int:
 
 
 def _own_candidates(
-    x: np.ndarray, lags: list[int], block: int, decimals: int | None
+    x: np.ndarray, block: int, decimals: int | None, known: dict[Codec, np.ndarray]
 ) -> Iterator[tuple[Codec, np.ndarray]]:
-    """Each own-row codec of ``x`` with the words it would store."""
-    rows = _own_row_codecs(x, lags)
-    words = {codec: _own_words(x, codec) for codec in rows}
+    """Each own-row codec of ``x`` with the words it would store; ``known``: the words of
+    the codecs that difference bit patterns (``_row_words``)."""
+    words = dict(known)
+    for parity in (0, 1):
+        codec = _alternate_codec(x, parity)
+        if codec is not None:
+            words[codec] = _own_words(x, codec)
+    rows = list(words)
     for codec in rows:
         yield codec, _grouped(words[codec], codec)
     if len(x) > block:
@@ -229,6 +242,20 @@ def _own_candidates(
     if decimals is not None:
         codec = Codec("decimal", number=float(decimals))
         yield codec, _own_words(_decimal_integers(x, codec).view(np.float64), Codec("previous"))
+
+
+def _row_words(columns: np.ndarray, lags: list[int]) -> dict[Codec, np.ndarray]:
+    """The words of every column (a row of ``columns``) under each codec that differences
+    bit patterns (raw, previous, linear, cubic, lag), all columns at once: one row each."""
+    bits = columns.view(np.int64)
+    words = {Codec("raw"): bits.view(np.uint64)}
+    steps = bits
+    for kind in ("previous", "linear", "cubic"):  # each the difference of the one before
+        steps = _diff(steps, 1)
+        words[Codec(kind)] = _zigzag(steps)
+    for lag in lags:
+        words[Codec("lag", number=float(lag))] = _zigzag(_diff(bits, lag))
+    return words
 
 
 def _choose_in_order(
@@ -296,13 +323,6 @@ def _block_rows(lags: list[int]) -> int:
     if not lags:
         return MIN_BLOCK_ROWS
     return lags[0] * -(-MIN_BLOCK_ROWS // lags[0])
-
-
-def _own_row_codecs(x: np.ndarray, lags: list[int]) -> list[Codec]:
-    """The codecs predicting each row from the rows before it (``blocks`` picks among them)."""
-    rows = [Codec("raw"), Codec("previous"), Codec("linear"), Codec("cubic")]
-    rows += [Codec("lag", number=float(lag)) for lag in lags]
-    return rows + [c for c in (_alternate_codec(x, parity) for parity in (0, 1)) if c is not None]
 
 
 def _blocks_codec(
@@ -424,7 +444,15 @@ def _decimals(x: np.ndarray) -> int | None:
     values = x[finite]
     if (values == 0).any() and np.signbit(values[values == 0]).any():
         return None
-    for d in range(MAX_DECIMALS + 1):
+    # A few values first, for every d at once: a d they refute is refuted (full precision
+    # noise refutes them all). A d skipped could only have overflowed, and then so do all
+    # larger ones.
+    scales = 10.0 ** np.arange(MAX_DECIMALS + 1)[:, None]
+    head = values[:DECIMALS_HEAD]
+    with np.errstate(over="ignore", invalid="ignore"):
+        back = np.rint(head * scales) / scales
+    possible = (back.view(np.uint64) == head.view(np.uint64)).all(axis=1)
+    for d in np.flatnonzero(possible).tolist():
         scale = 10.0**d
         n = np.rint(values * scale)
         if np.abs(n).max(initial=0) >= 2**53:
@@ -724,9 +752,10 @@ def _unzigzag(words: np.ndarray) -> np.ndarray:
 
 
 def _diff(a: np.ndarray, lag: int) -> np.ndarray:
+    """Each row minus the one ``lag`` before it (wrapping), along the last axis; the first
+    ``lag`` rows as they are."""
     out = a.copy()
-    with np.errstate(over="ignore"):
-        out[lag:] = a[lag:] - a[:-lag]
+    np.subtract(a[..., lag:], a[..., :-lag], out=out[..., lag:])
     return out
 
 
@@ -814,7 +843,7 @@ class _Sizer:
     """Compressed sizes of candidate words: stretches spread over the column (a codec may
     suit only some of it, see blocks), each stored as Parquet stores a column chunk,
     BYTE_STREAM_SPLIT (byte planes) with zstd. The candidates are gathered (their stretches
-    only), then measured together, SIZE_BATCH to one Parquet write: a few calls instead of
+    only) and measured together, SIZE_BATCH to one Parquet write: a few calls instead of
     one compression per stretch of each candidate."""
 
     def __init__(self, rows: int) -> None:
@@ -826,18 +855,22 @@ class _Sizer:
             starts = np.linspace(0, rows - self.stretch, SIZE_STRETCHES).astype(np.int64)
             self.picks = (starts[:, None] + np.arange(self.stretch)).ravel()
         self.pending: list[np.ndarray] = []
+        self.sizes: list[int] = []
 
     def add(self, words: np.ndarray) -> int:
         """Where the size of ``words`` will be in ``measure``'s answer."""
         self.pending.append(words[self.picks].view(np.int64))
-        return len(self.pending) - 1
+        if len(self.pending) == SIZE_BATCH:
+            self.sizes += self._measure(self.pending)
+            self.pending = []
+        return len(self.sizes) + len(self.pending) - 1
 
     def measure(self) -> list[int]:
         """The compressed bytes of each candidate added, page headers left out."""
-        sizes: list[int] = []
-        for first in range(0, len(self.pending), SIZE_BATCH):
-            sizes += self._measure(self.pending[first : first + SIZE_BATCH])
-        return sizes
+        if self.pending:
+            self.sizes += self._measure(self.pending)
+            self.pending = []
+        return self.sizes
 
     def _measure(self, candidates: list[np.ndarray]) -> list[int]:
         names = [str(i) for i in range(len(candidates))]
