@@ -549,9 +549,10 @@ def _scalable(xs: np.ndarray, rows: np.ndarray) -> np.ndarray:
     with np.errstate(divide="ignore", invalid="ignore", over="ignore", under="ignore"):
         rest = xs[:, None, :] - rows[None, :, :]  # (x, a, row): x - a
         values = rest[:, :, None, :] / rows[None, None, :, :]  # (x, a, b, row): the ratios
-        valid = np.isfinite(values) & (rows != 0)
+        valid = np.isfinite(values)  # b == 0 gives no finite ratio either
         counts = np.count_nonzero(valid, axis=-1)
-        np.copyto(values, np.inf, where=~valid)
+        if not (counts == n).all():
+            np.copyto(values, np.inf, where=~valid)
         median = _medians(values, counts)
         bits = median.view(np.int64)
         reach = np.maximum(
@@ -559,14 +560,15 @@ def _scalable(xs: np.ndarray, rows: np.ndarray) -> np.ndarray:
             np.abs((bits + SCALE_ULPS).view(np.float64) - median),
         )
         reach = np.maximum(reach, 1e-11 * np.abs(median) + 1e-300)  # 12 significant digits
-        line = median[..., None] * rows  # m * b
-        np.subtract(rest[:, :, None, :], line, out=values)
+        # allowed = 1e-9 * (|x| + |a| + |m| |b|) + reach |b| + 1e-300, in two passes
+        fixed = 1e-9 * (np.abs(xs)[:, None, :] + np.abs(rows)[None, :, :]) + 1e-300
+        per_b = 1e-9 * np.abs(median) + reach
+        np.multiply(median[..., None], rows, out=values)  # m * b
+        np.subtract(rest[:, :, None, :], values, out=values)
         miss = np.abs(values, out=values)
-        allowed = np.abs(line, out=line)
-        allowed += np.abs(xs)[:, None, None, :] + np.abs(rows)[None, :, None, :]
-        allowed *= 1e-9
-        allowed += reach[..., None] * np.abs(rows) + 1e-300
-        far = (miss > allowed) & np.isfinite(miss) & np.isfinite(allowed)
+        allowed = per_b[..., None] * np.abs(rows)
+        allowed += fixed[:, :, None, :]
+        far = (miss > allowed) & (miss < np.inf)  # a NaN or infinite bound keeps the row
         near = (n - np.count_nonzero(far, axis=-1)) / n
     return (counts > 0) & (median != 0) & (near >= EXACT_SHARE)
 
