@@ -164,8 +164,20 @@ def decode_frame(data: bytes) -> pd.DataFrame:
     metadata = table.schema.metadata or {}
     frame = table.to_pandas()
     codecs = json.loads(metadata[CODECS_KEY]) if CODECS_KEY in metadata else {}
+    repeats: dict[str, list[tuple[np.ndarray, np.ndarray]]] = {}  # own-row codec: words, values
     for name, spec in codecs.items():  # stored in an order where references come first
-        frame[name] = _decode_column(frame, name, Codec.from_json(spec))
+        codec = Codec.from_json(spec)
+        if codec.refs or codec.kind == "decimal":
+            frame[name] = _decode_column(frame, name, codec)
+            continue
+        # A column stored twice (one seasonal period) is decoded once.
+        words = frame[name].to_numpy()
+        seen = repeats.setdefault(json.dumps(spec, sort_keys=True), [])
+        values = next((v.copy() for w, v in seen if np.array_equal(w, words)), None)
+        if values is None:
+            values = _decode_column(frame, name, codec)
+            seen.append((words, values))
+        frame[name] = values
     freq = metadata.get(FREQ_KEY)
     if freq and isinstance(frame.index, pd.DatetimeIndex):
         frame.index.freq = freq.decode()
@@ -386,12 +398,14 @@ def _alternate_words(x: np.ndarray, codec: Codec) -> np.ndarray:
     bits = x.view(np.int64)
     steps = _diff(_diff(bits, 2), 2)  # the other rows: along their own parity
     words = _zigzag(steps)
-    rows = np.arange(int(codec.number), len(x), 2)
-    rows = rows[rows >= 3]
-    guess = _alternate_guess(codec, x[rows - 1], x[rows - 2], x[rows - 3])
-    words[rows] = x[rows].view(np.uint64) ^ guess.view(np.uint64)
-    first = np.arange(int(codec.number), min(3, len(x)), 2)
-    words[first] = x[first].view(np.uint64)
+    parity = int(codec.number)
+    first = 4 - parity  # the first blended row with three rows before it
+    count = len(range(first, len(x), 2))
+    guess = _alternate_guess(
+        codec, x[first - 1 :: 2][:count], x[first - 2 :: 2][:count], x[first - 3 :: 2][:count]
+    )
+    words[first::2] = x[first::2].view(np.uint64) ^ guess.view(np.uint64)
+    words[parity : min(3, len(x)) : 2] = x[parity : min(3, len(x)) : 2].view(np.uint64)
     return words
 
 
@@ -710,12 +724,13 @@ def _grouped(words: np.ndarray, codec: Codec, *, undo: bool = False) -> np.ndarr
     out = words.copy()
     for part, start, end in parts:
         blended = (int(part.number) - start) % 2
-        segment, order = words[start:end], np.arange(end - start)
-        order = np.concatenate([order[1 - blended :: 2], order[blended::2]])
+        other = start + 1 - blended  # the first row of the parity stored first
         if undo:
-            out[start + order] = segment
+            count = len(range(other, end, 2))
+            out[other:end:2] = words[start : start + count]
+            out[start + blended : end : 2] = words[start + count : end]
         else:
-            out[start:end] = segment[order]
+            out[start:end] = np.concatenate([words[other:end:2], words[start + blended : end : 2]])
     return out
 
 
