@@ -431,18 +431,18 @@ def _undo_alternate(words: np.ndarray, codec: Codec) -> np.ndarray:
     space = bytearray(8)  # one double seen as its word, to XOR its bits
     as_float, as_word = memoryview(space).cast("d"), memoryview(space).cast("Q")
     infinity = math.inf
-    prev = float(x[first - 2])
-    values = []
+    value = float(x[first - 2])
+    values: list[float] = []
+    append = values.append
     for one, three, word in zip(before, after, stored, strict=True):
-        guess = one + beta * prev + three
-        if not -infinity < guess < infinity:
-            guess = 0.0
-        if word:
-            as_float[0] = guess
+        value = one + beta * value + three  # the guess, from the row two before
+        if not -infinity < value < infinity:
+            value = 0.0
+        if word:  # the row is the guess with these bits flipped
+            as_float[0] = value
             as_word[0] ^= word
-            guess = as_float[0]
-        values.append(guess)
-        prev = guess
+            value = as_float[0]
+        append(value)
     # Floats from a list keep their bits (NaN payloads included) on the way back.
     x[first::2] = np.array(values, dtype=np.float64)
     return x
