@@ -365,11 +365,12 @@ def _alternate_codec(x: np.ndarray, parity: int) -> Codec | None:
     1/4 and 3/4, ``3 y[i-1] - 3 y[i-2] + y[i-3]``. The weights are fitted as corrections to
     that blend (well conditioned), on the rows they fit best; the other rows are stored as
     second differences along their own parity."""
-    rows = np.arange(4 + (parity % 2), len(x), 2)
-    rows = rows[:: max(1, len(rows) // FIT_ROWS)]
-    if len(rows) < 16:
+    first = 4 + (parity % 2)
+    step = 2 * max(1, len(range(first, len(x), 2)) // FIT_ROWS)
+    count = len(range(first, len(x), step))  # every step-th row from the first
+    if count < 16:
         return None
-    y0, y1, y2, y3 = x[rows], x[rows - 1], x[rows - 2], x[rows - 3]
+    y0, y1, y2, y3 = (x[first - back :: step][:count] for back in range(4))
     with np.errstate(invalid="ignore", over="ignore"):
         target = y0 - (3 * y1 - 3 * y2 + y3)
         basis = np.stack([y1 - y2, y2 - y3], axis=1)
@@ -381,9 +382,12 @@ def _alternate_codec(x: np.ndarray, parity: int) -> Codec | None:
         (a, b), *_ = np.linalg.lstsq(basis[used], target[used], rcond=None)
         with np.errstate(invalid="ignore", over="ignore"):
             misses = np.abs(basis @ np.array([a, b]) - target)
-        used = ok & (misses <= 5 * np.median(misses[ok]))
-        if used.sum() < 16:
+        kept = ok & (misses <= 5 * np.median(misses[ok]))
+        if kept.sum() < 16:
             return None
+        if np.array_equal(kept, used):  # the same rows again: the same fit
+            break
+        used = kept
     coefs = (3.0 + float(a), -3.0 - float(a) + float(b), 1.0 - float(b))
     return Codec("alternate", number=float(parity % 2), coefs=coefs)
 
@@ -861,24 +865,24 @@ def _formula_or_decimal_words(arrays: dict[str, np.ndarray], name: str, codec: C
 class _Sizer:
     """Compressed sizes of candidate words: stretches spread over the column (a codec may
     suit only some of it, see blocks), each stored as Parquet stores a column chunk,
-    BYTE_STREAM_SPLIT (byte planes) with zstd. The candidates are gathered (their stretches
-    only) and measured together, SIZE_BATCH to one Parquet write: a few calls instead of
-    one compression per stretch of each candidate."""
+    BYTE_STREAM_SPLIT (byte planes) with zstd. The candidates are gathered (Arrow slices of
+    their words, no copies) and measured together, SIZE_BATCH to one Parquet write: a few
+    calls instead of one compression per stretch of each candidate."""
 
     def __init__(self, rows: int) -> None:
         if rows <= SIZE_ROWS:
-            self.picks = np.arange(rows)
-            self.stretch = max(rows, 1)
+            self.starts, self.stretch = [0], max(rows, 1)
         else:
             self.stretch = SIZE_ROWS // SIZE_STRETCHES
             starts = np.linspace(0, rows - self.stretch, SIZE_STRETCHES).astype(np.int64)
-            self.picks = (starts[:, None] + np.arange(self.stretch)).ravel()
-        self.pending: list[np.ndarray] = []
+            self.starts = starts.tolist()
+        self.pending: list[pa.ChunkedArray] = []
         self.sizes: list[int] = []
 
     def add(self, words: np.ndarray) -> int:
         """Where the size of ``words`` will be in ``measure``'s answer."""
-        self.pending.append(words[self.picks].view(np.int64))
+        whole = pa.array(np.ascontiguousarray(words).view(np.int64))  # no copy
+        self.pending.append(pa.chunked_array([whole.slice(s, self.stretch) for s in self.starts]))
         if len(self.pending) == SIZE_BATCH:
             self.sizes += self._measure(self.pending)
             self.pending = []
@@ -891,12 +895,12 @@ class _Sizer:
             self.pending = []
         return self.sizes
 
-    def _measure(self, candidates: list[np.ndarray]) -> list[int]:
+    def _measure(self, candidates: list[pa.ChunkedArray]) -> list[int]:
         names = [str(i) for i in range(len(candidates))]
         schema = pa.schema([pa.field(n, pa.int64(), nullable=False) for n in names])
         buffer = pa.BufferOutputStream()
         pq.write_table(
-            pa.Table.from_arrays([pa.array(c) for c in candidates], schema=schema),
+            pa.Table.from_arrays(candidates, schema=schema),
             buffer,
             compression="zstd",
             compression_level=SIZE_LEVEL,
