@@ -743,26 +743,72 @@ def _grouped(words: np.ndarray, codec: Codec, *, undo: bool = False) -> np.ndarr
 def _blocks_words(
     x: np.ndarray, codec: Codec, known: dict[Codec, np.ndarray] | None = None
 ) -> np.ndarray:
-    words = np.empty(len(x), dtype=np.uint64)
     known = dict(known or {})  # each part's words computed once, however many runs it has
-    for part, start, end in _run_bounds(codec, len(x)):
+    bounds = list(_run_bounds(codec, len(x)))
+    for part, _, _ in bounds:
         if part not in known:
             known[part] = _own_words(x, part)
-        words[start:end] = known[part][start:end]
-    return words
+    parts = list(dict.fromkeys(part for part, _, _ in bounds))
+    if not parts or bounds[-1][2] < len(x):  # runs that do not cover the column
+        words = np.zeros(len(x), dtype=np.uint64)
+        for part, start, end in bounds:
+            words[start:end] = known[part][start:end]
+        return words
+    # Every row from its run's part, in one pass.
+    which = np.repeat([parts.index(p) for p, _, _ in bounds], [e - s for _, s, e in bounds])
+    return np.choose(which, [known[part] for part in parts])
 
 
 def _undo_blocks(words: np.ndarray, codec: Codec) -> np.ndarray:
-    """Decodes run after run: each run's codec restarts from the decoded rows before it
-    (encoding the rows it reads back and the run's stored words, then undoing both)."""
-    x = np.empty(len(words), dtype=np.float64)
+    """Decodes run after run, each run's codec continuing from the decoded rows before it:
+    differences and lags by running sums from those rows (integers, wrapping); an alternate
+    run (or differences from the first row) by encoding the rows it reads back and the
+    run's stored words, then undoing both."""
+    bits = np.empty(len(words), dtype=np.int64)
+    x = bits.view(np.float64)
+    steps = _unzigzag(words)
     for part, start, end in _run_bounds(codec, len(words)):
-        before = min(start, part.reach)
-        part = _shifted(part, start - before)  # parity counted from the local first row
-        local = _own_words(np.concatenate([x[start - before : start], np.zeros(end - start)]), part)
-        local[before:] = words[start:end]
-        x[start:end] = _undo_own(local, part)[before:]
+        if part.kind == "raw":
+            bits[start:end] = words[start:end].view(np.int64)
+        elif part.kind == "lag":
+            _undo_lag(bits, steps, int(part.number), start, end)
+        elif part.kind in ("previous", "linear", "cubic") and start >= part.reach:
+            _undo_differences(bits, steps, part.reach, start, end)
+        else:
+            before = min(start, part.reach)
+            part = _shifted(part, start - before)  # parity counted from the local first row
+            local = np.concatenate([x[start - before : start], np.zeros(end - start)])
+            local = _own_words(local, part)
+            local[before:] = words[start:end]
+            x[start:end] = _undo_own(local, part)[before:]
     return x
+
+
+def _undo_lag(bits: np.ndarray, steps: np.ndarray, lag: int, start: int, end: int) -> None:
+    """Rows ``start:end`` of a ``lag`` codec, in place: the first ``lag`` rows of the column
+    are stored as they are, every later one as its step from the row ``lag`` before."""
+    if start < min(end, lag):
+        bits[start : min(end, lag)] = steps[start : min(end, lag)]
+    for first in range(max(start, lag), end, lag):  # a lag at a time: rows before are done
+        last = min(end, first + lag)
+        np.add(bits[first - lag : last - lag], steps[first:last], out=bits[first:last])
+
+
+def _undo_differences(
+    bits: np.ndarray, steps: np.ndarray, reach: int, start: int, end: int
+) -> None:
+    """Rows ``start:end`` (``start >= reach``) of a codec storing ``reach``-th differences,
+    in place: each order's running sum from its value at the row before ``start``."""
+    level = bits[start - reach : start]
+    heads = []  # the 0th, 1st, ... difference at row start - 1
+    for _ in range(reach):
+        heads.append(level[-1])
+        level = level[1:] - level[:-1]
+    level = steps[start:end]
+    for head in reversed(heads):
+        level = np.cumsum(level)
+        level += head
+    bits[start:end] = level
 
 
 def _zigzag(steps: np.ndarray) -> np.ndarray:
