@@ -243,10 +243,13 @@ def _own_candidates(
     """Each own-row codec of ``x`` with the words it would store; ``known``: the words of
     the codecs that difference bit patterns (``_row_words``)."""
     words = dict(known)
+    along = None
     for parity in (0, 1):
         codec = _alternate_codec(x, parity)
         if codec is not None:
-            words[codec] = _own_words(x, codec)
+            if along is None:  # the other rows' words are the same for either parity
+                along = _zigzag(_diff(_diff(x.view(np.int64), 2), 2))
+            words[codec] = _alternate_words(x, codec, along)
     rows = list(words)
     for codec in rows:
         yield codec, _grouped(words[codec], codec)
@@ -375,19 +378,24 @@ def _alternate_codec(x: np.ndarray, parity: int) -> Codec | None:
         target = y0 - (3 * y1 - 3 * y2 + y3)
         basis = np.stack([y1 - y2, y2 - y3], axis=1)
     ok = np.isfinite(target) & np.isfinite(basis).all(axis=1)
-    if ok.sum() < 16:
+    every = int(ok.sum()) == count  # then no row needs leaving out (and no copies)
+    if not every and ok.sum() < 16:
         return None
-    used = ok
+    used, all_used = ok, every
     for _ in range(3):  # refit without the rows the blend does not describe
-        (a, b), *_ = np.linalg.lstsq(basis[used], target[used], rcond=None)
+        fit = (basis, target) if all_used else (basis[used], target[used])
+        (a, b), *_ = np.linalg.lstsq(*fit, rcond=None)
         with np.errstate(invalid="ignore", over="ignore"):
             misses = np.abs(basis @ np.array([a, b]) - target)
-        kept = ok & (misses <= 5 * np.median(misses[ok]))
-        if kept.sum() < 16:
+        kept = misses <= 5 * np.median(misses if every else misses[ok])
+        if not every:
+            kept &= ok
+        kept_count = int(kept.sum())
+        if kept_count < 16:
             return None
         if np.array_equal(kept, used):  # the same rows again: the same fit
             break
-        used = kept
+        used, all_used = kept, kept_count == count
     coefs = (3.0 + float(a), -3.0 - float(a) + float(b), 1.0 - float(b))
     return Codec("alternate", number=float(parity % 2), coefs=coefs)
 
@@ -400,10 +408,12 @@ def _alternate_guess(codec: Codec, y1: np.ndarray, y2: np.ndarray, y3: np.ndarra
     return np.where(np.isfinite(guess), guess, 0.0)
 
 
-def _alternate_words(x: np.ndarray, codec: Codec) -> np.ndarray:
-    bits = x.view(np.int64)
-    steps = _diff(_diff(bits, 2), 2)  # the other rows: along their own parity
-    words = _zigzag(steps)
+def _alternate_words(x: np.ndarray, codec: Codec, along: np.ndarray | None = None) -> np.ndarray:
+    """``along``: the zigzagged second differences of ``x`` along each parity (the words of
+    the rows that are not blended), when already computed."""
+    if along is None:
+        along = _zigzag(_diff(_diff(x.view(np.int64), 2), 2))
+    words = along.copy()
     parity = int(codec.number)
     first = 4 - parity  # the first blended row with three rows before it
     count = len(range(first, len(x), 2))
