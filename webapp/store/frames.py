@@ -374,28 +374,35 @@ def _alternate_codec(x: np.ndarray, parity: int) -> Codec | None:
     if count < 16:
         return None
     y0, y1, y2, y3 = (x[first - back :: step][:count] for back in range(4))
+    basis = np.empty((count, 2))
     with np.errstate(invalid="ignore", over="ignore"):
         target = y0 - (3 * y1 - 3 * y2 + y3)
-        basis = np.stack([y1 - y2, y2 - y3], axis=1)
-    ok = np.isfinite(target) & np.isfinite(basis).all(axis=1)
-    every = int(ok.sum()) == count  # then no row needs leaving out (and no copies)
-    if not every and ok.sum() < 16:
+        np.subtract(y1, y2, out=basis[:, 0])
+        np.subtract(y2, y3, out=basis[:, 1])
+        # Finite sums: every value is finite, no row needs leaving out (and no copies).
+        every = bool(np.isfinite(target.sum()) and np.isfinite(basis.sum()))
+    ok = None if every else np.isfinite(target) & np.isfinite(basis).all(axis=1)
+    if ok is not None and ok.sum() < 16:
         return None
-    used, all_used = ok, every
+    used = ok  # None: every row
     for _ in range(3):  # refit without the rows the blend does not describe
-        fit = (basis, target) if all_used else (basis[used], target[used])
+        fit = (basis, target) if used is None else (basis[used], target[used])
         (a, b), *_ = np.linalg.lstsq(*fit, rcond=None)
         with np.errstate(invalid="ignore", over="ignore"):
             misses = np.abs(basis @ np.array([a, b]) - target)
-        kept = misses <= 5 * np.median(misses if every else misses[ok])
-        if not every:
+        kept = misses <= 5 * np.median(misses if ok is None else misses[ok])
+        if ok is not None:
             kept &= ok
         kept_count = int(kept.sum())
         if kept_count < 16:
             return None
-        if np.array_equal(kept, used):  # the same rows again: the same fit
+        kept = None if kept_count == count else kept
+        if used is None or kept is None:
+            if used is kept:  # every row again: the same fit
+                break
+        elif np.array_equal(kept, used):  # the same rows again: the same fit
             break
-        used, all_used = kept, kept_count == count
+        used = kept
     coefs = (3.0 + float(a), -3.0 - float(a) + float(b), 1.0 - float(b))
     return Codec("alternate", number=float(parity % 2), coefs=coefs)
 
@@ -737,6 +744,9 @@ def _grouped(words: np.ndarray, codec: Codec, *, undo: bool = False) -> np.ndarr
         parts = [p for p in _run_bounds(codec, len(words)) if p[0].kind == "alternate"]
     else:
         return words
+    if codec.kind == "alternate" and not undo:
+        blended = int(codec.number) % 2
+        return np.concatenate([words[1 - blended :: 2], words[blended::2]])
     out = words.copy()
     for part, start, end in parts:
         blended = (int(part.number) - start) % 2
