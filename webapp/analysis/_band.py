@@ -260,13 +260,20 @@ class HourlyRecurrence:
         enough = days_seen >= MIN_RECUR_DAYS
         day_share = min(0.5, typical * beyond)
         rank = np.minimum(np.ceil((days_seen + 1) * (1 - day_share)).astype(int), days_seen)
-        out = []
-        for reach, sign in ((low, -1.0), (high, 1.0)):
-            ordered = np.sort(reach, axis=0)  # NaN last
-            median = ordered[np.maximum((days_seen - 1) // 2, 0), np.arange(24)]
-            far = ordered[np.maximum(rank - 1, 0), np.arange(24)]
-            out += [sign * np.where(enough, median, np.nan), sign * np.where(enough, far, np.nan)]
-        return out[0], out[2], out[1], out[3]
+        hours = np.arange(24)
+
+        def at_rank(reach: np.ndarray, ranks: np.ndarray) -> np.ndarray:
+            """The `ranks`-th smallest day of each hour (1-based; NaN sorts last)."""
+            value = np.sort(reach, axis=0)[np.maximum(ranks - 1, 0), hours]
+            return np.where(enough, value, np.nan)
+
+        middle = (days_seen + 1) // 2
+        return (
+            -at_rank(low, middle),
+            at_rank(high, middle),
+            -at_rank(low, rank),
+            at_rank(high, rank),
+        )
 
     def _rth_extreme(self, z: np.ndarray, rank: np.ndarray, r: int) -> np.ndarray:
         """(days, 24): the r-th largest of `z` (ranked `rank` within its bucket, 0 = largest)
