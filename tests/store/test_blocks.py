@@ -33,6 +33,27 @@ def test_pack_and_unpack_are_exact():
     assert got_values.tobytes() == values.tobytes()
 
 
+def test_blocks_written_by_pyarrows_zstd_codec_still_read():
+    """Stores written before blocks moved to the zstandard package hold frames from
+    pyarrow's codec; both write standard zstd frames, so several such blocks decode as one."""
+    import pyarrow as pa
+
+    codec = pa.Codec("zstd", compression_level=1)
+    days = [np.array([DAY, DAY + MIN, DAY + 3 * MIN]), np.array([2 * DAY + 7, 2 * DAY + 9])]
+    values = [np.array([1.25, -2.0, np.nan]), np.array([3.0, 1e300])]
+    found = [
+        (
+            len(ts),
+            codec.compress(np.diff(ts, prepend=0).astype("<i8").tobytes(), asbytes=True),
+            codec.compress(v.astype("<f8").tobytes(), asbytes=True),
+        )
+        for ts, v in zip(days, values, strict=True)
+    ]
+    got_ts, got_values = blocks.unpack_all(found)
+    np.testing.assert_array_equal(got_ts, np.concatenate(days))
+    assert got_values.tobytes() == np.concatenate(values).tobytes()
+
+
 def test_blocks_follow_overlapping_imports_and_undo(engine, make_parsed):
     def parsed(key, start, n, value, name):
         ts = [start + i * MIN for i in range(n)]

@@ -6,7 +6,6 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 from typing import Any
 
-import numpy as np
 import pandas as pd
 from sqlalchemy import func, select
 from sqlalchemy.orm import Session
@@ -129,8 +128,8 @@ def read_series(session: Session, series_id: int, start: Any = None, end: Any = 
         to_ms(start) if start is not None else None,
         to_ms(end) if end is not None else None,
     )
-    index = pd.DatetimeIndex(ts.astype("datetime64[ms]").astype("datetime64[ns]"), name="ts")
-    return pd.Series(values, index=index.tz_localize("UTC"), name=row.key, dtype=np.float64)
+    index = pd.DatetimeIndex((ts * 1_000_000).view("datetime64[ns]"), name="ts")
+    return pd.Series(values, index=index.tz_localize("UTC"), name=row.key, copy=False)
 
 
 def sparkline(session: Session, series_id: int) -> list[float | None]:
