@@ -118,3 +118,45 @@ def test_nanmedian_matches_numpy():
     with np.errstate(all="ignore"), pytest.warns(RuntimeWarning):
         expected = np.nanmedian(a, axis=1)
     np.testing.assert_allclose(nanmedian_last_axis(a), expected, equal_nan=True)
+
+
+@pytest.mark.parametrize("freq", ["1min", "5min"])
+def test_a_daily_step_stays_sharp_in_the_forecast_and_its_band(freq):
+    """A job that holds a metric at 100 from 08:00 to 18:00 and at 10 otherwise (noise sd 1):
+    the forecast steps at 08:00 and 18:00 instead of ramping over several minutes, and the
+    band there is no wider than at noon. Smoothing across the step drew 66 at 08:00 on
+    1-minute data, and left the first samples of every day's step outside."""
+    from webapp.analysis import explain
+
+    per_day = round(DAY / pd.Timedelta(freq))
+    index = pd.date_range("2026-03-02", periods=22 * per_day, freq=freq, tz="UTC")
+    hour = index.hour + index.minute / 60
+    level = np.where((hour >= 8) & (hour < 18), 100.0, 10.0)
+    noise = np.random.default_rng(3).normal(0, 1, len(index))
+    series = pd.Series(level + noise, index=index)
+    start = index[-per_day]
+    frame = explain(series, window=(start, index[-1]), history=21 * DAY).frame
+    frame = frame[frame["in_window"]]
+    at = frame.index.strftime("%H:%M")
+    width = frame["upper"] - frame["lower"]
+    noon = width[at == "12:00"].iloc[0]
+    for before, after in (("07:55", "08:00"), ("17:55", "18:00")):
+        for clock in (before, after):
+            row = frame[at == clock].iloc[0]
+            assert abs(row["expected"] - level[index.get_loc(row.name)]) < 2.0, clock
+            assert width[at == clock].iloc[0] < 1.5 * noon, clock
+    outside = (frame["value"] < frame["lower"]) | (frame["value"] > frame["upper"])
+    near_a_step = (np.abs(hour[-per_day:] - 8) <= 1 / 6) | (np.abs(hour[-per_day:] - 18) <= 1 / 6)
+    assert not outside[near_a_step].any()
+
+
+def test_sharp_edges_are_steps_that_hold_not_pulses_or_slopes():
+    from webapp.analysis._decompose import sharp_edges
+
+    bins = np.arange(288)
+    step = np.where((bins >= 96) & (bins < 216), 100.0, 10.0)
+    pulse = np.where(bins == 42, 50.0, 10.0)  # a nightly job of one bin: left to the band
+    smooth = 50 + 40 * np.sin(2 * np.pi * bins / 288)
+    edges = sharp_edges(np.stack([step, pulse, smooth]))
+    assert list(np.flatnonzero(edges[0])) == [95, 215]
+    assert not edges[1].any() and not edges[2].any()

@@ -21,6 +21,15 @@ periods, Bandara, Hyndman & Bergmeir 2021) and swaps each smoother for a robust,
   samples and keeps the work linear. Bins finer than a quarter of an hour get a light
   [1, 2, 1] / 4 smoothing across phase: sampling noise otherwise passes straight into the
   band. Each cycle's pattern is centred (mean 0).
+* Sharp steps stay sharp: where the pattern jumps from one phase bin to the next by more
+  than `SHARP_Z` robust sds of such jumps and by at least `SHARP_SHARE` of the cycle's range,
+  and stays on each side of the jump for `SHARP_HOLD` bins (a job that starts at 08:00, a
+  rate that switches at midnight; `sharp_edges`; a pulse of a bin or two, whose height
+  varies from night to night, is left to the band's daily habits in `_band`), the
+  smoothing does not reach across the jump and a sample next to it reads its own bin
+  instead of a line between bin centres. Otherwise the step is drawn as a ramp a few bins
+  wide and the samples on it are "outside" every day (thresholds our choice: a smooth
+  daily curve moves by about 1% of its range from one 2-minute bin to the next).
 * Trend: the deseasonalised series is reduced to medians over short bins (a 168th of the
   longest period, and at most 5,000 bins over the history), then smoothed with robust
   lowess (statsmodels; bisquare weights, 3 robustness iterations) over STL's default trend
@@ -58,6 +67,9 @@ SEASONAL_SPAN = 7
 SPAN_TIME = pd.Timedelta(weeks=4)
 MAX_SPAN = 28
 NESTED_MAX_BINS = 336
+SHARP_Z = 8.0
+SHARP_SHARE = 0.25
+SHARP_HOLD = 3
 TREND_BINS_PER_PERIOD = 168
 TREND_MAX_POINTS = 5000
 PASSES = 2
@@ -159,9 +171,12 @@ class Placement:
             return (sums / counts).reshape(self.shape)
 
     def evaluate(self, table: np.ndarray) -> np.ndarray:
-        """Seasonal value at each timestamp: linear between bin centres, circular."""
+        """Seasonal value at each timestamp: linear between bin centres, circular; its own
+        bin's value where the two bins it lies between are across a sharp step."""
         flat = table.ravel()
-        return (1 - self.frac) * flat[self.left] + self.frac * flat[self.right]
+        linear = (1 - self.frac) * flat[self.left] + self.frac * flat[self.right]
+        across = sharp_edges(table).ravel()[self.left]  # the edge from `left` to `right`
+        return np.where(across, flat[self.cell], linear)
 
 
 def span_in_cycles(period: pd.Timedelta) -> int:
@@ -198,8 +213,32 @@ def seasonal_table(cells: np.ndarray, layout: PhaseLayout, rows: np.ndarray) -> 
         table[start : start + chunk] = nanmedian_last_axis(block)
     table = fill_across_phase(table)
     if layout.bin_ns < SMOOTH_BELOW.value and layout.n_bins >= 3:
-        table = 0.25 * np.roll(table, 1, axis=1) + 0.5 * table + 0.25 * np.roll(table, -1, axis=1)
+        edges = sharp_edges(table)  # edges[:, b]: a step from bin b to bin b + 1
+        before = np.where(np.roll(edges, 1, axis=1), table, np.roll(table, 1, axis=1))
+        after = np.where(edges, table, np.roll(table, -1, axis=1))
+        table = 0.25 * before + 0.5 * table + 0.25 * after
     return table - np.nanmean(table, axis=1, keepdims=True)
+
+
+def sharp_edges(table: np.ndarray) -> np.ndarray:
+    """(cycles, bins) True where a cycle's pattern steps from bin b to bin b + 1 (circular):
+    a jump beyond `SHARP_Z` robust sds of that cycle's jumps and beyond `SHARP_SHARE` of its
+    range, with the pattern staying on each side of it for `SHARP_HOLD` bins (a level that
+    changes, not a pulse: see the module docstring)."""
+    after = np.roll(table, -1, axis=1)
+    jump = np.abs(after - table)
+    typical = np.median(jump, axis=1, keepdims=True)
+    spread = 1.4826 * np.median(np.abs(jump - typical), axis=1, keepdims=True)
+    reach = np.ptp(table, axis=1, keepdims=True)
+    with np.errstate(invalid="ignore"):
+        edges = (jump > typical + SHARP_Z * spread) & (jump > SHARP_SHARE * reach)
+    if not edges.any():
+        return edges
+    middle, side = 0.5 * (table + after), np.sign(after - table)
+    for k in range(SHARP_HOLD):
+        edges &= side * (np.roll(table, -1 - k, axis=1) - middle) > 0  # stays up (or down)
+        edges &= side * (np.roll(table, k, axis=1) - middle) < 0  # and was down (or up)
+    return edges
 
 
 def fill_across_phase(table: np.ndarray) -> np.ndarray:

@@ -31,8 +31,9 @@ from ._grid import Agg, as_utc_series, check_step, find_gaps, infer_step, regula
 from ._sentences import sentences
 
 # 2: sides calibrated on a backtest; 2.1: shifts, two levels; 2.1.2: daily habits;
-# 2.2: reach bound, predictive tail, a habit as far as it went; 2.2.1: a change of spread
-ENGINE_VERSION = "2.2.1"
+# 2.2: reach bound, predictive tail, a habit as far as it went; 2.2.1: a change of spread;
+# 2.3: sharp daily steps
+ENGINE_VERSION = "2.3"
 DEFAULT_HISTORY = pd.Timedelta(weeks=6)
 BAND_COLUMNS = ("expected", "lower", "upper", "trend", "seasonal", "band_scale")
 
