@@ -138,11 +138,13 @@ def build_store(folder: Path) -> str:
 def start_server(url: str) -> tuple[subprocess.Popen, str]:
     port = free_port()
     env = {**os.environ, "PYTHONPATH": str(ROOT)}
+    # A file, not a pipe: a full pipe would stall the server. It lives as long as the server.
+    log = tempfile.TemporaryFile()  # noqa: SIM115
     server = subprocess.Popen(
         [*WHYFIRED, "serve", "--db", url, "--port", str(port)],
         env=env,
         stdout=subprocess.DEVNULL,
-        stderr=subprocess.PIPE,
+        stderr=log,
     )
     base = f"http://127.0.0.1:{port}"
     for _ in range(600):
@@ -152,7 +154,9 @@ def start_server(url: str) -> tuple[subprocess.Popen, str]:
         except OSError:
             time.sleep(0.1)
     server.kill()
-    raise SystemExit("the server did not start: " + server.stderr.read().decode())
+    server.wait()
+    log.seek(0)
+    raise SystemExit("the server did not start: " + log.read().decode(errors="replace"))
 
 
 def new_review(browser: Browser, title: str) -> int:

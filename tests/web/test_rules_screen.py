@@ -1,7 +1,7 @@
 """The Alert rules screen: rule forms, the replay page, the what-if sweep and the verdict.
 
-The data is synthetic: three weeks of five-minute samples at 100 with three bursts to 300
-lasting 30 minutes; one review records the second burst as an incident.
+The data is synthetic: three weeks of five-minute samples at 100 with three weekly bursts
+lasting 30 minutes, to 300, 300 and 500; one review records the second burst as an incident.
 """
 
 from __future__ import annotations
@@ -10,6 +10,7 @@ import html
 import io
 import json
 import re
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
@@ -25,6 +26,13 @@ from webapp.store.stats import refresh
 
 START = pd.Timestamp("2026-11-02", tz="UTC")
 BURSTS = [START + pd.Timedelta(days=d, hours=10) for d in (3, 10, 17)]
+HEIGHTS = [300.0, 300.0, 500.0]  # the third backlog is the worst
+
+
+def with_bursts(index: pd.DatetimeIndex, values: np.ndarray) -> np.ndarray:
+    for burst, height in zip(BURSTS, HEIGHTS, strict=True):
+        values[(index >= burst) & (index < burst + pd.Timedelta("30min"))] = height
+    return values
 
 
 @pytest.fixture
@@ -33,9 +41,7 @@ def watched(session) -> Series:
     session.add(series)
     session.flush()
     index = pd.date_range(START, START + pd.Timedelta(weeks=3), freq="5min", inclusive="left")
-    values = np.full(len(index), 100.0)
-    for burst in BURSTS:
-        values[(index >= burst) & (index < burst + pd.Timedelta("30min"))] = 300.0
+    values = with_bursts(index, np.full(len(index), 100.0))
     rows = [
         {"series_id": series.id, "ts": int(ts.value // 1_000_000), "value": float(v)}
         for ts, v in zip(index, values, strict=True)
@@ -422,18 +428,20 @@ def test_bad_tolerances_are_explained_and_kept(client, band_rule, query, message
 def test_a_band_rule_leaves_excluded_periods_out_of_its_band(
     client, session, band_rule, incident_review
 ) -> None:
-    """The review of the second burst is excluded from baselines (the default). Left in, that
-    burst teaches the band a weekly bump, and the third burst's firing starts early and
-    lasts longer; the report and the sweep both see the same band."""
+    """The review of the second burst is excluded from baselines (the default): the band
+    learns no weekly burst and expects 100 through the third. Left in, the second burst
+    teaches the band the weekly burst, to 300 at that hour and no ramp around it; the third,
+    to 500, is outside either way, for the same time; the report and the sweep agree."""
     url = f"/rules/{band_rule.id}/replay"
-    excluded = html.unescape(client.get(url).text)
-    assert count(excluded, "median duration") == "20 min"
-    assert current_setting(excluded)[4] == "20 min"  # time firing
-    incident_review.exclude_from_baselines = False
-    session.commit()
-    learned = html.unescape(client.get(url).text)
-    assert count(learned, "median duration") == "50 min"
-    assert current_setting(learned)[4] == "50 min"
+    for exclude, expected in ((True, 100.0), (False, 300.0)):
+        incident_review.exclude_from_baselines = exclude
+        session.commit()
+        text = html.unescape(client.get(url).text)
+        upper = band_edges(text)[1]
+        assert upper.y[upper.during(BURSTS[2])].max() == pytest.approx(expected)
+        assert count(text, "firings") == "1"
+        assert count(text, "median duration") == "20 min"
+        assert current_setting(text)[4] == "20 min"  # time firing
 
 
 @pytest.fixture
@@ -443,9 +451,7 @@ def noisy(session) -> Series:
     session.add(series)
     session.flush()
     index = pd.date_range(START, START + pd.Timedelta(weeks=3), freq="5min", inclusive="left")
-    values = 100.0 + np.random.default_rng(1).normal(0, 2, len(index))
-    for burst in BURSTS:
-        values[(index >= burst) & (index < burst + pd.Timedelta("30min"))] = 300.0
+    values = with_bursts(index, 100.0 + np.random.default_rng(1).normal(0, 2, len(index)))
     rows = [
         {"series_id": series.id, "ts": int(ts.value // 1_000_000), "value": float(v)}
         for ts, v in zip(index, values, strict=True)
@@ -499,6 +505,23 @@ def trace_values(trace: dict, axis: str) -> np.ndarray:
     return np.asarray(values, dtype=float)
 
 
+@dataclass(frozen=True)
+class Edge:
+    x: np.ndarray  # ms since the epoch
+    y: np.ndarray
+
+    def during(self, burst: pd.Timestamp) -> np.ndarray:
+        start = burst.value // 1_000_000
+        return (self.x >= start) & (self.x < start + 1_800_000)
+
+
+def band_edges(text: str, width: str = "3") -> tuple[Edge, Edge]:
+    """The lower and upper edge of the band drawn on the replay figure."""
+    name = f"expected band, band width {width}σ"
+    lower, upper = (t for t in replay_traces(text) if t.get("name") == name)
+    return tuple(Edge(trace_values(t, "x"), trace_values(t, "y")) for t in (lower, upper))
+
+
 def test_a_band_rule_replay_draws_the_band_it_fired_on(client, band_rule, monkeypatch) -> None:
     """The band drawn is the one the replay was evaluated against (expected - 3 x the lower
     side's scale to expected + 3 x the upper side's, of the daily fits), fitted once per
@@ -527,8 +550,8 @@ def test_a_band_rule_replay_draws_the_band_it_fired_on(client, band_rule, monkey
     np.testing.assert_allclose(trace_values(band[0], "y"), expected[at] - 3 * below[at])
     np.testing.assert_allclose(trace_values(band[1], "y"), expected[at] + 3 * above[at])
     assert pd.Timestamp(x.min(), unit="ms", tz="UTC") == START + pd.Timedelta(weeks=2)
-    burst = (x >= BURSTS[2].value // 1_000_000) & (x < (BURSTS[2].value // 1_000_000) + 1_800_000)
-    assert np.all(trace_values(band[1], "y")[burst] < 300.0)
+    upper = band_edges(text)[1]
+    assert np.all(upper.y[upper.during(BURSTS[2])] < HEIGHTS[2])
 
 
 def test_the_replay_band_is_downsampled_keeping_its_extremes() -> None:
